@@ -1,0 +1,56 @@
+"""ecatlab: computational-hydrogen-electrode free-energy analysis for electrocatalysis.
+
+Import is light: heavy dependencies (pymatgen, scipy submodules, matplotlib, ipywidgets) load
+only when the function that needs them is first used. Public names are resolved lazily.
+
+Results are theoretical estimates (CHE model, thermodynamics only, no kinetics); any experiment
+they inform follows local safety codes and licensed practice.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+__version__ = "0.1.0"
+
+# public name -> module that defines it
+_EXPORTS: dict[str, str] = {
+    # notation
+    "Species": "ecatlab.notation",
+    "Step": "ecatlab.notation",
+    "Pathway": "ecatlab.notation",
+    # references and energies
+    "ReferenceScheme": "ecatlab.references",
+    "EnergyTable": "ecatlab.energies",
+    "read_energies": "ecatlab.energies",
+    # pathways
+    "pathway": "ecatlab.pathways",
+    "list_pathways": "ecatlab.pathways",
+    "REACTION_FAMILIES": "ecatlab.pathways",
+    # CHE engine
+    "step_free_energies": "ecatlab.che",
+    "state_free_energies": "ecatlab.che",
+    "limiting_potentials": "ecatlab.che",
+    "equilibrium_potential": "ecatlab.che",
+    "nernst_shift": "ecatlab.che",
+    "LIMITING_POTENTIAL_COLUMNS": "ecatlab.che",
+    # demo data
+    "demo_energies": "ecatlab.demo",
+    "demo_path": "ecatlab.demo",
+}
+
+__all__ = sorted(_EXPORTS) + ["__version__"]
+
+
+def __getattr__(name: str) -> Any:
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module 'ecatlab' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return __all__

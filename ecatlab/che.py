@@ -1,0 +1,540 @@
+r"""The computational hydrogen electrode (CHE) engine.
+
+This module holds the CHE equations of ecatlab. Everything is pure numpy, vectorised over
+surfaces (and over potentials/pH where arrays are given).
+
+Free energies of the charge carriers
+------------------------------------
+Relative to the reference molecules (H2(g) is one of them) and the standard hydrogen electrode,
+with the applied potential U in V and k_B T ln(10) per pH unit:
+
+.. math::
+
+    G(e^-)   &= -e\,U_\mathrm{SHE} \\
+    G(H^+)   &= \tfrac12 G(H_2) - k_B T \ln(10)\,\mathrm{pH} \\
+    G(OH^-)  &= G(H_2O(l)) - G(H^+) \quad\text{(water autoprotolysis equilibrium)} \\
+    U_\mathrm{SHE} &= U_\mathrm{RHE} - (k_B T \ln 10 / e)\,\mathrm{pH}
+
+so a coupled proton-electron pair costs :math:`\tfrac12 G(H_2) - eU_\mathrm{RHE}`
+(Nørskov et al., J. Phys. Chem. B 108, 17886 (2004)).
+
+Step free energies
+------------------
+For step *i* with ``n_i`` electrons consumed (negative for oxidation) and ``p_i`` protons consumed
+minus hydroxide ions consumed:
+
+.. math::
+
+    \Delta G_i(U, \mathrm{pH}) = \Delta G_i^{0} + p_i\,k_B T\ln(10)\,\mathrm{pH} + n_i\,e\,U_\mathrm{SHE}
+
+where :math:`\Delta G_i^{0}` is the sum of the species free energies (adsorbates from the energy
+table, molecules from the reference scheme). On the RHE scale this is
+:math:`\Delta G_i^{0} + (p_i - n_i) k_B T \ln(10)\,\mathrm{pH} + n_i e U_\mathrm{RHE}`: a coupled
+step (``p_i = n_i``) has no pH dependence, a step with e- but no H+, or H+ without e-, has.
+
+Limiting potential, overpotential, potential-determining step
+-------------------------------------------------------------
+Write :math:`\Delta G_i(U) = a_i + n_i U` on the chosen scale. Every electrochemical step is
+downhill when :math:`U \le -a_i/n_i` for all reduction steps (:math:`n_i>0`), so
+
+.. math::
+
+    U_L^\mathrm{red} = \min_i (-a_i/n_i), \qquad U_L^\mathrm{ox} = \max_i (-a_i/n_i)
+
+and the potential-determining step is the arg-min (arg-max). With one electron per step this is
+:math:`U_L = -\max_i \Delta G_i(0)/e`. The equilibrium potential is
+:math:`U_\mathrm{eq} = -\sum_i a_i / \sum_i n_i` and the theoretical overpotential is
+:math:`\eta = U_\mathrm{eq} - U_L` (reduction) or :math:`U_L - U_\mathrm{eq}` (oxidation), in V.
+Chemical steps (no electron) cannot be moved by the potential; when uphill they are reported
+separately as potential-independent barriers.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+from typing import Iterable, Sequence
+
+import numpy as np
+import pandas as pd
+
+from ecatlab.constants import BOLTZMANN_EV, LN10, STANDARD_TEMPERATURE
+from ecatlab.energies import EnergyTable, read_energies
+from ecatlab.errors import ConditionError, ConditionsWarning, MissingDataWarning, MissingSpeciesError, PathwayError
+from ecatlab.notation import ELECTRON, HYDROXIDE, PROTON, Pathway, Species, Step
+from ecatlab.pathways import resolve
+from ecatlab.references import ReferenceScheme
+
+__all__ = [
+    "CompiledPathway",
+    "compile_pathway",
+    "step_free_energies",
+    "state_free_energies",
+    "limiting_potentials",
+    "equilibrium_potential",
+    "nernst_shift",
+    "LIMITING_POTENTIAL_COLUMNS",
+    "SCALES",
+]
+
+SCALES = ("RHE", "SHE")
+
+#: Column documentation of :func:`limiting_potentials` (units in brackets).
+LIMITING_POTENTIAL_COLUMNS: dict[str, str] = {
+    "surface": "surface name",
+    "pathway": "pathway key",
+    "reaction": "overall reaction (net equation)",
+    "direction": "reduction or oxidation",
+    "electrons": "electrons transferred per overall reaction [-]",
+    "limiting_potential": "U_L: least extreme potential at which every electrochemical step is downhill [V vs scale]",
+    "equilibrium_potential": "U_eq of the overall reaction at the stated pH and T [V vs scale]",
+    "overpotential": "theoretical overpotential |U_eq - U_L| signed so that positive means losses [V]",
+    "determining_step": "potential-determining step (equation)",
+    "determining_step_index": "1-based index of the potential-determining step [-]",
+    "max_chemical_dG": "largest free energy of a chemical (potential-independent) step; NaN if the pathway has none [eV]",
+    "uphill_chemical_steps": "chemical steps with dG > 0 (potential-independent barriers); empty if none",
+    "missing_species": "adsorbates the surface lacks for this pathway; empty if complete (then the numbers are NaN)",
+    "scale": "potential scale of limiting_potential and equilibrium_potential (RHE or SHE)",
+    "pH": "pH [-]",
+    "temperature": "temperature [K]",
+}
+
+
+def nernst_shift(pH, temperature: float = STANDARD_TEMPERATURE):
+    """k_B T ln(10) pH: the free-energy shift of one proton (eV) or of U_SHE vs U_RHE (V).
+
+    Parameters
+    ----------
+    pH : float or array_like
+    temperature : float
+        Temperature in K.
+
+    Returns
+    -------
+    float or ndarray in eV (numerically V per elementary charge).
+    """
+    return BOLTZMANN_EV * temperature * LN10 * np.asarray(pH, dtype=float)
+
+
+def _check_conditions(scale: str, pH, temperature: float) -> str:
+    sc = str(scale).upper()
+    if sc not in SCALES:
+        raise ConditionError(f"unknown potential scale {scale!r}; use 'RHE' or 'SHE'")
+    t = np.asarray(temperature, dtype=float)
+    if t.ndim != 0 or not np.isfinite(t) or t <= 0:
+        raise ConditionError(f"temperature must be one positive number of kelvin, got {temperature!r}")
+    p = np.asarray(pH, dtype=float)
+    if np.any(~np.isfinite(p)):
+        raise ConditionError(f"pH must be finite, got {pH!r}")
+    if np.any((p < -2) | (p > 16)):
+        raise ConditionError(f"pH {pH!r} is outside the aqueous range (-2 to 16)")
+    if abs(float(t) - STANDARD_TEMPERATURE) > 1.0:
+        warnings.warn(
+            f"T = {float(t):g} K: molecular free energies come from tables at 298.15 K; only the k_B T ln(10) pH "
+            "term and the reference corrections follow T",
+            ConditionsWarning,
+            stacklevel=3,
+        )
+    return sc
+
+
+@dataclass(frozen=True)
+class CompiledPathway:
+    """A pathway turned into arrays for the engine.
+
+    Attributes
+    ----------
+    pathway : Pathway
+    adsorbates : tuple of str
+        Adsorbate keys (columns of ``adsorbate_stoichiometry``).
+    adsorbate_stoichiometry : ndarray (n_steps, n_adsorbates)
+        Net coefficients (products positive).
+    molecule_dG : ndarray (n_steps,)
+        Sum over molecules (and the water part of OH-) of coefficient times G_rel, eV.
+    electrons : ndarray (n_steps,)
+        Electrons consumed per step (negative: released).
+    proton_coefficient : ndarray (n_steps,)
+        Protons consumed minus hydroxide ions consumed per step.
+    """
+
+    pathway: Pathway
+    adsorbates: tuple[str, ...]
+    adsorbate_stoichiometry: np.ndarray
+    molecule_dG: np.ndarray
+    electrons: np.ndarray
+    proton_coefficient: np.ndarray
+
+    @property
+    def electrochemical(self) -> np.ndarray:
+        return np.abs(self.electrons) > 1e-12
+
+    def dG_zero(self, adsorbate_G: np.ndarray) -> np.ndarray:
+        """Step free energies at U_SHE = 0 and pH = 0, eV; ``adsorbate_G`` is (..., n_adsorbates)."""
+        return adsorbate_G @ self.adsorbate_stoichiometry.T + self.molecule_dG
+
+    def affine(self, adsorbate_G: np.ndarray, pH=0.0, scale: str = "RHE", temperature: float = STANDARD_TEMPERATURE):
+        """Coefficients (a, n) with dG_i(U) = a_i + n_i U on the given scale; a in eV, n in e."""
+        shift = nernst_shift(pH, temperature)
+        shift = np.asarray(shift)[..., None] if np.ndim(shift) else shift
+        a = self.dG_zero(adsorbate_G) + self.proton_coefficient * shift
+        if scale == "RHE":
+            a = a - self.electrons * shift
+        return a, self.electrons
+
+
+def compile_pathway(pathway: Pathway, scheme: ReferenceScheme) -> CompiledPathway:
+    """Turn a pathway into the arrays of :class:`CompiledPathway` using ``scheme`` for molecules."""
+    return _compile(pathway.steps, tuple(a.key for a in pathway.adsorbates), scheme, pathway)
+
+
+def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: ReferenceScheme, pathway) -> CompiledPathway:
+    index = {k: j for j, k in enumerate(adsorbates)}
+    n = len(steps)
+    stoich = np.zeros((n, len(adsorbates)))
+    mol = np.zeros(n)
+    electrons = np.zeros(n)
+    protons = np.zeros(n)
+    water = scheme.molecule_free_energy("H2O(l)")
+    for i, step in enumerate(steps):
+        for sp, c in step.net().items():
+            if sp.is_adsorbate:
+                stoich[i, index[sp.key]] += c
+            elif sp.is_molecule:
+                mol[i] += c * scheme.molecule_free_energy(sp)
+            elif sp == ELECTRON:
+                electrons[i] -= c
+            elif sp == PROTON:
+                protons[i] -= c
+            elif sp == HYDROXIDE:
+                protons[i] += c
+                mol[i] += c * water
+    return CompiledPathway(pathway, adsorbates, stoich, mol, electrons, protons)
+
+
+def _adsorbate_values(table: EnergyTable, compiled: CompiledPathway, surfaces: Sequence[str]):
+    values = table.values(surfaces, compiled.adsorbates)
+    missing_mask = ~np.isfinite(values)
+    missing = {}
+    if missing_mask.any():
+        for r in np.flatnonzero(missing_mask.any(axis=1)):
+            missing[surfaces[r]] = [compiled.adsorbates[j] for j in np.flatnonzero(missing_mask[r])]
+    return values, missing
+
+
+def _as_table(energies, scheme: ReferenceScheme | None) -> EnergyTable:
+    if isinstance(energies, EnergyTable):
+        return energies
+    return read_energies(energies, references=scheme)
+
+
+def _select_surfaces(table: EnergyTable, surfaces) -> list[str]:
+    if surfaces is None:
+        return table.surfaces
+    wanted = [surfaces] if isinstance(surfaces, str) else list(surfaces)
+    known = set(table.surfaces)
+    unknown = [s for s in wanted if s not in known]
+    if unknown:
+        from ecatlab.errors import EnergyTableError
+
+        raise EnergyTableError(table.source, f"unknown surface(s) {unknown}; known: {table.surfaces}")
+    return wanted
+
+
+def step_free_energies(
+    energies,
+    pathway,
+    potential=0.0,
+    pH=0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    surfaces: Iterable[str] | None = None,
+    on_missing: str = "raise",
+) -> pd.DataFrame:
+    """Free energy of every step of a pathway on every surface.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path
+        Adsorption free energies (see :func:`ecatlab.read_energies`).
+    pathway : str or Pathway
+        Built-in key (``"orr-4e"``), a :class:`Pathway`, or step text.
+    potential : float or array_like
+        Applied potential U in V on ``scale``; an array must have one value per surface.
+    pH : float or array_like
+        pH (same broadcasting as ``potential``).
+    scale : {"RHE", "SHE"}
+        Scale of ``potential``.
+    temperature : float
+        Temperature in K (enters k_B T ln(10) pH).
+    surfaces : list of str, optional
+        Subset and order of surfaces (default: all, in table order).
+    on_missing : {"raise", "drop"}
+        Surfaces lacking an adsorbate: raise :class:`MissingSpeciesError` naming them (default) or
+        leave them out with a :class:`MissingDataWarning` naming them.
+
+    Returns
+    -------
+    DataFrame
+        Index: surface; columns: step names (``"1: O2 → OOH*"``); values: dG_i(U) in eV.
+        ``.attrs`` holds the conditions, the pathway steps and the reference scheme.
+    """
+    sc = _check_conditions(scale, pH, temperature)
+    table = _as_table(energies, None)
+    path = resolve(pathway)
+    compiled = compile_pathway(path, table.scheme)
+    names = _select_surfaces(table, surfaces)
+    values, missing = _adsorbate_values(table, compiled, names)
+    keep = _handle_missing(path, missing, names, on_missing, allow=("raise", "drop"))
+    names = [s for s, k in zip(names, keep) if k]
+    values = values[keep]
+    a, n = compiled.affine(values, _per_surface(pH, keep), sc, temperature)
+    dG = a + n * np.asarray(_per_surface(potential, keep), dtype=float)[..., None] if np.ndim(potential) else a + n * float(potential)
+    frame = pd.DataFrame(dG, index=pd.Index(names, name="surface"), columns=list(path.step_names))
+    frame.attrs.update(_attrs(path, table, potential, pH, sc, temperature, "step free energy dG_i [eV]"))
+    return frame
+
+
+def state_free_energies(
+    energies,
+    pathway,
+    potential=0.0,
+    pH=0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    surfaces: Iterable[str] | None = None,
+) -> pd.DataFrame:
+    """Cumulative free energy of every state of a pathway (first state = 0 eV), eV.
+
+    Same parameters as :func:`step_free_energies`; columns are the pathway's state labels
+    (``len(steps) + 1`` of them, made unique with a numeric prefix).
+    """
+    steps = step_free_energies(energies, pathway, potential, pH, scale, temperature, surfaces)
+    path = resolve(pathway)
+    cumulative = np.concatenate([np.zeros((len(steps), 1)), np.cumsum(steps.to_numpy(), axis=1)], axis=1)
+    cols = [f"{i}: {lab}" for i, lab in enumerate(path.labels)]
+    frame = pd.DataFrame(cumulative, index=steps.index, columns=cols)
+    frame.attrs.update(steps.attrs)
+    frame.attrs["quantity"] = "cumulative free energy of each state [eV]"
+    return frame
+
+
+def _per_surface(value, keep: np.ndarray):
+    arr = np.asarray(value, dtype=float)
+    if arr.ndim == 0:
+        return float(arr)
+    if arr.shape[0] != keep.shape[0]:
+        raise ConditionError(f"got {arr.shape[0]} values for {keep.shape[0]} surfaces; give one value per surface or a scalar")
+    return arr[keep]
+
+
+def _handle_missing(path: Pathway, missing: dict, names: list[str], on_missing: str, allow) -> np.ndarray:
+    if on_missing not in allow:
+        raise ValueError(f"on_missing must be one of {allow}, got {on_missing!r}")
+    keep = np.array([s not in missing for s in names], dtype=bool)
+    if missing:
+        if on_missing == "raise":
+            raise MissingSpeciesError(path.name, missing)
+        text = "; ".join(f"{s}: {', '.join(v)}" for s, v in missing.items())
+        action = "left out" if on_missing == "drop" else "reported with NaN values and a missing_species entry"
+        warnings.warn(f"pathway {path.name!r}: surfaces lacking adsorbates are {action}: {text}", MissingDataWarning, stacklevel=3)
+    return keep
+
+
+def _attrs(path: Pathway, table: EnergyTable, potential, pH, scale, temperature, quantity) -> dict:
+    return {
+        "quantity": quantity,
+        "pathway": path.name,
+        "steps": [s.equation for s in path.steps],
+        "potential": potential if np.ndim(potential) == 0 else list(np.asarray(potential, dtype=float)),
+        "scale": scale,
+        "pH": pH if np.ndim(pH) == 0 else list(np.asarray(pH, dtype=float)),
+        "temperature": float(temperature),
+        "references": table.scheme.describe(),
+        "energy_source": table.source,
+    }
+
+
+def _limiting(a: np.ndarray, n: np.ndarray, direction: str):
+    """Vectorised U_L, determining index and U_eq from dG_i(U) = a_i + n_i U; a is (S, N)."""
+    ec = np.abs(n) > 1e-12
+    with np.errstate(divide="ignore", invalid="ignore"):
+        onset = np.where(ec, -a / np.where(ec, n, 1.0), np.nan)
+    if direction == "reduction":
+        masked = np.where(ec, onset, np.inf)
+        idx = np.argmin(masked, axis=1)
+    else:
+        masked = np.where(ec, onset, -np.inf)
+        idx = np.argmax(masked, axis=1)
+    u_l = np.take_along_axis(masked, idx[:, None], axis=1)[:, 0]
+    u_eq = -a.sum(axis=1) / n.sum()
+    return u_l, idx, u_eq
+
+
+def limiting_potentials(
+    energies,
+    pathways,
+    pH=0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    surfaces: Iterable[str] | None = None,
+    on_missing: str = "report",
+) -> pd.DataFrame:
+    """Limiting potential, overpotential and potential-determining step per surface and pathway.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path
+        Adsorption free energies (eV).
+    pathways : str, Pathway or list of them
+        Built-in keys, Pathway objects or step text.
+    pH : float
+        pH of the electrolyte.
+    scale : {"RHE", "SHE"}
+        Scale of the returned potentials (V).
+    temperature : float
+        Temperature in K.
+    surfaces : list of str, optional
+        Subset and order of surfaces.
+    on_missing : {"report", "raise", "drop"}
+        Surfaces lacking an adsorbate a pathway needs: keep them with NaN values and the missing
+        species named in ``missing_species`` plus a :class:`MissingDataWarning` (default), raise
+        :class:`MissingSpeciesError`, or leave them out with a warning.
+
+    Returns
+    -------
+    DataFrame
+        One row per (pathway, surface); columns documented in :data:`LIMITING_POTENTIAL_COLUMNS`
+        (potentials in V on ``scale``, energies in eV). ``.attrs`` holds conditions and units.
+
+    Notes
+    -----
+    Reduction: U_L = min_i(-a_i/n_i) over electrochemical steps, eta = U_eq - U_L.
+    Oxidation: U_L = max_i(-a_i/n_i), eta = U_L - U_eq. See the module docstring.
+    """
+    sc = _check_conditions(scale, pH, temperature)
+    if np.ndim(pH) != 0:
+        raise ConditionError("limiting_potentials takes one pH value; loop over pH or use the engine arrays")
+    table = _as_table(energies, None)
+    if isinstance(pathways, (str, Pathway)):
+        pathways = [pathways]
+    names = _select_surfaces(table, surfaces)
+    frames = []
+    for p in pathways:
+        path = resolve(p)
+        compiled = compile_pathway(path, table.scheme)
+        values, missing = _adsorbate_values(table, compiled, names)
+        keep = _handle_missing(path, missing, names, on_missing, allow=("report", "raise", "drop"))
+        a, n = compiled.affine(values, pH, sc, temperature)
+        u_l, idx, u_eq = _limiting(a, n, path.direction)
+        eta = (u_eq - u_l) if path.direction == "reduction" else (u_l - u_eq)
+        chem = ~compiled.electrochemical
+        equations = np.array([s.equation for s in path.steps], dtype=object)
+        if chem.any():
+            chem_a = a[:, chem]
+            max_chem = chem_a.max(axis=1)
+            chem_eq = equations[chem]
+            uphill = [
+                "; ".join(f"{e} ({v:+.2f} eV)" for e, v in zip(chem_eq, row) if v > 0) if np.all(np.isfinite(row)) else ""
+                for row in chem_a
+            ]
+        else:
+            max_chem = np.full(len(names), np.nan)
+            uphill = [""] * len(names)
+        frame = pd.DataFrame(
+            {
+                "surface": names,
+                "pathway": path.name,
+                "reaction": path.overall_step().equation,
+                "direction": path.direction,
+                "electrons": abs(path.total_electrons),
+                "limiting_potential": u_l,
+                "equilibrium_potential": u_eq,
+                "overpotential": eta,
+                "determining_step": equations[idx],
+                "determining_step_index": idx + 1,
+                "max_chemical_dG": max_chem,
+                "uphill_chemical_steps": uphill,
+                "missing_species": [", ".join(missing.get(s, [])) for s in names],
+                "scale": sc,
+                "pH": float(pH),
+                "temperature": float(temperature),
+            }
+        )
+        bad = ~keep
+        if bad.any():
+            frame.loc[bad, ["limiting_potential", "overpotential", "max_chemical_dG"]] = np.nan
+            frame.loc[bad, "equilibrium_potential"] = u_eq_value(path, table.scheme, pH, sc, temperature)
+            frame.loc[bad, ["determining_step", "uphill_chemical_steps"]] = ""
+            frame.loc[bad, "determining_step_index"] = 0
+        if on_missing == "drop":
+            frame = frame[keep]
+        frames.append(frame)
+    result = pd.concat(frames, ignore_index=True)
+    result.attrs.update(
+        {
+            "quantity": "limiting potentials",
+            "units": {"limiting_potential": f"V vs {sc}", "equilibrium_potential": f"V vs {sc}", "overpotential": "V", "max_chemical_dG": "eV"},
+            "columns": LIMITING_POTENTIAL_COLUMNS,
+            "scale": sc,
+            "pH": float(pH),
+            "temperature": float(temperature),
+            "references": table.scheme.describe(),
+            "energy_source": table.source,
+            "notes": list(table.notes),
+        }
+    )
+    return result
+
+
+def u_eq_value(path: Pathway, scheme: ReferenceScheme, pH, scale, temperature) -> float:
+    """Equilibrium potential (V on ``scale``) of a pathway's overall reaction."""
+    return equilibrium_potential(path, scale=scale, pH=pH, temperature=temperature, references=scheme)
+
+
+def equilibrium_potential(
+    pathway_or_reaction,
+    scale: str = "RHE",
+    pH: float = 0.0,
+    temperature: float = STANDARD_TEMPERATURE,
+    references: ReferenceScheme | None = None,
+) -> float:
+    """Equilibrium potential of a pathway's overall reaction, or of a reaction, in V.
+
+    Parameters
+    ----------
+    pathway_or_reaction : str, Step or Pathway
+        Built-in key, Pathway, Step, or a reaction text such as ``"O2(g) + 4 H+ + 4 e- -> 2 H2O(l)"``.
+        Adsorbates must cancel out over the reaction.
+    scale : {"RHE", "SHE"}
+    pH : float
+    temperature : float
+        K; the tabulated molecular free energies are at 298.15 K.
+    references : ReferenceScheme, optional
+
+    Returns
+    -------
+    float
+        U_eq = -(dG_0 + p k_B T ln(10) pH) / n  (SHE) in V, shifted by k_B T ln(10) pH / e for RHE.
+
+    Examples
+    --------
+    >>> round(equilibrium_potential("orr-4e"), 3)
+    1.229
+    """
+    sc = _check_conditions(scale, pH, temperature)
+    scheme = references or ReferenceScheme()
+    if isinstance(pathway_or_reaction, Step):
+        step = pathway_or_reaction
+    elif isinstance(pathway_or_reaction, str) and "->" in pathway_or_reaction and "\n" not in pathway_or_reaction.strip():
+        step = Step.parse(pathway_or_reaction)
+    else:
+        step = resolve(pathway_or_reaction).overall_step()
+    net = step.net()
+    left = [sp.key for sp in net if sp.is_adsorbate]
+    if left:
+        raise PathwayError(f"reaction {step.equation!r} leaves adsorbates {left}; an equilibrium potential needs molecules only")
+    compiled = _compile((step,), (), scheme, None)
+    if not compiled.electrochemical.any():
+        raise PathwayError(f"reaction {step.equation!r} transfers no electrons; it has no equilibrium potential")
+    a, n = compiled.affine(np.zeros((1, 0)), pH, sc, temperature)
+    return float(-a[0, 0] / n[0]) + 0.0

@@ -1,0 +1,392 @@
+"""Energy tables: adsorption free energies of adsorbates on surfaces.
+
+An energy table has one row per (surface, adsorbate) and, per row, either
+
+* ``G``: the adsorption free energy in eV relative to the clean surface and the reference
+  molecules of the :class:`~ecatlab.references.ReferenceScheme`; or
+* ``E``: the electronic adsorption energy in eV against the same references, with the adsorbate's
+  own corrections ``ZPE``, ``CpdT`` (integral of Cp dT from 0 K), ``TS`` (T times entropy) and
+  optionally ``solvation`` (all eV). ecatlab then computes
+
+      G = E + (ZPE + CpdT - TS + solvation)_adsorbate - sum_i n_i (ZPE + CpdT - TS)_ref_i
+
+  where ``n_i`` are the reference-molecule coefficients of the adsorbate's composition, so the
+  references' corrections are subtracted exactly once. The table's :attr:`EnergyTable.notes` say
+  which rows were converted and with which reference corrections.
+
+Headers are case-insensitive. Other columns (e.g. ``source``) are kept as provenance.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+from dataclasses import dataclass, field
+from typing import Iterable, Mapping
+
+import numpy as np
+import pandas as pd
+
+from ecatlab.errors import EnergyTableError, NotationError, ReferenceSchemeError
+from ecatlab.notation import Species
+from ecatlab.references import ReferenceScheme
+
+__all__ = ["EnergyTable", "read_energies", "ENERGY_COLUMNS"]
+
+#: Recognised columns (lower-case) and their meaning; units eV.
+ENERGY_COLUMNS: dict[str, str] = {
+    "surface": "surface / site name (text)",
+    "species": "adsorbate in ecatlab notation, e.g. OOH* (text)",
+    "g": "adsorption free energy vs clean surface and reference molecules (eV)",
+    "e": "electronic adsorption energy vs clean surface and reference molecules (eV)",
+    "zpe": "zero-point energy of the adsorbate (eV); only with E",
+    "cpdt": "integral of Cp dT from 0 K to T of the adsorbate (eV); only with E",
+    "ts": "temperature times entropy of the adsorbate (eV); only with E",
+    "solvation": "solvation correction of the adsorbate (eV); only with E; empty = 0",
+}
+_CANONICAL = {"surface": "surface", "species": "species", "g": "G", "e": "E", "zpe": "ZPE", "cpdt": "CpdT", "ts": "TS", "solvation": "solvation"}
+_CORRECTIONS = ("ZPE", "CpdT", "TS", "solvation")
+
+
+@dataclass(frozen=True)
+class EnergyTable:
+    """Validated adsorption free energies, one value per (surface, adsorbate).
+
+    Attributes
+    ----------
+    frame : DataFrame
+        Long table: ``surface``, ``species`` (canonical key), ``G`` (eV), ``G_origin`` (``"G given"``
+        or ``"from E + corrections"``), ``location`` (file line or frame row) and any extra input
+        columns.
+    scheme : ReferenceScheme
+        References against which all energies are given.
+    source : str
+        File name or ``"<DataFrame>"``.
+    notes : tuple of str
+        What was computed or assumed while reading.
+    """
+
+    frame: pd.DataFrame = field(repr=False)
+    scheme: ReferenceScheme = field(repr=False)
+    source: str = "<DataFrame>"
+    notes: tuple[str, ...] = ()
+
+    # -- constructors ------------------------------------------------------------------------------
+    @classmethod
+    def from_matrix(cls, matrix: pd.DataFrame | Mapping, scheme: ReferenceScheme | None = None, source: str = "<matrix>") -> "EnergyTable":
+        """Build from a wide table: index = surfaces, columns = adsorbate keys, values = G (eV).
+
+        NaN cells mean "not computed" and are left out (pathways needing them report them missing).
+        """
+        wide = pd.DataFrame(matrix)
+        wide.index = wide.index.map(str)
+        wide.index.name = "surface"
+        long = wide.stack(future_stack=True).rename("G").reset_index()
+        long.columns = ["surface", "species", "G"]
+        long = long[np.isfinite(long["G"].to_numpy(dtype=float))]
+        return read_energies(long, references=scheme, name=source)
+
+    # -- access ------------------------------------------------------------------------------------
+    @property
+    def surfaces(self) -> list[str]:
+        """Surface names in order of first appearance."""
+        return list(pd.unique(self.frame["surface"]))
+
+    @property
+    def species(self) -> list[str]:
+        """Adsorbate keys in order of first appearance."""
+        return list(pd.unique(self.frame["species"]))
+
+    @property
+    def matrix(self) -> pd.DataFrame:
+        """Wide table of G (eV): index surfaces, columns adsorbate keys; NaN where not given."""
+        wide = self.frame.pivot(index="surface", columns="species", values="G")
+        return wide.reindex(index=self.surfaces, columns=self.species)
+
+    def values(self, surfaces: Iterable[str], species: Iterable[str]) -> np.ndarray:
+        """G (eV) as a float array (n_surfaces, n_species), NaN where missing."""
+        return self.matrix.reindex(index=list(surfaces), columns=list(species)).to_numpy(dtype=float)
+
+    def subset(self, surfaces: Iterable[str]) -> "EnergyTable":
+        """The same table restricted to some surfaces (unknown names raise)."""
+        wanted = list(surfaces)
+        unknown = [s for s in wanted if s not in set(self.surfaces)]
+        if unknown:
+            raise EnergyTableError(self.source, f"unknown surface(s) {unknown}; known: {self.surfaces}")
+        frame = self.frame[self.frame["surface"].isin(wanted)].copy()
+        return EnergyTable(frame, self.scheme, self.source, self.notes)
+
+    def with_values(self, updates: pd.DataFrame) -> "EnergyTable":
+        """A copy where the (surface, species) -> G cells of ``updates`` (wide form) replace or add values."""
+        wide = self.matrix.copy()
+        for col in updates.columns:
+            key = Species.parse(col).key
+            for surf, val in updates[col].items():
+                wide.loc[str(surf), key] = float(val)
+        return EnergyTable.from_matrix(wide, self.scheme, self.source)
+
+    def to_dict(self) -> dict:
+        """Plain-data form with schema version (round-trips through :meth:`from_dict`)."""
+        cols = ["surface", "species", "G"]
+        return {
+            "schema": "ecatlab.energies/1",
+            "source": self.source,
+            "rows": self.frame[cols].to_dict(orient="records"),
+            "references": self.scheme.to_dict(),
+            "notes": list(self.notes),
+        }
+
+    @classmethod
+    def from_dict(cls, data: Mapping) -> "EnergyTable":
+        if data.get("schema") != "ecatlab.energies/1":
+            raise EnergyTableError(str(data.get("source", "<dict>")), f"unknown schema {data.get('schema')!r}; expected 'ecatlab.energies/1'")
+        scheme = ReferenceScheme.from_dict(data["references"])
+        table = read_energies(pd.DataFrame(data["rows"]), references=scheme, name=data.get("source", "<dict>"))
+        return cls(table.frame, scheme, table.source, tuple(data.get("notes", ())))
+
+    def describe(self) -> str:
+        return f"{len(self.surfaces)} surfaces, {len(self.species)} adsorbates, {len(self.frame)} energies from {self.source}"
+
+    def __repr__(self) -> str:
+        return f"EnergyTable({self.describe()})"
+
+    def _repr_html_(self) -> str:
+        notes = "".join(f"<li>{n}</li>" for n in self.notes)
+        return (
+            f"<p><b>Energy table</b>: {self.describe()}. G in eV vs clean surface and "
+            f"{', '.join(self.scheme.references)}.</p><ul>{notes}</ul>" + self.matrix.round(3).to_html()
+        )
+
+
+# ------------------------------------------------------------------------------------------------
+def read_energies(
+    source: str | os.PathLike | pd.DataFrame,
+    references: ReferenceScheme | Iterable[str] | None = None,
+    temperature: float | None = None,
+    name: str | None = None,
+) -> EnergyTable:
+    """Read and validate an energy table (CSV file or DataFrame).
+
+    Parameters
+    ----------
+    source : path or DataFrame
+        CSV file (lines starting with ``#`` are comments) or a DataFrame with columns ``surface``,
+        ``species`` and ``G`` or ``E`` (+ ``ZPE``, ``CpdT``, ``TS``, ``solvation``), energies in eV.
+    references : ReferenceScheme or list of str, optional
+        Reference molecules (default H2(g), H2O(l), CO2(g), N2(g)).
+    temperature : float, optional
+        Temperature in K for the reference corrections (default: the scheme's, 298.15 K).
+    name : str, optional
+        Name used in messages (default: the file name).
+
+    Returns
+    -------
+    EnergyTable
+
+    Raises
+    ------
+    EnergyTableError
+        Naming the file, the line (files) or row label (frames), the column, and the fix.
+    """
+    scheme = _scheme(references, temperature)
+    if isinstance(source, pd.DataFrame):
+        label = name or "<DataFrame>"
+        raw = source.copy()
+        locations = [f"row {i!r}" for i in raw.index]
+        raw = raw.reset_index(drop=True)
+        raw = raw.astype(object).where(pd.notna(raw), "")
+    else:
+        path = os.fspath(source)
+        label = name or path
+        raw, locations = _read_csv(path, label)
+    return _validate(raw, locations, label, scheme)
+
+
+def _scheme(references, temperature) -> ReferenceScheme:
+    if isinstance(references, ReferenceScheme):
+        if temperature is not None and abs(temperature - references.temperature) > 1e-9:
+            return ReferenceScheme(references.references, temperature, references.overrides)
+        return references
+    kwargs = {}
+    if references is not None:
+        kwargs["references"] = tuple(references)
+    if temperature is not None:
+        kwargs["temperature"] = float(temperature)
+    return ReferenceScheme(**kwargs)
+
+
+def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, list[str]]:
+    if not os.path.exists(path):
+        raise EnergyTableError(label, "file not found; check the path")
+    if os.path.isdir(path):
+        raise EnergyTableError(label, "is a folder; give the CSV file (for DFT output folders use 'ecatlab ingest')")
+    try:
+        with open(path, encoding="utf-8-sig") as fh:
+            lines = fh.read().splitlines()
+    except UnicodeDecodeError:
+        raise EnergyTableError(label, "is not a UTF-8 text file; save the table as CSV (UTF-8)") from None
+    kept, linenos = [], []
+    for i, line in enumerate(lines, start=1):
+        if not line.strip() or line.lstrip().startswith("#"):
+            continue
+        kept.append(line)
+        linenos.append(i)
+    if not kept:
+        raise EnergyTableError(label, "is empty; expected a header line 'surface,species,G' (or E with corrections)")
+    try:
+        frame = pd.read_csv(io.StringIO("\n".join(kept)), dtype=str, keep_default_na=False, skipinitialspace=True)
+    except pd.errors.ParserError as exc:
+        raise EnergyTableError(label, f"is not a valid CSV table ({str(exc).strip()}); check separators and quoting") from None
+    if len(frame) != len(kept) - 1:
+        raise EnergyTableError(label, "rows could not be matched to lines (quoted line breaks?); keep one row per line")
+    return frame, [f"line {n}" for n in linenos[1:]]
+
+
+def _validate(raw: pd.DataFrame, locations: list[str], label: str, scheme: ReferenceScheme) -> EnergyTable:
+    if raw.shape[1] == 0:
+        raise EnergyTableError(label, "has no columns; expected surface, species and G or E")
+    # -- headers ----------------------------------------------------------------------------
+    rename, seen = {}, {}
+    for col in raw.columns:
+        low = str(col).strip().lower()
+        if low in _CANONICAL:
+            if low in seen:
+                raise EnergyTableError(label, f"columns {seen[low]!r} and {col!r} are the same (headers are case-insensitive); keep one", column=str(col))
+            seen[low] = col
+            rename[col] = _CANONICAL[low]
+    frame = raw.rename(columns=rename)
+    missing = [c for c in ("surface", "species") if c not in frame.columns]
+    if missing:
+        raise EnergyTableError(label, f"missing column(s) {missing}; found {list(raw.columns)}; required: surface, species and G or E")
+    if "G" not in frame.columns and "E" not in frame.columns:
+        raise EnergyTableError(label, f"needs a column G (free energy, eV) or E (electronic energy, eV); found {list(raw.columns)}")
+    if len(frame) == 0:
+        raise EnergyTableError(label, "has a header but no rows")
+    loc = np.array(locations, dtype=object)
+
+    def text_col(name: str) -> pd.Series:
+        return frame[name].astype(str).str.strip()
+
+    # -- surfaces and species -----------------------------------------------------------------
+    surface = text_col("surface")
+    bad = surface.eq("") | surface.str.lower().isin(["nan", "none"])
+    if bad.any():
+        raise EnergyTableError(label, "empty surface name; give every row a surface", rows=list(loc[bad.to_numpy()]), column="surface")
+    species_raw = text_col("species")
+    keys = []
+    parsed_cache: dict[str, Species] = {}
+    for i, text in enumerate(species_raw):
+        if text not in parsed_cache:
+            try:
+                parsed_cache[text] = Species.parse(text)
+            except NotationError as exc:
+                raise EnergyTableError(label, f"species {text!r}: {exc.reason}", rows=[loc[i]], column="species") from None
+        sp = parsed_cache[text]
+        if sp.is_site:
+            raise EnergyTableError(label, "the clean surface '*' is the zero of adsorption energies; remove this row", rows=[loc[i]], column="species")
+        if not sp.is_adsorbate:
+            raise EnergyTableError(
+                label,
+                f"species {text!r} is not an adsorbate; adsorbates end in '*'. Free energies of molecules are set "
+                "with ReferenceScheme(overrides={...})",
+                rows=[loc[i]],
+                column="species",
+            )
+        keys.append(sp.key)
+    keys_s = pd.Series(keys, index=frame.index)
+    # reachability from references
+    for text, sp in parsed_cache.items():
+        try:
+            scheme.balance(sp.elements)
+        except ReferenceSchemeError as exc:
+            rows = list(loc[species_raw.eq(text).to_numpy()])
+            raise EnergyTableError(label, f"species {sp.key}: {exc}", rows=rows, column="species") from None
+
+    # -- numbers --------------------------------------------------------------------------------
+    numeric: dict[str, np.ndarray] = {}
+    for col in ("G", "E") + _CORRECTIONS:
+        if col not in frame.columns:
+            continue
+        text = frame[col].astype(str).str.strip()
+        values = pd.to_numeric(text.where(text != "", None), errors="coerce").to_numpy(dtype=float)
+        not_number = text.ne("").to_numpy() & ~np.isfinite(values)
+        if not_number.any():
+            examples = ", ".join(repr(v) for v in text[not_number].head(3))
+            raise EnergyTableError(label, f"not a finite number ({examples}); give energies in eV as plain numbers", rows=list(loc[not_number]), column=col)
+        numeric[col] = values
+    n = len(frame)
+    has_g = np.isfinite(numeric["G"]) if "G" in numeric else np.zeros(n, bool)
+    has_e = np.isfinite(numeric["E"]) if "E" in numeric else np.zeros(n, bool)
+    neither = ~has_g & ~has_e
+    if neither.any():
+        raise EnergyTableError(label, "no energy: fill G (free energy) or E (electronic energy), in eV", rows=list(loc[neither]), column="G" if "G" in numeric else "E")
+    both = has_g & has_e
+    if both.any():
+        raise EnergyTableError(label, "both G and E given; give one of them per row (G already contains the corrections)", rows=list(loc[both]))
+    for col in _CORRECTIONS:
+        if col in numeric:
+            on_g = has_g & np.isfinite(numeric[col])
+            if on_g.any():
+                raise EnergyTableError(
+                    label,
+                    f"{col} given on a row with G; G already includes corrections, so they would be counted twice. "
+                    "Give E with corrections, or G alone",
+                    rows=list(loc[on_g]),
+                    column=col,
+                )
+    for col in ("ZPE", "CpdT", "TS"):
+        if has_e.any() and col not in numeric:
+            raise EnergyTableError(
+                label,
+                f"rows with E need the adsorbate's {col} column (eV) so that G = E + ZPE + CpdT - TS (+ solvation); "
+                "add the column, or give G instead of E",
+                rows=list(loc[has_e][:3]),
+                column=col,
+            )
+        if col in numeric:
+            empty = has_e & ~np.isfinite(numeric[col])
+            if empty.any():
+                raise EnergyTableError(label, f"{col} is empty on a row with E; give the adsorbate's {col} in eV (0 if truly none)", rows=list(loc[empty]), column=col)
+
+    # -- duplicates ---------------------------------------------------------------------------------
+    pair = surface + "\x00" + keys_s
+    dup = pair.duplicated(keep=False).to_numpy()
+    if dup.any():
+        first = pair[dup].iloc[0]
+        rows = list(loc[(pair == first).to_numpy()])
+        s, k = first.split("\x00")
+        raise EnergyTableError(label, f"duplicate rows for surface {s!r} and species {k!r}; keep one value per (surface, species)", rows=rows)
+
+    # -- free energies ---------------------------------------------------------------------------------
+    G = np.where(has_g, numeric.get("G", np.full(n, np.nan)), np.nan)
+    notes = []
+    if has_e.any():
+        uniq = list(dict.fromkeys(keys_s[has_e]))
+        coef = scheme.balance_matrix([Species.parse(k) for k in uniq])  # (n_uniq, n_refs)
+        ref_corr = scheme.reference_correction().to_numpy(dtype=float)  # (n_refs,)
+        per_species = dict(zip(uniq, coef @ ref_corr))
+        own = numeric["ZPE"] + numeric["CpdT"] - numeric["TS"]
+        if "solvation" in numeric:
+            own = own + np.nan_to_num(numeric["solvation"], nan=0.0)
+        subtract = keys_s.map(per_species).to_numpy(dtype=float)
+        G = np.where(has_e, numeric["E"] + own - subtract, G)
+        corr_text = ", ".join(f"{r} {v:+.3f}" for r, v in scheme.reference_correction().items())
+        notes.append(
+            f"G computed from E for {int(has_e.sum())} rows: G = E + ZPE + CpdT - TS + solvation - "
+            f"sum n_i (ZPE + CpdT - TS)_ref_i with reference corrections (eV) {corr_text} "
+            f"[{scheme.correction_source}] at {scheme.temperature:g} K"
+        )
+        if "solvation" in numeric:
+            empty_solv = int((has_e & ~np.isfinite(numeric["solvation"])).sum())
+            if empty_solv:
+                notes.append(f"solvation empty on {empty_solv} rows with E: taken as 0 eV")
+    if has_g.any():
+        notes.append(f"G taken as given for {int(has_g.sum())} rows")
+
+    out = pd.DataFrame({"surface": surface.to_numpy(), "species": keys_s.to_numpy(), "G": G})
+    out["G_origin"] = np.where(has_e, "from E + corrections", "G given")
+    out["location"] = loc
+    for col in frame.columns:
+        if col not in ("surface", "species", "G") and col not in out.columns:
+            out[col] = numeric[col] if col in numeric else frame[col].to_numpy()
+    return EnergyTable(out, scheme, label, tuple(notes))
