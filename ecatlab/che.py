@@ -98,6 +98,7 @@ LIMITING_POTENTIAL_COLUMNS: dict[str, str] = {
     "pH": "pH [-]",
     "temperature": "temperature [K]",
 }
+# Text columns are pandas Categoricals (fast for hundreds of thousands of rows; compare with == as usual).
 
 
 def nernst_shift(pH, temperature: float = STANDARD_TEMPERATURE):
@@ -170,7 +171,9 @@ class CompiledPathway:
 
     def dG_zero(self, adsorbate_G: np.ndarray) -> np.ndarray:
         """Step free energies at U_SHE = 0 and pH = 0, eV; ``adsorbate_G`` is (..., n_adsorbates)."""
-        return adsorbate_G @ self.adsorbate_stoichiometry.T + self.molecule_dG
+        out = np.matmul(adsorbate_G, np.ascontiguousarray(self.adsorbate_stoichiometry.T))
+        out += self.molecule_dG
+        return out
 
     def affine(self, adsorbate_G: np.ndarray, pH=0.0, scale: str = "RHE", temperature: float = STANDARD_TEMPERATURE):
         """Coefficients (a, n) with dG_i(U) = a_i + n_i U on the given scale; a in eV, n in e."""
@@ -229,7 +232,7 @@ def _as_table(energies, scheme: ReferenceScheme | None) -> EnergyTable:
 
 def _select_surfaces(table: EnergyTable, surfaces) -> list[str]:
     if surfaces is None:
-        return table.surfaces
+        return table._surface_list  # the cached list itself: lets table.values() skip the lookup
     wanted = [surfaces] if isinstance(surfaces, str) else list(surfaces)
     known = set(table.surfaces)
     unknown = [s for s in wanted if s not in known]
@@ -330,8 +333,9 @@ def _per_surface(value, keep: np.ndarray):
 def _handle_missing(path: Pathway, missing: dict, names: list[str], on_missing: str, allow) -> np.ndarray:
     if on_missing not in allow:
         raise ValueError(f"on_missing must be one of {allow}, got {on_missing!r}")
-    keep = np.array([s not in missing for s in names], dtype=bool)
+    keep = np.ones(len(names), dtype=bool)
     if missing:
+        keep = np.array([s not in missing for s in names], dtype=bool)
         if on_missing == "raise":
             raise MissingSpeciesError(path.name, missing)
         text = "; ".join(f"{s}: {', '.join(v)}" for s, v in missing.items())
@@ -355,19 +359,16 @@ def _attrs(path: Pathway, table: EnergyTable, potential, pH, scale, temperature,
 
 
 def _limiting(a: np.ndarray, n: np.ndarray, direction: str):
-    """Vectorised U_L, determining index and U_eq from dG_i(U) = a_i + n_i U; a is (S, N)."""
-    ec = np.abs(n) > 1e-12
-    with np.errstate(divide="ignore", invalid="ignore"):
-        onset = np.where(ec, -a / np.where(ec, n, 1.0), np.nan)
-    if direction == "reduction":
-        masked = np.where(ec, onset, np.inf)
-        idx = np.argmin(masked, axis=1)
-    else:
-        masked = np.where(ec, onset, -np.inf)
-        idx = np.argmax(masked, axis=1)
-    u_l = np.take_along_axis(masked, idx[:, None], axis=1)[:, 0]
-    u_eq = -a.sum(axis=1) / n.sum()
-    return u_l, idx, u_eq
+    """Vectorised U_L and determining-step index from dG_i(U) = a_i + n_i U; ``a`` is (S, N).
+
+    Returns (U_L in V, index into the steps); U_L = min_i(-a_i/n_i) for reduction, max for oxidation,
+    over electrochemical steps only.
+    """
+    ec = np.flatnonzero(np.abs(n) > 1e-12)
+    onset = a[:, ec] / (-n[ec])
+    local = np.argmin(onset, axis=1) if direction == "reduction" else np.argmax(onset, axis=1)
+    u_l = np.take_along_axis(onset, local[:, None], axis=1)[:, 0]
+    return u_l, ec[local]
 
 
 def limiting_potentials(
@@ -418,58 +419,65 @@ def limiting_potentials(
     if isinstance(pathways, (str, Pathway)):
         pathways = [pathways]
     names = _select_surfaces(table, surfaces)
-    frames = []
+    n_s = len(names)
+    surface_array = np.asarray(names, dtype=object)
+    columns: dict[str, list] = {c: [] for c in LIMITING_POTENTIAL_COLUMNS}
     for p in pathways:
         path = resolve(p)
         compiled = compile_pathway(path, table.scheme)
         values, missing = _adsorbate_values(table, compiled, names)
         keep = _handle_missing(path, missing, names, on_missing, allow=("report", "raise", "drop"))
         a, n = compiled.affine(values, pH, sc, temperature)
-        u_l, idx, u_eq = _limiting(a, n, path.direction)
+        u_l, idx = _limiting(a, n, path.direction)
+        u_eq = np.full(n_s, equilibrium_potential(path, sc, pH, temperature, table.scheme))
         eta = (u_eq - u_l) if path.direction == "reduction" else (u_l - u_eq)
         chem = ~compiled.electrochemical
         equations = np.array([s.equation for s in path.steps], dtype=object)
         if chem.any():
             chem_a = a[:, chem]
             max_chem = chem_a.max(axis=1)
-            chem_eq = equations[chem]
-            uphill = [
-                "; ".join(f"{e} ({v:+.2f} eV)" for e, v in zip(chem_eq, row) if v > 0) if np.all(np.isfinite(row)) else ""
-                for row in chem_a
-            ]
+            uphill = _uphill_text(chem_a, equations[chem])
         else:
-            max_chem = np.full(len(names), np.nan)
-            uphill = [""] * len(names)
-        frame = pd.DataFrame(
-            {
-                "surface": names,
-                "pathway": path.name,
-                "reaction": path.overall_step().equation,
-                "direction": path.direction,
-                "electrons": abs(path.total_electrons),
-                "limiting_potential": u_l,
-                "equilibrium_potential": u_eq,
-                "overpotential": eta,
-                "determining_step": equations[idx],
-                "determining_step_index": idx + 1,
-                "max_chemical_dG": max_chem,
-                "uphill_chemical_steps": uphill,
-                "missing_species": [", ".join(missing.get(s, [])) for s in names],
-                "scale": sc,
-                "pH": float(pH),
-                "temperature": float(temperature),
-            }
-        )
+            max_chem = np.full(n_s, np.nan)
+            uphill = np.full(n_s, "", dtype=object)
+        determining = equations[idx]
+        index = idx + 1
         bad = ~keep
         if bad.any():
-            frame.loc[bad, ["limiting_potential", "overpotential", "max_chemical_dG"]] = np.nan
-            frame.loc[bad, "equilibrium_potential"] = u_eq_value(path, table.scheme, pH, sc, temperature)
-            frame.loc[bad, ["determining_step", "uphill_chemical_steps"]] = ""
-            frame.loc[bad, "determining_step_index"] = 0
-        if on_missing == "drop":
-            frame = frame[keep]
-        frames.append(frame)
-    result = pd.concat(frames, ignore_index=True)
+            u_l, eta, max_chem = (np.where(bad, np.nan, x) for x in (u_l, eta, max_chem))
+            determining = np.where(bad, "", determining)
+            uphill = np.where(bad, "", uphill)
+            index = np.where(bad, 0, index)
+        rows = keep if on_missing == "drop" else slice(None)
+        m = int(keep.sum()) if on_missing == "drop" else n_s
+        const = lambda value: _Constant(value, m)  # noqa: E731
+        columns["surface"].append(np.arange(n_s)[rows])
+        columns["pathway"].append(const(path.name))
+        columns["reaction"].append(const(path.overall_step().equation))
+        columns["direction"].append(const(path.direction))
+        columns["electrons"].append(np.full(m, abs(path.total_electrons)))
+        columns["limiting_potential"].append(u_l[rows])
+        columns["equilibrium_potential"].append(u_eq[rows])
+        columns["overpotential"].append(eta[rows])
+        columns["determining_step"].append(np.asarray(determining, dtype=object)[rows])
+        columns["determining_step_index"].append(np.asarray(index)[rows])
+        columns["max_chemical_dG"].append(max_chem[rows])
+        columns["uphill_chemical_steps"].append(np.asarray(uphill, dtype=object)[rows])
+        columns["missing_species"].append(_missing_text(names, missing)[rows])
+        columns["scale"].append(const(sc))
+        columns["pH"].append(np.full(m, float(pH)))
+        columns["temperature"].append(np.full(m, float(temperature)))
+    surface_codes = np.concatenate(columns.pop("surface"))
+    if len(set(names)) == len(names):
+        data = {"surface": pd.Categorical.from_codes(surface_codes, list(names))}
+    else:  # the caller repeated a surface name: keep plain text
+        data = {"surface": pd.Series(surface_array[surface_codes], dtype=object)}
+    for col, parts in columns.items():
+        if parts and (isinstance(parts[0], _Constant) or parts[0].dtype == object):
+            data[col] = _categorical(parts)
+        else:
+            data[col] = np.concatenate(parts) if parts else np.array([], dtype=float)
+    result = pd.DataFrame(data)
     result.attrs.update(
         {
             "quantity": "limiting potentials",
@@ -484,6 +492,51 @@ def limiting_potentials(
         }
     )
     return result
+
+
+@dataclass(frozen=True)
+class _Constant:
+    """A text column part holding one value ``size`` times (stored without materialising it)."""
+
+    value: str
+    size: int
+
+
+def _categorical(parts: list[np.ndarray]) -> pd.Categorical:
+    """Concatenate object arrays of text into one Categorical, factorising each (small) part once."""
+    categories: dict[str, int] = {}
+    codes = []
+    for part in parts:
+        if isinstance(part, _Constant):
+            code = categories.setdefault(part.value, len(categories))
+            codes.append(np.full(part.size, code, dtype=np.int64))
+            continue
+        local_codes, uniques = pd.factorize(part)
+        remap = np.array([categories.setdefault(u, len(categories)) for u in uniques], dtype=np.int64)
+        codes.append(remap[local_codes] if len(remap) else local_codes.astype(np.int64))
+    return pd.Categorical.from_codes(np.concatenate(codes) if codes else np.array([], dtype=np.int64), list(categories))
+
+
+def _missing_text(names: list[str], missing: dict) -> np.ndarray:
+    out = np.full(len(names), "", dtype=object)
+    if missing:
+        out[:] = [", ".join(missing.get(s, [])) for s in names]
+    return out
+
+
+def _uphill_text(chem_a: np.ndarray, equations: np.ndarray) -> np.ndarray:
+    """'step (+0.12 eV); ...' for the uphill chemical steps of each row, vectorised over rows."""
+    out = np.full(chem_a.shape[0], "", dtype=object)
+    for j, eq in enumerate(equations):
+        col = chem_a[:, j]
+        up = np.isfinite(col) & (col > 0)
+        if not up.any():
+            continue
+        text = pd.Series(col[up]).map("{:+.2f}".format).to_numpy(dtype=object)
+        piece = eq + " (" + text + " eV)"
+        joined = np.where(out[up] == "", piece, out[up] + "; " + piece)
+        out[up] = joined
+    return out
 
 
 def u_eq_value(path: Pathway, scheme: ReferenceScheme, pH, scale, temperature) -> float:

@@ -22,6 +22,7 @@ from __future__ import annotations
 import io
 import os
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Iterable, Mapping
 
 import numpy as np
@@ -90,22 +91,45 @@ class EnergyTable:
     @property
     def surfaces(self) -> list[str]:
         """Surface names in order of first appearance."""
-        return list(pd.unique(self.frame["surface"]))
+        return list(self._surface_list)
+
+    @cached_property
+    def _surface_list(self) -> list[str]:
+        return list(self._wide.index)
 
     @property
     def species(self) -> list[str]:
         """Adsorbate keys in order of first appearance."""
-        return list(pd.unique(self.frame["species"]))
+        return list(self._wide.columns)
 
     @property
     def matrix(self) -> pd.DataFrame:
-        """Wide table of G (eV): index surfaces, columns adsorbate keys; NaN where not given."""
-        wide = self.frame.pivot(index="surface", columns="species", values="G")
-        return wide.reindex(index=self.surfaces, columns=self.species)
+        """Wide table of G (eV): index surfaces, columns adsorbate keys; NaN where not given (a copy)."""
+        return self._wide.copy()
 
-    def values(self, surfaces: Iterable[str], species: Iterable[str]) -> np.ndarray:
-        """G (eV) as a float array (n_surfaces, n_species), NaN where missing."""
-        return self.matrix.reindex(index=list(surfaces), columns=list(species)).to_numpy(dtype=float)
+    @cached_property
+    def _wide(self) -> pd.DataFrame:
+        rows, surfaces = _codes(self.frame["surface"])
+        cols, species = _codes(self.frame["species"])
+        surfaces, species = pd.Index(surfaces, name="surface", dtype=object), pd.Index(species, name="species", dtype=object)
+        values = np.full((len(surfaces), len(species)), np.nan)
+        values[rows, cols] = self.frame["G"].to_numpy(dtype=float)
+        return pd.DataFrame(values, index=surfaces, columns=species)
+
+    def values(self, surfaces: Iterable[str] | None, species: Iterable[str]) -> np.ndarray:
+        """G (eV) as a float array (n_surfaces, n_species), NaN where missing (``surfaces=None``: all)."""
+        wide = self._wide
+        species = list(species)
+        if surfaces is None or surfaces is self._surface_list:
+            r = np.arange(len(wide.index))
+        else:
+            r = wide.index.get_indexer(list(surfaces))
+        c = wide.columns.get_indexer(species)
+        base = wide.to_numpy()
+        out = np.full((len(r), len(species)), np.nan)
+        ok_r, ok_c = r >= 0, c >= 0
+        out[np.ix_(ok_r, ok_c)] = base[np.ix_(r[ok_r], c[ok_c])]
+        return out
 
     def subset(self, surfaces: Iterable[str]) -> "EnergyTable":
         """The same table restricted to some surfaces (unknown names raise)."""
@@ -191,15 +215,59 @@ def read_energies(
     scheme = _scheme(references, temperature)
     if isinstance(source, pd.DataFrame):
         label = name or "<DataFrame>"
-        raw = source.copy()
-        locations = [f"row {i!r}" for i in raw.index]
-        raw = raw.reset_index(drop=True)
-        raw = raw.astype(object).where(pd.notna(raw), "")
+        raw = source.reset_index(drop=True)  # a new frame; the caller's is never modified
+        locations = _Locations(source.index.to_numpy(), "row")
     else:
         path = os.fspath(source)
         label = name or path
         raw, locations = _read_csv(path, label)
     return _validate(raw, locations, label, scheme)
+
+
+def _codes(column: pd.Series) -> tuple[np.ndarray, list]:
+    """Integer codes and distinct values of a column, in order of first appearance."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        codes = column.cat.codes.to_numpy()
+        cats = list(column.cat.categories)
+        used, first = np.unique(codes, return_index=True)
+        order = used[np.argsort(first)]
+        remap = np.full(len(cats), -1, dtype=np.int64)
+        remap[order] = np.arange(len(order))
+        return remap[codes], [cats[i] for i in order]
+    codes, uniques = pd.factorize(column)
+    return codes, list(uniques)
+
+
+class _Locations:
+    """Row locations for messages: file line numbers or DataFrame index labels, formatted lazily."""
+
+    def __init__(self, labels: np.ndarray, kind: str):
+        self.labels = np.asarray(labels)
+        self.kind = kind  # "line" (file line number) or "row" (DataFrame index label)
+
+    def _fmt(self, value) -> str:
+        return f"line {value}" if self.kind == "line" else f"row {value!r}"
+
+    def __getitem__(self, item):
+        picked = self.labels[item]
+        if np.ndim(picked) == 0:
+            return self._fmt(picked.item() if hasattr(picked, "item") else picked)
+        return [self._fmt(v.item() if hasattr(v, "item") else v) for v in picked]
+
+
+class _FirstRow(list):
+    """Location of the first row holding a value, computed only when an error message needs it."""
+
+    def __init__(self, column: pd.Series, value: str, loc: np.ndarray):
+        super().__init__()
+        self._args = (column, value, loc)
+
+    def __iter__(self):
+        column, value, loc = self._args
+        return iter([loc[int(np.flatnonzero(column.to_numpy() == value)[0])]])  # noqa: B023
+
+    def __len__(self) -> int:
+        return 1
 
 
 def _scheme(references, temperature) -> ReferenceScheme:
@@ -215,7 +283,7 @@ def _scheme(references, temperature) -> ReferenceScheme:
     return ReferenceScheme(**kwargs)
 
 
-def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, list[str]]:
+def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, "_Locations"]:
     if not os.path.exists(path):
         raise EnergyTableError(label, "file not found; check the path")
     if os.path.isdir(path):
@@ -239,10 +307,10 @@ def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, list[str]]:
         raise EnergyTableError(label, f"is not a valid CSV table ({str(exc).strip()}); check separators and quoting") from None
     if len(frame) != len(kept) - 1:
         raise EnergyTableError(label, "rows could not be matched to lines (quoted line breaks?); keep one row per line")
-    return frame, [f"line {n}" for n in linenos[1:]]
+    return frame, _Locations(np.array(linenos[1:]), "line")
 
 
-def _validate(raw: pd.DataFrame, locations: list[str], label: str, scheme: ReferenceScheme) -> EnergyTable:
+def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: ReferenceScheme) -> EnergyTable:
     if raw.shape[1] == 0:
         raise EnergyTableError(label, "has no columns; expected surface, species and G or E")
     # -- headers ----------------------------------------------------------------------------
@@ -262,44 +330,59 @@ def _validate(raw: pd.DataFrame, locations: list[str], label: str, scheme: Refer
         raise EnergyTableError(label, f"needs a column G (free energy, eV) or E (electronic energy, eV); found {list(raw.columns)}")
     if len(frame) == 0:
         raise EnergyTableError(label, "has a header but no rows")
-    loc = np.array(locations, dtype=object)
+    loc = locations
+
+    def text_codes(name: str) -> tuple[np.ndarray, np.ndarray]:
+        """(codes, distinct stripped texts) of a text column; each distinct value is cleaned once."""
+        codes, uniques = pd.factorize(frame[name], use_na_sentinel=True)
+        cleaned = [("" if u is None or (isinstance(u, float) and u != u) else str(u).strip()) for u in uniques]
+        merged, distinct = pd.factorize(np.array(cleaned + [""], dtype=object))  # index -1 (missing) -> ""
+        row_codes = merged[codes]
+        used, first = np.unique(row_codes, return_index=True)  # keep used values, in order of appearance
+        order = used[np.argsort(first)]
+        remap = np.full(len(distinct), -1, dtype=np.int64)
+        remap[order] = np.arange(len(order))
+        return remap[row_codes], np.asarray(distinct, dtype=object)[order]
 
     def text_col(name: str) -> pd.Series:
-        return frame[name].astype(str).str.strip()
+        codes, distinct = text_codes(name)
+        return pd.Series(distinct[codes], index=frame.index, dtype=object)
 
     # -- surfaces and species -----------------------------------------------------------------
-    surface = text_col("surface")
-    bad = surface.eq("") | surface.str.lower().isin(["nan", "none"])
+    surface_codes, surface_names = text_codes("surface")
+    bad_names = np.array([t == "" or t.lower() in ("nan", "none") for t in surface_names], dtype=bool)
+    bad = bad_names[surface_codes]
     if bad.any():
-        raise EnergyTableError(label, "empty surface name; give every row a surface", rows=list(loc[bad.to_numpy()]), column="surface")
-    species_raw = text_col("species")
-    keys = []
+        raise EnergyTableError(label, "empty surface name; give every row a surface", rows=loc[bad], column="surface")
+    species_codes, species_texts = text_codes("species")
+    species_raw = pd.Series(species_texts[species_codes], dtype=object)  # only read on error paths
     parsed_cache: dict[str, Species] = {}
-    for i, text in enumerate(species_raw):
-        if text not in parsed_cache:
-            try:
-                parsed_cache[text] = Species.parse(text)
-            except NotationError as exc:
-                raise EnergyTableError(label, f"species {text!r}: {exc.reason}", rows=[loc[i]], column="species") from None
-        sp = parsed_cache[text]
+    for text in species_texts:
+        first = _FirstRow(species_raw, text, loc)
+        try:
+            sp = Species.parse(text)
+        except NotationError as exc:
+            raise EnergyTableError(label, f"species {text!r}: {exc.reason}", rows=first, column="species") from None
         if sp.is_site:
-            raise EnergyTableError(label, "the clean surface '*' is the zero of adsorption energies; remove this row", rows=[loc[i]], column="species")
+            raise EnergyTableError(label, "the clean surface '*' is the zero of adsorption energies; remove this row", rows=first, column="species")
         if not sp.is_adsorbate:
             raise EnergyTableError(
                 label,
                 f"species {text!r} is not an adsorbate; adsorbates end in '*'. Free energies of molecules are set "
                 "with ReferenceScheme(overrides={...})",
-                rows=[loc[i]],
+                rows=first,
                 column="species",
             )
-        keys.append(sp.key)
-    keys_s = pd.Series(keys, index=frame.index)
+        parsed_cache[text] = sp
+    key_codes, key_names = pd.factorize(np.array([parsed_cache[t].key for t in species_texts], dtype=object))
+    species_codes = key_codes[species_codes]
+    key_names = np.asarray(key_names, dtype=object)
     # reachability from references
     for text, sp in parsed_cache.items():
         try:
             scheme.balance(sp.elements)
         except ReferenceSchemeError as exc:
-            rows = list(loc[species_raw.eq(text).to_numpy()])
+            rows = loc[(species_raw == text).to_numpy()]
             raise EnergyTableError(label, f"species {sp.key}: {exc}", rows=rows, column="species") from None
 
     # -- numbers --------------------------------------------------------------------------------
@@ -307,9 +390,15 @@ def _validate(raw: pd.DataFrame, locations: list[str], label: str, scheme: Refer
     for col in ("G", "E") + _CORRECTIONS:
         if col not in frame.columns:
             continue
-        text = frame[col].astype(str).str.strip()
-        values = pd.to_numeric(text.where(text != "", None), errors="coerce").to_numpy(dtype=float)
-        not_number = text.ne("").to_numpy() & ~np.isfinite(values)
+        column = frame[col]
+        if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
+            values = column.to_numpy(dtype=float)
+            not_number = np.isinf(values)
+            text = column.astype(str)
+        else:
+            text = column.where(column.notna(), "").astype(str).str.strip()
+            values = pd.to_numeric(text.where(text != "", None), errors="coerce").to_numpy(dtype=float)
+            not_number = text.ne("").to_numpy() & ~np.isfinite(values)
         if not_number.any():
             examples = ", ".join(repr(v) for v in text[not_number].head(3))
             raise EnergyTableError(label, f"not a finite number ({examples}); give energies in eV as plain numbers", rows=list(loc[not_number]), column=col)
@@ -349,26 +438,25 @@ def _validate(raw: pd.DataFrame, locations: list[str], label: str, scheme: Refer
                 raise EnergyTableError(label, f"{col} is empty on a row with E; give the adsorbate's {col} in eV (0 if truly none)", rows=list(loc[empty]), column=col)
 
     # -- duplicates ---------------------------------------------------------------------------------
-    pair = surface + "\x00" + keys_s
-    dup = pair.duplicated(keep=False).to_numpy()
+    pair = surface_codes.astype(np.int64) * (len(key_names) + 1) + species_codes
+    dup = pd.Series(pair).duplicated(keep=False).to_numpy()
     if dup.any():
-        first = pair[dup].iloc[0]
-        rows = list(loc[(pair == first).to_numpy()])
-        s, k = first.split("\x00")
+        first = pair[dup][0]
+        s, k = surface_names[surface_codes[dup][0]], key_names[species_codes[dup][0]]
+        rows = loc[pair == first]
         raise EnergyTableError(label, f"duplicate rows for surface {s!r} and species {k!r}; keep one value per (surface, species)", rows=rows)
 
     # -- free energies ---------------------------------------------------------------------------------
     G = np.where(has_g, numeric.get("G", np.full(n, np.nan)), np.nan)
     notes = []
     if has_e.any():
-        uniq = list(dict.fromkeys(keys_s[has_e]))
-        coef = scheme.balance_matrix([Species.parse(k) for k in uniq])  # (n_uniq, n_refs)
+        coef = scheme.balance_matrix([Species.parse(k) for k in key_names])  # (n_keys, n_refs)
         ref_corr = scheme.reference_correction().to_numpy(dtype=float)  # (n_refs,)
-        per_species = dict(zip(uniq, coef @ ref_corr))
+        per_key = coef @ ref_corr
         own = numeric["ZPE"] + numeric["CpdT"] - numeric["TS"]
         if "solvation" in numeric:
             own = own + np.nan_to_num(numeric["solvation"], nan=0.0)
-        subtract = keys_s.map(per_species).to_numpy(dtype=float)
+        subtract = per_key[species_codes]
         G = np.where(has_e, numeric["E"] + own - subtract, G)
         corr_text = ", ".join(f"{r} {v:+.3f}" for r, v in scheme.reference_correction().items())
         notes.append(
@@ -383,9 +471,16 @@ def _validate(raw: pd.DataFrame, locations: list[str], label: str, scheme: Refer
     if has_g.any():
         notes.append(f"G taken as given for {int(has_g.sum())} rows")
 
-    out = pd.DataFrame({"surface": surface.to_numpy(), "species": keys_s.to_numpy(), "G": G})
-    out["G_origin"] = np.where(has_e, "from E + corrections", "G given")
-    out["location"] = loc
+    origin = pd.Categorical.from_codes(has_e.astype(np.int8), ["G given", "from E + corrections"])
+    out = pd.DataFrame(
+        {
+            "surface": pd.Categorical.from_codes(surface_codes, list(surface_names)),
+            "species": pd.Categorical.from_codes(species_codes, list(key_names)),
+            "G": G,
+            "G_origin": origin,
+            loc.kind: loc.labels,
+        }
+    )
     for col in frame.columns:
         if col not in ("surface", "species", "G") and col not in out.columns:
             out[col] = numeric[col] if col in numeric else frame[col].to_numpy()

@@ -163,3 +163,8 @@ class ConditionsWarning(EcatlabWarning):
 
 class CorrectionWarning(EcatlabWarning):
     """A thermochemical correction was assumed, modified or applied implicitly."""
+
+
+class ScalingError(EcatlabError, ValueError):
+    """A scaling-relation fit or a volcano/map built on scaling relations cannot be done
+    (too few surfaces, an adsorbate not tied to the descriptors, dependent descriptors...)."""

@@ -39,12 +39,15 @@ def _element_counts(formula: str) -> tuple[tuple[str, float], ...]:
     """Element counts of a formula via pymatgen (imported lazily), sorted by element symbol."""
     if not formula:
         return ()
-    from pymatgen.core import Composition
+    from pymatgen.core import Composition, Element
 
     try:
         comp = Composition(formula)
     except Exception as exc:  # pymatgen raises several types for bad formulas
         raise NotationError(formula, f"not a chemical formula ({exc})") from None
+    unknown = [str(el) for el in comp.elements if not isinstance(el, Element)]
+    if unknown:
+        raise NotationError(formula, f"not a chemical formula (unknown element symbol(s) {', '.join(unknown)})")
     counts = {str(el): float(n) for el, n in comp.get_el_amt_dict().items()}
     return tuple(sorted(counts.items()))
 
@@ -313,7 +316,7 @@ def _parse_side(original: str, side: str) -> tuple[tuple[Species, float], ...]:
     terms: dict[Species, float] = {}
     order: list[Species] = []
     # split on '+' that separates terms: a '+' followed by whitespace or end, not the one in 'H+'
-    tokens = re.split(r"\s\+\s|\s\+$|^\+\s", " " + side.strip() + " ")
+    tokens = re.split(r"(?<=\s)\+(?=\s)", " " + side.strip() + " ")
     for token in tokens:
         token = token.strip()
         if not token:

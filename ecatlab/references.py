@@ -102,10 +102,19 @@ def default_reference_corrections(temperature: float) -> tuple[pd.DataFrame, str
         Table indexed by reference species key with columns ``ZPE``, ``CpdT``, ``TS`` in eV, and a
         sentence saying where the numbers come from.
     """
-    return (
-        _FIXED_REFERENCE_CORRECTIONS.copy(),
-        "fixed table at 298.15 K (common practice, no single source)",
+    # Computed from the built-in gas library (ecatlab.molecules / ecatlab.thermochemistry): ideal
+    # gas, rigid rotor, harmonic oscillator at `temperature`, gases at 1 bar, H2O(l) as vapour at
+    # 0.035 bar (common practice). Rows for every library molecule as gas, so that any choice of
+    # reference molecules finds its corrections. Imported lazily to keep `import ecatlab` light.
+    from ecatlab.molecules import DEFAULT_WATER_VAPOUR_PRESSURE_BAR, available_gases, reference_corrections
+
+    keys = [f"{formula}(g)" for formula in available_gases()] + ["H2O(l)"]
+    table = reference_corrections(keys, float(temperature))
+    source = (
+        f"computed at {float(temperature):g} K from the built-in gas library (ideal gas, rigid rotor, harmonic "
+        f"fundamentals; gases at 1 bar, H2O(l) as vapour at {DEFAULT_WATER_VAPOUR_PRESSURE_BAR:g} bar)"
     )
+    return table[["ZPE", "CpdT", "TS"]].astype(float).rename_axis(None), source
 
 
 @dataclass(frozen=True)

@@ -636,18 +636,48 @@ def detect_rotational_symmetry(
         raise ThermochemistryError(f"positions must have shape ({len(symbols)}, 3), got {coords.shape}")
     if len(symbols) == 1:
         return RotationalSymmetry("Kh", 1, False, "single atom")
+    linear = _is_collinear(coords, tolerance_angstrom=LINEAR_TOLERANCE_ANGSTROM)
     molecule = Molecule(list(symbols), coords)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        analyzer = PointGroupAnalyzer(molecule, tolerance=tolerance_angstrom, eigen_tolerance=eigen_tolerance)
-        symbol = analyzer.sch_symbol
-    linear = symbol in ("C*v", "D*h")
+    # A loose eigen_tolerance helps noisy symmetric tops (NH3, CH4), but pymatgen then calls some
+    # near-prolate molecules (H2O2) linear without checking any operation. Linearity is decided
+    # geometrically above; the tolerance is tightened until pymatgen agrees with it.
+    symbol = None
+    tried = []
+    for eig_tol in dict.fromkeys((eigen_tolerance, 0.05, 0.03, 0.01)):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            candidate = PointGroupAnalyzer(molecule, tolerance=tolerance_angstrom, eigen_tolerance=eig_tol).sch_symbol
+        tried.append(eig_tol)
+        if (candidate in ("C*v", "D*h")) == linear:
+            symbol = candidate
+            break
+    if symbol is None:
+        raise ThermochemistryError(
+            "point-group detection disagrees with the geometry (collinear: "
+            f"{linear}); pass symmetry_number and linear explicitly"
+        )
     return RotationalSymmetry(
         point_group=symbol,
         symmetry_number=symmetry_number_from_point_group(symbol),
         linear=linear,
-        source=f"detected (pymatgen PointGroupAnalyzer, tolerance {tolerance_angstrom:g} A, eigen_tolerance {eigen_tolerance:g})",
+        source=(
+            f"detected (pymatgen PointGroupAnalyzer, tolerance {tolerance_angstrom:g} A, "
+            f"eigen_tolerance {tried[-1]:g})"
+        ),
     )
+
+
+#: Largest distance (angstrom) of an atom from the molecular axis for the molecule to count as linear.
+LINEAR_TOLERANCE_ANGSTROM: float = 0.1
+
+
+def _is_collinear(coords: np.ndarray, tolerance_angstrom: float) -> bool:
+    """True if every atom lies within ``tolerance_angstrom`` of one straight line."""
+    centred = coords - coords.mean(axis=0)
+    _, _, vt = np.linalg.svd(centred)
+    axis = vt[0]
+    perpendicular = centred - np.outer(centred @ axis, axis)
+    return bool(np.max(np.linalg.norm(perpendicular, axis=1)) < tolerance_angstrom)
 
 
 # ---------------------------------------------------------------------------------------------

@@ -1,0 +1,5 @@
+import sys
+
+from ecatlab.cli import main
+
+sys.exit(main())

@@ -1,0 +1,105 @@
+"""``ecatlab demo [-o DIR]``: the whole analysis on the bundled ILLUSTRATIVE demo data.
+
+Writes, into an output folder it marks as its own (file ``.ecatlab-output``):
+
+* ``limiting_potentials.csv`` / ``.md`` / ``.tex`` — limiting-potential table of every built-in
+  pathway (ORR, OER, HER, CO2RR, NRR) for the twelve hypothetical surfaces;
+* ``ranking.csv`` / ``.md`` — surfaces ranked per pathway by theoretical overpotential;
+* ``diagrams/<pathway>.svg`` and ``.png`` — free-energy diagram of the best surfaces at U = 0;
+* ``report.html`` — the one-file report.
+
+It never overwrites files it did not make: a folder that exists, is not empty and lacks the
+marker is refused with an error naming it.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import pathlib
+import time
+
+from ecatlab.errors import EcatlabError
+
+MARKER = ".ecatlab-output"
+DEFAULT_DIR = "ecatlab-demo-output"
+
+
+class OutputFolderError(EcatlabError, FileExistsError):
+    """The output folder exists with files ecatlab did not write."""
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "demo",
+        help="run the whole analysis on the bundled illustrative demo data and write tables, diagrams and a report",
+        description=(
+            "Run every built-in pathway on the bundled ILLUSTRATIVE demo table (invented numbers, hypothetical "
+            "surfaces) and write limiting-potential tables (CSV, Markdown, LaTeX), diagrams (SVG, PNG) and report.html."
+        ),
+    )
+    parser.add_argument("-o", "--output", default=DEFAULT_DIR, metavar="DIR",
+                        help=f"output folder (default ./{DEFAULT_DIR}); refused if it holds files not made by ecatlab")
+    parser.set_defaults(func=run)
+
+
+def prepare_output(folder: str | pathlib.Path) -> pathlib.Path:
+    """Create (or reuse) an ecatlab output folder; refuse a non-empty folder ecatlab did not make."""
+    from ecatlab import __version__
+
+    out = pathlib.Path(folder)
+    if out.exists() and not out.is_dir():
+        raise OutputFolderError(f"{out} exists and is not a folder; choose another path with -o DIR")
+    if out.is_dir() and not (out / MARKER).exists() and any(out.iterdir()):
+        raise OutputFolderError(
+            f"{out} already exists and was not made by ecatlab; it is left untouched. "
+            "Choose a new or empty folder with -o DIR"
+        )
+    out.mkdir(parents=True, exist_ok=True)
+    (out / MARKER).write_text(json.dumps({"made_by": "ecatlab", "version": __version__}) + "\n", encoding="utf-8")
+    return out
+
+
+def run(args: argparse.Namespace) -> int:
+    import matplotlib
+
+    if matplotlib.get_backend().lower() not in ("agg", "module://matplotlib_inline.backend_inline"):
+        matplotlib.use("Agg")
+    from ecatlab.cli import SAFETY_NOTE
+    from ecatlab.demo import DEMO_LABEL, demo_energies
+    from ecatlab.pathways import BUILTIN_PATHWAYS
+    from ecatlab.plotting.export import save_figure
+    from ecatlab.report import analyse, render_html
+    from ecatlab.tables import export_table, limiting_potential_table, rank_surfaces
+
+    start = time.perf_counter()
+    out = prepare_output(args.output)
+    keys = list(BUILTIN_PATHWAYS)
+    analysis = analyse(demo_energies(), keys, top=4, style="double")
+    written: list[pathlib.Path] = []
+    try:
+        table = limiting_potential_table(analysis.limiting, sort=True)
+        for suffix in ("csv", "md", "tex"):
+            written.append(export_table(table, out / f"limiting_potentials.{suffix}"))
+        ranking = rank_surfaces(analysis.limiting)
+        for suffix in ("csv", "md"):
+            written.append(export_table(ranking, out / f"ranking.{suffix}"))
+        for fig in analysis.figures:
+            name = fig.pathway if fig.kind == "surfaces" else f"{fig.pathway}_potentials"
+            files = save_figure(fig.figure, out / "diagrams" / name, formats=("svg", "png"), dpi=200)
+            fig.svg = files[0].read_text(encoding="utf-8")
+            written += files
+        command = f"ecatlab demo -o {args.output}"
+        html = render_html(analysis, command=command, banner=DEMO_LABEL + " — do not cite or compare with experiment.",
+                           title="ecatlab demo: illustrative screening of twelve hypothetical surfaces")
+        report = out / "report.html"
+        report.write_text(html, encoding="utf-8")
+        written.append(report)
+    finally:
+        analysis.close()
+    print(f"ecatlab demo ({DEMO_LABEL}) wrote {len(written)} files to {out.resolve()}:")
+    for path in written:
+        print(f"  {path.relative_to(out)}")
+    print(f"done in {time.perf_counter() - start:.1f} s")
+    print(SAFETY_NOTE)
+    return 0

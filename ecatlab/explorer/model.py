@@ -1,0 +1,368 @@
+"""State of the explorer: a plain object with no widgets and no drawing.
+
+:class:`ExplorerState` holds the conditions (applied potential U in V on the RHE or SHE scale,
+pH, temperature in K), the reaction family, the pathway and the selected surfaces, and answers
+what the explorer shows: step free energies, state levels, uphill steps and the limiting-potential
+read-out. It computes no physics itself:
+
+* limiting potentials, overpotentials, determining steps and equilibrium potentials come from
+  :func:`ecatlab.che.limiting_potentials` and :func:`ecatlab.che.equilibrium_potential`;
+* step free energies come from the engine's affine form
+  ``dG_i(U) = a_i + n_i U`` (:meth:`ecatlab.che.CompiledPathway.affine`), evaluated once per change
+  of pathway, surfaces, pH, scale or temperature; a potential move only evaluates ``a + n U``.
+
+All setters validate before they change anything, so a rejected value leaves the state (and what
+is drawn) at the last valid conditions.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass
+from typing import Iterable, Sequence
+
+import numpy as np
+import pandas as pd
+
+from ecatlab import che
+from ecatlab.constants import STANDARD_TEMPERATURE
+from ecatlab.energies import EnergyTable, read_energies
+from ecatlab.errors import ConditionError, EcatlabWarning, PathwayError
+from ecatlab.notation import Pathway
+from ecatlab.pathways import REACTION_FAMILIES, resolve
+
+__all__ = ["ExplorerState", "Conditions", "PATHWAY_LABELS", "pathway_options", "UPHILL_TOLERANCE"]
+
+#: Step free energies above this (eV) count as uphill; a determining step evaluated exactly at the
+#: limiting potential is 0 within floating-point rounding and is therefore not marked.
+UPHILL_TOLERANCE = 1e-9
+
+#: Short names of the built-in pathways in the product/pathway selector.
+PATHWAY_LABELS: dict[str, str] = {
+    "orr-4e": "4e- to H2O (associative, via OOH*)",
+    "orr-2e": "2e- to H2O2",
+    "orr-4e-dissociative": "4e- to H2O (dissociative)",
+    "oer-4e": "4e- from H2O",
+    "her-volmer-heyrovsky": "Volmer-Heyrovsky",
+    "her-volmer-tafel": "Volmer-Tafel",
+    "co2rr-co": "CO",
+    "co2rr-hcooh": "HCOOH",
+    "co2rr-ch4": "CH4 via CHO*",
+    "co2rr-ch4-coh": "CH4 via COH*",
+    "co2rr-ch3oh": "CH3OH",
+    "nrr-distal": "NH3, distal",
+    "nrr-alternating": "NH3, alternating",
+}
+
+# Order in the selector (ORR: 4e, 2e, dissociative as in the user guide); other families keep
+# the order of REACTION_FAMILIES.
+_ORDER = {"ORR": ("orr-4e", "orr-2e", "orr-4e-dissociative")}
+
+
+def pathway_options(family: str) -> list[tuple[str, str]]:
+    """(label, key) pairs of the built-in pathways of a reaction family, in selector order."""
+    if family not in REACTION_FAMILIES:
+        raise PathwayError(f"unknown reaction {family!r}; choose one of {', '.join(REACTION_FAMILIES)}")
+    keys = list(_ORDER.get(family, ()))
+    keys += [k for k in REACTION_FAMILIES[family] if k not in keys]
+    return [(PATHWAY_LABELS.get(k, k), k) for k in keys]
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Applied conditions: potential U [V vs ``scale``], ``scale`` (RHE/SHE), pH [-], temperature [K]."""
+
+    potential: float
+    scale: str
+    pH: float
+    temperature: float
+
+    def describe(self) -> str:
+        return f"U = {self.potential:+.3f} V vs {self.scale}, pH {self.pH:g}, T = {self.temperature:g} K"
+
+
+def _family_of(key: str) -> str | None:
+    for family, keys in REACTION_FAMILIES.items():
+        if key in keys:
+            return family
+    return None
+
+
+class ExplorerState:
+    """Everything the explorer shows, driven by plain attribute-like setters.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path
+        Adsorption free energies (eV), see :func:`ecatlab.read_energies`.
+    reaction : {"ORR", "OER", "HER", "CO2RR", "NRR"}
+        Reaction family; ignored when ``pathway`` is a built-in key (its family is used).
+    pathway : str or Pathway, optional
+        Built-in key, Pathway or step text (default: first pathway of the family).
+    surfaces : list of str, optional
+        Surfaces shown (default: the first ten of the table).
+    potential : float
+        Applied potential U in V on ``scale``.
+    pH : float
+        pH, 0 to 14.
+    scale : {"RHE", "SHE"}
+    temperature : float
+        K.
+    """
+
+    def __init__(
+        self,
+        energies,
+        reaction: str = "ORR",
+        pathway: str | Pathway | None = None,
+        surfaces: Iterable[str] | None = None,
+        potential: float = 0.0,
+        pH: float = 0.0,
+        scale: str = "RHE",
+        temperature: float = STANDARD_TEMPERATURE,
+    ):
+        self.table: EnergyTable = energies if isinstance(energies, EnergyTable) else read_energies(energies)
+        self._matrix = self.table.matrix  # pivot once; reindexed per pathway/surface change
+        self.notices: list[str] = []
+        if pathway is not None and isinstance(pathway, str) and _family_of(pathway) is not None:
+            reaction = _family_of(pathway)
+        if reaction not in REACTION_FAMILIES and pathway is None:
+            raise PathwayError(f"unknown reaction {reaction!r}; choose one of {', '.join(REACTION_FAMILIES)}")
+        self._reaction = reaction
+        self._pathway: Pathway = resolve(pathway if pathway is not None else pathway_options(reaction)[0][1])
+        chosen = list(surfaces) if surfaces is not None else self.table.surfaces[:10]
+        self._surfaces = self._check_surfaces(chosen)
+        self._conditions = Conditions(float(potential), self._check_scale(scale), float(pH), float(temperature))
+        self._check_potential(self._conditions.potential)
+        self._check_pH(self._conditions.pH)
+        self._rebuild(self._pathway, self._surfaces, self._conditions)
+
+    # -- read-only views -----------------------------------------------------------------------
+    @property
+    def reaction(self) -> str:
+        """Reaction family shown (ORR, OER, HER, CO2RR, NRR)."""
+        return self._reaction
+
+    @property
+    def pathway(self) -> Pathway:
+        return self._pathway
+
+    @property
+    def surfaces(self) -> list[str]:
+        return list(self._surfaces)
+
+    @property
+    def conditions(self) -> Conditions:
+        return self._conditions
+
+    @property
+    def potential(self) -> float:
+        """Applied potential U in V on :attr:`scale`."""
+        return self._conditions.potential
+
+    @property
+    def pH(self) -> float:
+        return self._conditions.pH
+
+    @property
+    def scale(self) -> str:
+        return self._conditions.scale
+
+    @property
+    def temperature(self) -> float:
+        return self._conditions.temperature
+
+    @property
+    def electrochemical(self) -> np.ndarray:
+        """Boolean per step: True where electrons are transferred."""
+        return self._compiled.electrochemical
+
+    # -- validation ------------------------------------------------------------------------------
+    def _check_surfaces(self, surfaces: Sequence[str]) -> list[str]:
+        from ecatlab.errors import EnergyTableError
+
+        surfaces = [str(s) for s in surfaces]
+        if not surfaces:
+            raise EnergyTableError(self.table.source, "no surface selected; select at least one surface")
+        unknown = [s for s in surfaces if s not in set(self.table.surfaces)]
+        if unknown:
+            raise EnergyTableError(self.table.source, f"unknown surface(s) {unknown}; known: {self.table.surfaces}")
+        return surfaces
+
+    @staticmethod
+    def _check_scale(scale: str) -> str:
+        sc = str(scale).upper()
+        if sc not in che.SCALES:
+            raise ConditionError(f"unknown potential scale {scale!r}; use 'RHE' or 'SHE'")
+        return sc
+
+    @staticmethod
+    def _check_potential(value: float) -> None:
+        if not math.isfinite(value):
+            raise ConditionError(f"the applied potential must be a finite number of volts, got {value!r}")
+
+    @staticmethod
+    def _check_pH(value: float) -> None:
+        if not (math.isfinite(value) and 0.0 <= value <= 14.0):
+            raise ConditionError(f"pH {value!r} is outside the explorer's range 0 to 14")
+
+    # -- engine calls ------------------------------------------------------------------------------
+    def _rebuild(self, path: Pathway, surfaces: list[str], cond: Conditions) -> None:
+        """Ask the engine for everything that does not depend on U; commit only if it all succeeds."""
+        notices: list[str] = []
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", EcatlabWarning)
+            limiting = che.limiting_potentials(
+                self.table, path, pH=cond.pH, scale=cond.scale, temperature=cond.temperature, surfaces=surfaces, on_missing="report"
+            )
+            u_eq = che.equilibrium_potential(path, scale=cond.scale, pH=cond.pH, temperature=cond.temperature, references=self.table.scheme)
+        notices += [str(w.message) for w in caught if issubclass(w.category, EcatlabWarning)]
+        compiled = che.compile_pathway(path, self.table.scheme)
+        G = self._matrix.reindex(index=surfaces, columns=list(compiled.adsorbates)).to_numpy(dtype=float)
+        a, n = compiled.affine(G, cond.pH, cond.scale, cond.temperature)
+        # commit
+        self._pathway, self._surfaces, self._conditions = path, list(surfaces), cond
+        self._compiled, self._a, self._n = compiled, np.asarray(a, dtype=float), np.asarray(n, dtype=float)
+        self._limiting = limiting.set_index("surface", drop=False)
+        self._u_eq = float(u_eq)
+        self._det = limiting["determining_step_index"].to_numpy(dtype=int)
+        self.notices = notices
+
+    # -- setters -----------------------------------------------------------------------------------
+    def set_potential(self, value: float) -> None:
+        """Set U (V on the current scale). Only ``a + n U`` is re-evaluated."""
+        value = float(value)
+        self._check_potential(value)
+        c = self._conditions
+        self._conditions = Conditions(value, c.scale, c.pH, c.temperature)
+
+    def set_pH(self, value: float) -> None:
+        value = float(value)
+        self._check_pH(value)
+        c = self._conditions
+        self._rebuild(self._pathway, self._surfaces, Conditions(c.potential, c.scale, value, c.temperature))
+
+    def set_temperature(self, value: float) -> None:
+        """Temperature in K; the engine rejects non-positive values (ConditionError)."""
+        c = self._conditions
+        self._rebuild(self._pathway, self._surfaces, Conditions(c.potential, c.scale, c.pH, float(value)))
+
+    def set_scale(self, scale: str, keep_physical_potential: bool = True) -> None:
+        """Switch RHE/SHE. By default the electrode stays at the same physical potential, so U is
+        converted with the engine's Nernst shift: U_SHE = U_RHE - k_B T ln(10) pH / e."""
+        sc = self._check_scale(scale)
+        c = self._conditions
+        if sc == c.scale:
+            return
+        u = c.potential
+        if keep_physical_potential:
+            shift = float(che.nernst_shift(c.pH, c.temperature))
+            u = u - shift if sc == "SHE" else u + shift
+        self._rebuild(self._pathway, self._surfaces, Conditions(u, sc, c.pH, c.temperature))
+
+    def set_reaction(self, family: str, pathway: str | None = None) -> None:
+        """Switch the reaction family; the pathway becomes ``pathway`` or the family's first one."""
+        options = pathway_options(family)
+        key = pathway if pathway is not None else options[0][1]
+        if key not in [k for _, k in options]:
+            raise PathwayError(f"pathway {key!r} does not belong to {family}; choose one of {[k for _, k in options]}")
+        self._rebuild(resolve(key), self._surfaces, self._conditions)
+        self._reaction = family
+
+    def set_pathway(self, pathway: str | Pathway) -> None:
+        """Switch the pathway (built-in key, Pathway or step text)."""
+        path = resolve(pathway)
+        self._rebuild(path, self._surfaces, self._conditions)
+        family = _family_of(path.name) if isinstance(pathway, str) else None
+        if family is not None:
+            self._reaction = family
+
+    def set_surfaces(self, surfaces: Iterable[str]) -> None:
+        self._rebuild(self._pathway, self._check_surfaces(list(surfaces)), self._conditions)
+
+    # -- what is shown ------------------------------------------------------------------------------
+    def step_energies(self) -> np.ndarray:
+        """dG_i(U) = a_i + n_i U, eV, shape (n_surfaces, n_steps) (the engine's affine form)."""
+        return self._a + self._n * self._conditions.potential
+
+    def levels(self) -> np.ndarray:
+        """Free energy of each state (first state 0 eV), shape (n_surfaces, n_steps + 1), eV."""
+        dG = self.step_energies()
+        return np.concatenate([np.zeros((dG.shape[0], 1)), np.cumsum(dG, axis=1)], axis=1)
+
+    def uphill(self) -> np.ndarray:
+        """Boolean (n_surfaces, n_steps): electrochemical steps with dG > UPHILL_TOLERANCE."""
+        return (self.step_energies() > UPHILL_TOLERANCE) & self.electrochemical[None, :]
+
+    def uphill_chemical(self) -> np.ndarray:
+        """Boolean (n_surfaces, n_steps): chemical (potential-independent) steps with dG > tolerance."""
+        return (self.step_energies() > UPHILL_TOLERANCE) & ~self.electrochemical[None, :]
+
+    def step_table(self) -> pd.DataFrame:
+        """Step free energies at the current conditions: index surface, columns step names, eV."""
+        frame = pd.DataFrame(self.step_energies(), index=pd.Index(self._surfaces, name="surface"), columns=list(self._pathway.step_names))
+        frame.attrs.update(
+            {
+                "quantity": "step free energy dG_i [eV]",
+                "pathway": self._pathway.name,
+                "steps": [s.equation for s in self._pathway.steps],
+                "potential": self.potential,
+                "scale": self.scale,
+                "pH": self.pH,
+                "temperature": self.temperature,
+                "references": self.table.scheme.describe(),
+                "energy_source": self.table.source,
+            }
+        )
+        return frame
+
+    def determining_steps(self) -> np.ndarray:
+        """1-based index of each surface's potential-determining step (0 where undefined), from the engine."""
+        return self._det.copy()
+
+    def limiting(self) -> pd.DataFrame:
+        """The engine's limiting-potential table for the shown pathway and surfaces (see
+        :func:`ecatlab.che.limiting_potentials`; potentials in V vs :attr:`scale`)."""
+        return self._limiting.reset_index(drop=True)
+
+    def readout(self) -> pd.DataFrame:
+        """Per surface: U_L [V vs scale], overpotential [V], determining step, and the electrochemical
+        steps still uphill at the current U."""
+        lim = self._limiting
+        uphill = self.uphill()
+        names = np.array([f"{i + 1}" for i in range(len(self._pathway.steps))])
+        still = [", ".join(names[row]) for row in uphill]
+        frame = pd.DataFrame(
+            {
+                "limiting_potential": lim["limiting_potential"].to_numpy(dtype=float),
+                "overpotential": lim["overpotential"].to_numpy(dtype=float),
+                "determining_step": lim["determining_step"].to_numpy(dtype=object),
+                "determining_step_index": lim["determining_step_index"].to_numpy(dtype=int),
+                "uphill_steps_now": still,
+                "uphill_chemical_steps": lim["uphill_chemical_steps"].to_numpy(dtype=object),
+                "missing_species": lim["missing_species"].to_numpy(dtype=object),
+            },
+            index=pd.Index(self._surfaces, name="surface"),
+        )
+        frame.attrs.update({"scale": self.scale, "pH": self.pH, "temperature": self.temperature, "potential": self.potential})
+        return frame
+
+    # -- snap targets (the pure functions behind the buttons) ---------------------------------------
+    def limiting_potential_of(self, surface: str) -> float:
+        """The engine's limiting potential of ``surface`` for the shown pathway, V vs :attr:`scale`."""
+        if surface not in self._limiting.index:
+            raise ConditionError(f"surface {surface!r} is not shown; shown: {self._surfaces}")
+        value = float(self._limiting.loc[surface, "limiting_potential"])
+        if not math.isfinite(value):
+            missing = self._limiting.loc[surface, "missing_species"]
+            raise ConditionError(f"{surface} has no limiting potential for {self._pathway.name}: missing {missing}")
+        return value
+
+    def equilibrium_potential(self) -> float:
+        """The engine's equilibrium potential of the overall reaction, V vs :attr:`scale`."""
+        return self._u_eq
+
+    def describe(self) -> str:
+        """One line with pathway and conditions (written into figure captions and exports)."""
+        return f"{self._pathway.name}: {self._conditions.describe()}"

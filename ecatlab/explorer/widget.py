@@ -1,0 +1,582 @@
+"""The Jupyter explorer: ipywidgets controls over :class:`ExplorerState` and :class:`DiagramView`.
+
+Every callback is a thin wrapper: it hands the new control value to the state (which asks the
+engine), then refreshes the outputs. Callbacks never raise into ipywidgets (where the exception
+would be invisible in JupyterLab or only logged): errors are shown in the explorer's error line,
+kept in :attr:`Explorer.errors`, and the controls go back to the values actually shown.
+"""
+
+from __future__ import annotations
+
+import csv
+import functools
+import html
+import math
+import os
+import pathlib
+import warnings
+from dataclasses import dataclass
+from typing import Callable, Iterable
+
+import numpy as np
+
+from ecatlab.constants import STANDARD_TEMPERATURE
+from ecatlab.explorer.model import UPHILL_TOLERANCE, ExplorerState, pathway_options
+from ecatlab.explorer.view import FIGURE_HEIGHT_PX, DiagramView, render_mode
+from ecatlab.pathways import REACTION_FAMILIES
+
+__all__ = ["Explorer", "explore", "export_snapshot", "ExplorerSnapshot", "POTENTIAL_RANGE", "step_table_html", "readout_html"]
+
+#: Initial range of the potential slider, V (extended when a snap target lies outside).
+POTENTIAL_RANGE = (-3.0, 3.0)
+CAUTION = ("Theoretical estimates (CHE thermodynamics, no kinetics); experiments follow local safety codes and "
+           "licensed practice (CO is toxic, H2 flammable, electrolytes corrosive).")
+_UNAVAILABLE = (
+    "The ecatlab explorer needs ipywidgets in a running Jupyter kernel with widgets enabled "
+    "(JupyterLab >= 3 and Notebook >= 7 have it built in; otherwise `pip install ipywidgets`, then restart "
+    "the kernel). Shown instead: a static snapshot at the start conditions."
+)
+
+
+# ------------------------------------------------------------------------------------------------
+# HTML of the tables (pure functions of the state; tested directly)
+# ------------------------------------------------------------------------------------------------
+_UP_STYLE = "background:#FBE3D6;color:#8A1C00;font-weight:bold"
+_CHEM_STYLE = "background:#EEEEEE;color:#444444;font-style:italic"
+_CELL = "padding:1px 6px;text-align:right;font-variant-numeric:tabular-nums"
+
+
+def _num(value: float, digits: int = 3, signed: bool = True) -> str:
+    if not math.isfinite(value):
+        return "n/a"
+    text = f"{value:+.{digits}f}" if signed else f"{value:.{digits}f}"
+    return text.replace("-", "\N{MINUS SIGN}")
+
+
+def step_table_html(state: ExplorerState) -> str:
+    """HTML table of step free energies (eV) at the state's conditions, uphill steps marked.
+
+    Electrochemical steps with dG > 0 get a triangle and a warm background; uphill chemical steps
+    (which no potential can move) a diamond and grey italics.
+    """
+    dG = state.step_energies()
+    up = state.uphill()
+    up_chem = state.uphill_chemical()
+    steps = state.pathway.steps
+    head = "".join(
+        f'<th style="padding:1px 6px" title="{html.escape(s.equation)}">{i + 1}{"" if state.electrochemical[i] else " (chem.)"}</th>'
+        for i, s in enumerate(steps)
+    )
+    rows = []
+    for j, surface in enumerate(state.surfaces):
+        cells = []
+        for i in range(len(steps)):
+            if up[j, i]:
+                cells.append(f'<td style="{_CELL};{_UP_STYLE}" class="uphill">\N{BLACK UP-POINTING TRIANGLE} {_num(dG[j, i])}</td>')
+            elif up_chem[j, i]:
+                cells.append(f'<td style="{_CELL};{_CHEM_STYLE}" class="uphill-chemical">\N{BLACK DIAMOND} {_num(dG[j, i])}</td>')
+            else:
+                cells.append(f'<td style="{_CELL}">{_num(dG[j, i])}</td>')
+        rows.append(f'<tr><th style="padding:1px 6px;text-align:left">{html.escape(surface)}</th>{"".join(cells)}</tr>')
+    legend = "".join(f"<li>{i + 1}: {html.escape(s.equation)}</li>" for i, s in enumerate(steps))
+    caption = (
+        f"Step free energies \N{GREEK CAPITAL LETTER DELTA}G (eV), {html.escape(state.pathway.name)}, "
+        f"{html.escape(state.conditions.describe())}. \N{BLACK UP-POINTING TRIANGLE} electrochemical step uphill at this U; "
+        f"\N{BLACK DIAMOND} chemical step uphill (potential-independent)."
+    )
+    return (
+        f'<div class="ecatlab-step-table"><table style="border-collapse:collapse;font-size:12px">'
+        f'<caption style="caption-side:top;text-align:left">{caption}</caption>'
+        f'<thead><tr><th style="padding:1px 6px;text-align:left">surface</th>{head}</tr></thead>'
+        f'<tbody>{"".join(rows)}</tbody></table>'
+        f'<ol style="font-size:11px;margin:2px 0 0 0;padding-left:0;list-style:none">{legend}</ol></div>'
+    )
+
+
+def readout_html(state: ExplorerState, focus: str | None = None) -> str:
+    """HTML read-out per surface: U_L (V vs scale), overpotential (V), determining step, uphill now."""
+    r = state.readout()
+    u_eq = state.equilibrium_potential()
+    rows = []
+    for surface, row in r.iterrows():
+        mark = " style=\"background:#EAF2FA\"" if surface == focus else ""
+        now = row["uphill_steps_now"] or "none"
+        note = f" (missing: {html.escape(row['missing_species'])})" if row["missing_species"] else ""
+        chem = f"<br><i>chemical uphill: {html.escape(row['uphill_chemical_steps'])}</i>" if row["uphill_chemical_steps"] else ""
+        rows.append(
+            f"<tr{mark}><th style=\"text-align:left;padding:1px 6px\">{html.escape(str(surface))}</th>"
+            f'<td style="{_CELL}">{_num(row["limiting_potential"], 3)}</td>'
+            f'<td style="{_CELL}">{_num(row["overpotential"], 3, signed=False)}</td>'
+            f'<td style="padding:1px 6px">{int(row["determining_step_index"]) or "-"}: {html.escape(str(row["determining_step"]))}{note}{chem}</td>'
+            f'<td style="padding:1px 6px">{html.escape(now)}</td></tr>'
+        )
+    return (
+        '<div class="ecatlab-readout"><table style="border-collapse:collapse;font-size:12px">'
+        f'<caption style="caption-side:top;text-align:left">{html.escape(state.pathway.name)} ({html.escape(state.pathway.direction)}); '
+        f"U<sub>eq</sub> = {_num(u_eq)} V vs {state.scale} at pH {state.pH:g}, {state.temperature:g} K</caption>"
+        f"<thead><tr><th>surface</th><th>U<sub>L</sub> (V vs {state.scale})</th><th>\N{GREEK SMALL LETTER ETA} (V)</th>"
+        "<th>potential-determining step</th><th>uphill now</th></tr></thead>"
+        f'<tbody>{"".join(rows)}</tbody></table></div>'
+    )
+
+
+# ------------------------------------------------------------------------------------------------
+# export
+# ------------------------------------------------------------------------------------------------
+def _stem(state: ExplorerState) -> str:
+    u = f"{state.potential:+.3f}".replace(".", "p").replace("+", "plus").replace("-", "minus")
+    return f"explorer_{state.pathway.name}_U{u}V{state.scale}_pH{state.pH:g}".replace(".", "p")
+
+
+def export_snapshot(state: ExplorerState, figure, folder: str | os.PathLike) -> list[pathlib.Path]:
+    """Save the current diagram (PNG and SVG) and tables (CSV) into ``folder``.
+
+    The CSV files start with ``#`` comment lines naming the pathway, the conditions, the reference
+    scheme, the energy source, the units and the caution; :func:`ecatlab.read_energies`-style
+    readers and ``pandas.read_csv(comment="#")`` skip them.
+
+    Returns
+    -------
+    list of Path
+        Figure files, then ``*_steps.csv`` (dG per surface and step, eV) and ``*_limiting.csv``.
+    """
+    from ecatlab.plotting.export import save_figure
+
+    folder = pathlib.Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    stem = _stem(state)
+    paths = save_figure(figure, folder / stem, formats=("png", "svg"), dpi=200)
+    header = [
+        f"# ecatlab explorer export: pathway {state.pathway.name}",
+        f"# conditions: {state.conditions.describe()}",
+        f"# references: {state.table.scheme.describe()}",
+        f"# energy source: {state.table.source}",
+        f"# {CAUTION}",
+    ]
+    steps = state.step_table()
+    steps_path = folder / f"{stem}_steps.csv"
+    with open(steps_path, "w", encoding="utf-8", newline="") as fh:
+        fh.write("\n".join(header + ["# values: step free energy dG_i in eV at the stated conditions; step equations:"]
+                           + [f"#   {i + 1}: {s.equation}" for i, s in enumerate(state.pathway.steps)]) + "\n")
+        steps.to_csv(fh)
+    lim = state.limiting()
+    lim_path = folder / f"{stem}_limiting.csv"
+    with open(lim_path, "w", encoding="utf-8", newline="") as fh:
+        fh.write("\n".join(header + [f"# columns: {k} = {v}" for k, v in lim.attrs.get("columns", {}).items()]) + "\n")
+        lim.to_csv(fh, index=False, quoting=csv.QUOTE_MINIMAL)
+    return list(paths) + [steps_path, lim_path]
+
+
+# ------------------------------------------------------------------------------------------------
+# the widget
+# ------------------------------------------------------------------------------------------------
+@functools.lru_cache(maxsize=None)
+def _reporting_slider_class():
+    """FloatSlider that tells its owner when a value was clamped into [min, max] (ipywidgets clamps silently)."""
+    import ipywidgets as w
+    from traitlets import validate
+
+    class ReportingFloatSlider(w.FloatSlider):
+        def __init__(self, *args, on_clamp: Callable[[str, float, float], None] | None = None, **kwargs):
+            self._on_clamp = None
+            super().__init__(*args, **kwargs)
+            self._on_clamp = on_clamp
+
+        @validate("value")
+        def _validate_value(self, proposal):
+            requested = float(proposal["value"])
+            value = min(max(requested, self.min), self.max)
+            if value != requested and self._on_clamp is not None:
+                self._on_clamp(self.description, requested, value)
+            return value
+
+    return ReportingFloatSlider
+
+
+class Explorer:
+    """Interactive free-energy explorer (open it with :func:`explore`).
+
+    The controls are public ipywidgets; set their ``.value`` to drive the explorer (tests do so
+    without a browser; every change updates the outputs synchronously).
+
+    Attributes
+    ----------
+    state : ExplorerState
+        What is shown (pathway, surfaces, conditions) and the engine's numbers.
+    view : DiagramView
+        The one Figure of this explorer (``view.figure``) and its display widget.
+    potential, potential_entry, scale, pH, temperature, reaction, pathway, surfaces, focus
+        Controls: potential slider (V) and exact-value field, RHE/SHE switch, pH slider (0-14),
+        temperature field (K), reaction family, product/pathway, shown surfaces, focus surface
+        (target of "snap to limiting potential").
+    snap_limiting_button, snap_equilibrium_button, export_button, export_folder
+    table, readout, status, error
+        HTML outputs: step table, limiting-potential read-out, notices (clamps, warnings), errors.
+    errors : list of Exception
+        Errors caught in callbacks (also shown in :attr:`error`).
+    exported : list of Path
+        Files written by the last export.
+    widget : ipywidgets.VBox
+        The whole explorer.
+    """
+
+    def __init__(
+        self,
+        energies=None,
+        reaction: str = "ORR",
+        pathway=None,
+        surfaces: Iterable[str] | None = None,
+        potential: float = 0.0,
+        pH: float = 0.0,
+        scale: str = "RHE",
+        temperature: float = STANDARD_TEMPERATURE,
+        render: str = "auto",
+        export_folder: str = "ecatlab_export",
+    ):
+        import ipywidgets as w
+
+        if energies is None:
+            from ecatlab.demo import demo_energies
+
+            energies = demo_energies()
+        self.state = ExplorerState(energies, reaction, pathway, surfaces, potential, pH, scale, temperature)
+        self.errors: list[Exception] = []
+        self.exported: list[pathlib.Path] = []
+        self._messages: list[str] = []
+        self._quiet = 0  # > 0 while controls are being synchronised from the state
+        s = self.state
+        Slider = _reporting_slider_class()
+        lo, hi = POTENTIAL_RANGE
+        lo, hi = min(lo, math.floor(s.potential)), max(hi, math.ceil(s.potential))
+        wide = {"description_width": "initial"}
+        self.potential = Slider(value=s.potential, min=lo, max=hi, step=0.01, description="U (V)", readout=False,
+                                continuous_update=True, on_clamp=self._note_clamp, style=wide, layout=w.Layout(width="340px"))
+        self.potential_entry = w.FloatText(value=s.potential, step=0.01, layout=w.Layout(width="90px"), tooltip="exact potential, V")
+        self.scale = w.ToggleButtons(options=["RHE", "SHE"], value=s.scale, description="vs", style={"button_width": "52px", **wide})
+        self.pH = Slider(value=s.pH, min=0.0, max=14.0, step=0.1, description="pH", readout=True, readout_format=".1f",
+                         continuous_update=True, on_clamp=self._note_clamp, style=wide, layout=w.Layout(width="300px"))
+        self.temperature = w.FloatText(value=s.temperature, description="T (K)", step=1.0, style=wide, layout=w.Layout(width="150px"))
+        self.reaction = w.ToggleButtons(options=list(REACTION_FAMILIES), value=s.reaction, description="reaction",
+                                        style={"button_width": "64px", **wide})
+        self.pathway = w.Dropdown(options=self._pathway_choices(s.reaction), value=s.pathway.name, description="product / pathway",
+                                  style=wide, layout=w.Layout(width="420px"))
+        self.surfaces = w.SelectMultiple(options=s.table.surfaces, value=tuple(s.surfaces), description="surfaces",
+                                         rows=min(8, len(s.table.surfaces)), style=wide, layout=w.Layout(width="230px"))
+        self.focus = w.Dropdown(options=s.surfaces, value=s.surfaces[0], description="focus", style=wide, layout=w.Layout(width="200px"))
+        self.snap_limiting_button = w.Button(description="snap to limiting potential", icon="crosshairs", layout=w.Layout(width="220px"),
+                                             tooltip="set U to the focus surface's limiting potential")
+        self.snap_equilibrium_button = w.Button(description="snap to equilibrium potential", icon="balance-scale",
+                                                layout=w.Layout(width="230px"), tooltip="set U to U_eq of the overall reaction")
+        self.export_folder = w.Text(value=str(export_folder), description="folder", style=wide, layout=w.Layout(width="260px"))
+        self.export_button = w.Button(description="export figure + tables", icon="save", layout=w.Layout(width="200px"))
+        self.table = w.HTML()
+        self.readout = w.HTML()
+        self.status = w.HTML()
+        self.error = w.HTML()
+
+        self.view = DiagramView(render_mode(render), footnote=self._footnote())
+        self._wire()
+        self.view.rebuild(s, self._heading())
+        self._refresh()
+        self.widget = w.VBox(
+            [
+                w.HBox([self.reaction, self.pathway]),
+                w.HBox([self.potential, self.potential_entry, self.scale]),
+                w.HBox([self.pH, self.temperature, self.snap_limiting_button, self.snap_equilibrium_button]),
+                self.error,
+                w.HBox([self.view.widget, w.VBox([self.surfaces, self.focus])]),
+                self.readout,
+                self.table,
+                w.HBox([self.export_folder, self.export_button]),
+                self.status,
+            ]
+        )
+
+    # -- presentation -----------------------------------------------------------------------------
+    def _repr_mimebundle_(self, **kwargs):
+        bundle = self.widget._repr_mimebundle_(**kwargs) or {}
+        bundle = dict(bundle)
+        bundle["text/plain"] = f"ecatlab explorer ({self.state.describe()}). {_UNAVAILABLE}"
+        bundle["text/html"] = _snapshot_html(self.state, self.view, _UNAVAILABLE)
+        return bundle
+
+    def _heading(self) -> str:
+        s = self.state
+        label = dict((k, lab) for lab, k in pathway_options(s.reaction)).get(s.pathway.name, s.pathway.name) if s.reaction in REACTION_FAMILIES else s.pathway.name
+        return f"{s.reaction}: {label}  [{s.pathway.name}]"
+
+    def _footnote(self) -> str:
+        refs = self.state.table.scheme.describe().split(";")[1].strip()
+        return f"energies: {self.state.table.source}; {refs}.\n{CAUTION}"
+
+    @staticmethod
+    def _pathway_choices(family: str) -> list[tuple[str, str]]:
+        return pathway_options(family)
+
+    # -- wiring -------------------------------------------------------------------------------------
+    def _guard(self, func: Callable) -> Callable:
+        @functools.wraps(func)
+        def wrapper(*args, **kwargs):
+            if self._quiet:
+                return None
+            try:
+                result = func(*args, **kwargs)
+            except Exception as exc:  # shown to the user, never swallowed silently
+                self._show_error(exc, func.__name__)
+                return None
+            self.error.value = ""
+            return result
+
+        return wrapper
+
+    def _wire(self) -> None:
+        self.potential.observe(self._guard(self._on_potential), names="value")
+        self.potential_entry.observe(self._guard(self._on_potential_entry), names="value")
+        self.pH.observe(self._guard(self._on_pH), names="value")
+        self.scale.observe(self._guard(self._on_scale), names="value")
+        self.temperature.observe(self._guard(self._on_temperature), names="value")
+        self.reaction.observe(self._guard(self._on_reaction), names="value")
+        self.pathway.observe(self._guard(self._on_pathway), names="value")
+        self.surfaces.observe(self._guard(self._on_surfaces), names="value")
+        self.focus.observe(self._guard(self._on_focus), names="value")
+        self.snap_limiting_button.on_click(self._guard(lambda _b: self.snap_to_limiting()))
+        self.snap_equilibrium_button.on_click(self._guard(lambda _b: self.snap_to_equilibrium()))
+        self.export_button.on_click(self._guard(lambda _b: self.export()))
+
+    def _show_error(self, exc: Exception, where: str) -> None:
+        self.errors.append(exc)
+        self._sync_controls()
+        self.error.value = (
+            '<div style="color:#9B1C1C;background:#FDECEC;padding:3px 6px;border-left:4px solid #9B1C1C">'
+            f"<b>{html.escape(type(exc).__name__)}</b>: {html.escape(str(exc))}<br>"
+            f"<small>Not applied; the outputs still show {html.escape(self.state.describe())}.</small></div>"
+        )
+
+    def _note_clamp(self, name: str, requested: float, value: float) -> None:
+        self._messages.append(f"{name} {requested:g} is outside the control's range; clamped to {value:g}")
+
+    @property
+    def messages(self) -> list[str]:
+        """Notices shown in the status line (clamps, range extensions, engine warnings)."""
+        return list(self._messages)
+
+    def _sync_controls(self) -> None:
+        """Put every control back to the value actually shown (after a rejected change)."""
+        s = self.state
+        self._quiet += 1
+        try:
+            self._ensure_range(s.potential)
+            self.potential.value = s.potential
+            self.potential_entry.value = s.potential
+            self.pH.value = s.pH
+            self.scale.value = s.scale
+            self.temperature.value = s.temperature
+            if self.reaction.value != s.reaction:
+                self.reaction.value = s.reaction
+            choices = self._pathway_choices(s.reaction)
+            if list(self.pathway.options) != choices:
+                self.pathway.options = choices
+            if s.pathway.name in [k for _, k in choices]:
+                self.pathway.value = s.pathway.name
+            self.surfaces.value = tuple(s.surfaces)
+            if list(self.focus.options) != s.surfaces:
+                keep = self.focus.value if self.focus.value in s.surfaces else s.surfaces[0]
+                self.focus.options = s.surfaces
+                self.focus.value = keep
+        finally:
+            self._quiet -= 1
+
+    def _ensure_range(self, value: float) -> None:
+        if value < self.potential.min or value > self.potential.max:
+            lo, hi = min(self.potential.min, math.floor(value * 2) / 2), max(self.potential.max, math.ceil(value * 2) / 2)
+            self._messages.append(f"potential range extended to {lo:g} .. {hi:g} V to show {value:+.3f} V")
+            self._quiet += 1
+            try:
+                if hi > self.potential.max:
+                    self.potential.max = hi
+                if lo < self.potential.min:
+                    self.potential.min = lo
+            finally:
+                self._quiet -= 1
+
+    def _refresh(self, structure: bool = False) -> None:
+        """Bring every output to the state: figure (artists moved), step table, read-out, status."""
+        s = self.state
+        if structure:
+            self.view.rebuild(s, self._heading())
+        self.view.update(s)
+        self.view.present()
+        self.table.value = step_table_html(s)
+        self.readout.value = readout_html(s, self.focus.value)
+        notes = list(s.notices) + self._messages[-3:]
+        self.status.value = "".join(f'<div style="color:#7A5A00">\N{WARNING SIGN} {html.escape(n)}</div>' for n in notes)
+
+    # -- callbacks (thin) ------------------------------------------------------------------------------
+    def _on_potential(self, change) -> None:
+        self.state.set_potential(change["new"])
+        self._quiet += 1
+        try:
+            self.potential_entry.value = self.state.potential
+        finally:
+            self._quiet -= 1
+        self._refresh()
+
+    def _on_potential_entry(self, change) -> None:
+        value = float(change["new"])
+        if not math.isfinite(value):
+            raise ValueError(f"potential {value!r} is not a number of volts")
+        self.potential.value = value  # clamps (and says so); then _on_potential refreshes
+        if self.potential.value != value:
+            self._quiet += 1
+            try:
+                self.potential_entry.value = self.potential.value
+            finally:
+                self._quiet -= 1
+            self._refresh()
+
+    def _on_pH(self, change) -> None:
+        self.state.set_pH(change["new"])
+        self._refresh()
+
+    def _on_scale(self, change) -> None:
+        self.state.set_scale(change["new"])
+        self._sync_controls()
+        self._refresh(structure=False)
+
+    def _on_temperature(self, change) -> None:
+        self.state.set_temperature(change["new"])
+        self._refresh()
+
+    def _on_reaction(self, change) -> None:
+        self.state.set_reaction(change["new"])
+        self._sync_controls()
+        self._refresh(structure=True)
+
+    def _on_pathway(self, change) -> None:
+        if change["new"] is None:
+            return
+        self.state.set_pathway(change["new"])
+        self._refresh(structure=True)
+
+    def _on_surfaces(self, change) -> None:
+        self.state.set_surfaces(change["new"])
+        self._sync_controls()
+        self._refresh(structure=True)
+
+    def _on_focus(self, change) -> None:
+        self.readout.value = readout_html(self.state, change["new"])
+
+    # -- actions behind the buttons -------------------------------------------------------------------
+    def snap_to_limiting(self, surface: str | None = None) -> float:
+        """Set U to the engine's limiting potential of ``surface`` (default: the focus surface); returns it (V)."""
+        target = self.state.limiting_potential_of(surface or self.focus.value)
+        self._set_potential_control(target)
+        return target
+
+    def snap_to_equilibrium(self) -> float:
+        """Set U to the engine's equilibrium potential of the overall reaction; returns it (V)."""
+        target = self.state.equilibrium_potential()
+        self._set_potential_control(target)
+        return target
+
+    def _set_potential_control(self, value: float) -> None:
+        self._ensure_range(value)
+        if self.potential.value == value:
+            self.state.set_potential(value)
+            self._refresh()
+        else:
+            self.potential.value = value
+
+    def export(self, folder: str | os.PathLike | None = None) -> list[pathlib.Path]:
+        """Save the current figure and tables (see :func:`export_snapshot`); the paths are listed in the status line."""
+        with self.view.exporting() as figure:
+            self.exported = export_snapshot(self.state, figure, folder or self.export_folder.value)
+        self._messages.append("exported: " + ", ".join(str(p) for p in self.exported))
+        self._refresh()
+        return self.exported
+
+
+# ------------------------------------------------------------------------------------------------
+# static fallback and the entry point
+# ------------------------------------------------------------------------------------------------
+def _snapshot_html(state: ExplorerState, view: DiagramView, message: str) -> str:
+    import base64
+
+    png = view.last_png or view.render_png()
+    return (
+        f'<div class="ecatlab-explorer-static"><p style="color:#7A5A00">{html.escape(message)}</p>'
+        f'<img alt="free-energy diagram" src="data:image/png;base64,{base64.b64encode(png).decode("ascii")}">'
+        f"{readout_html(state)}{step_table_html(state)}</div>"
+    )
+
+
+@dataclass
+class ExplorerSnapshot:
+    """What :func:`explore` returns when ipywidgets is missing: the diagram and tables at the start
+    conditions, plus a message saying how to get the interactive explorer."""
+
+    state: ExplorerState
+    view: DiagramView
+    message: str
+
+    def _repr_html_(self) -> str:
+        return _snapshot_html(self.state, self.view, self.message)
+
+    def __repr__(self) -> str:
+        return f"ExplorerSnapshot({self.state.describe()}): {self.message}"
+
+
+def explore(energies=None, reaction: str = "ORR", pathway=None, surfaces=None, potential: float = 0.0, pH: float = 0.0,
+            scale: str = "RHE", temperature: float = STANDARD_TEMPERATURE, render: str = "auto",
+            export_folder: str = "ecatlab_export"):
+    """Open the interactive free-energy explorer on an energy table.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path, optional
+        Adsorption free energies (eV); default the bundled ILLUSTRATIVE demo table.
+    reaction : {"ORR", "OER", "HER", "CO2RR", "NRR"}
+    pathway : str, optional
+        Built-in pathway key (its family wins over ``reaction``).
+    surfaces : list of str, optional
+        Surfaces shown at start (default: the first ten).
+    potential : float
+        Start potential U, V vs ``scale``.
+    pH : float
+        0 to 14.
+    scale : {"RHE", "SHE"}
+    temperature : float
+        K.
+    render : {"auto", "ipympl", "inline"}
+        Figure transport; ``auto`` uses the ipympl canvas when ``%matplotlib widget`` is active.
+    export_folder : str
+        Default folder of the export button.
+
+    Returns
+    -------
+    Explorer
+        Display it (last expression of a cell). Without ipywidgets an :class:`ExplorerSnapshot`
+        (static diagram and tables) is returned and a warning says how to enable the explorer.
+
+    Examples
+    --------
+    >>> ex = explore(pathway="orr-4e", potential=0.8)      # doctest: +SKIP
+    >>> ex.potential.value = ex.state.limiting_potential_of("ALY-01")  # doctest: +SKIP
+    """
+    try:
+        import ipywidgets  # noqa: F401
+    except ImportError:
+        from ecatlab.errors import EcatlabWarning
+
+        if energies is None:
+            from ecatlab.demo import demo_energies
+
+            energies = demo_energies()
+        state = ExplorerState(energies, reaction, pathway, surfaces, potential, pH, scale, temperature)
+        view = DiagramView("inline", with_widget=False)
+        view.rebuild(state, f"{state.reaction}: {state.pathway.name}")
+        view.update(state)
+        view.render_png()
+        warnings.warn(_UNAVAILABLE, EcatlabWarning, stacklevel=2)
+        return ExplorerSnapshot(state, view, _UNAVAILABLE)
+    return Explorer(energies, reaction, pathway, surfaces, potential, pH, scale, temperature, render, export_folder)

@@ -1,0 +1,277 @@
+"""Plot volcanoes, activity maps, determining-step maps and selectivity maps.
+
+Draws only what :mod:`ecatlab.volcano` computed. Every function takes ``ax=`` and returns the
+Axes; titles carry pathway and conditions, a caption under the axes carries the reference scheme
+and the theoretical-estimate caution (save with ``bbox_inches="tight"`` to keep it).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ecatlab.plotting.style import DASHES, MARKERS, PALETTE, figure, preset, style_context
+from ecatlab.volcano import ActivityMap, SelectivityMap, VolcanoCurve, volcano
+
+__all__ = ["plot_volcano", "plot_activity_map", "plot_determining_steps", "plot_selectivity_map", "volcano_figure"]
+
+_CAUTION = "Theoretical estimate (CHE, thermodynamics only)."
+
+
+def _conditions_text(cond: dict) -> str:
+    return f"pH {cond['pH']:g}, {cond['temperature']:g} K, potentials vs {cond['scale']}"
+
+
+def _caption(ax, p, text: str) -> None:
+    ax.annotate(text, xy=(0.5, 0), xycoords=ax.xaxis.label, xytext=(0, -3), textcoords="offset points", fontsize=p.font_pt - 2,
+                color="#555555", va="top", ha="center", annotation_clip=False)
+
+
+def _short_refs(cond: dict) -> str:
+    refs = cond["references"].split(";")
+    return ";".join(refs[:2]).strip()
+
+
+def _label_points(ax, names, xs, ys, fontsize, avoid=(), boxed=False):
+    """Write names next to points, choosing for each the first offset whose text box overlaps no
+    label placed before, no point and no box in ``avoid`` (display coordinates)."""
+    fig = ax.figure
+    renderer = fig.canvas.get_renderer()
+    pts = ax.transData.transform(np.column_stack([xs, ys]))
+    placed = list(avoid)
+    offsets = [(4, 4), (4, -11), (-4, 4), (-4, -11), (4, 13), (4, -20), (-4, 13), (-4, -20), (10, -4), (-10, -4)]
+    order = np.argsort(xs)
+    scale = fig.dpi / 72.0
+    for k in order:
+        best = None
+        for dx, dy in offsets:
+            t = ax.annotate(names[k], (xs[k], ys[k]), xytext=(dx, dy), textcoords="offset points", fontsize=fontsize, color="#222222",
+                            ha="left" if dx > 0 else "right", zorder=6,
+                            bbox=dict(boxstyle="square,pad=0.1", fc="white", ec="none", alpha=0.7) if boxed else None)
+            bb = t.get_window_extent(renderer).expanded(1.05, 1.1)
+            hits_label = any(bb.overlaps(o) for o in placed)
+            hits_point = np.any((pts[:, 0] > bb.x0 - 3 * scale) & (pts[:, 0] < bb.x1 + 3 * scale) & (pts[:, 1] > bb.y0 - 3 * scale) & (pts[:, 1] < bb.y1 + 3 * scale))
+            if not hits_label and not hits_point:
+                best = (t, bb)
+                break
+            t.remove()
+        if best is None:  # no free spot: fall back to the first offset
+            t = ax.annotate(names[k], (xs[k], ys[k]), xytext=offsets[0], textcoords="offset points", fontsize=fontsize, color="#333333", zorder=6)
+            best = (t, t.get_window_extent(renderer))
+        placed.append(best[1])
+
+
+def plot_volcano(curve: VolcanoCurve, ax=None, style: str = "notebook", show_steps: bool = True, label_surfaces: bool = True, caption: bool = True, legend: str | None = None):
+    """Draw a 1D volcano.
+
+    One thin line per electrochemical step (its onset potential, V), the envelope (limiting
+    potential U_L) as a thick line, the equilibrium potential as a horizontal line, the apex as a
+    star with its numbers, and the computed surfaces at their exact limiting potentials.
+    ``legend``: ``"right"`` (outside, default for notebook/double), ``"below"`` (default for the
+    single-column preset) or ``"inside"``.
+
+    Returns
+    -------
+    matplotlib Axes
+    """
+    p = preset(style)
+    sc = curve.conditions["scale"]
+    with style_context(p):
+        if ax is None:
+            _, ax = figure(p)
+        x = curve.x
+        env = curve.limiting_potential
+        if show_steps:
+            k = 0
+            for j, name in enumerate(curve.step_names):
+                if not curve.electrochemical[j]:
+                    continue
+                ax.plot(x, curve.step_onsets[:, j], color=PALETTE[(k + 1) % len(PALETTE)], ls=DASHES[(k + 1) % len(DASHES)], lw=1.0, label=f"step {name}", zorder=2)
+                k += 1
+        ax.plot(x, env, color="#222222", lw=2.4, label="limiting potential $U_L$ (envelope)", zorder=3, solid_capstyle="round")
+        ax.axhline(curve.equilibrium_potential, color=PALETTE[6], lw=1.0, ls=(0, (4, 2)), zorder=1)
+        ax.annotate(f"$U_{{eq}}$ = {curve.equilibrium_potential:.2f} V", xy=(1.0, curve.equilibrium_potential), xycoords=("axes fraction", "data"),
+                    xytext=(-2, 3), textcoords="offset points", ha="right", va="bottom", fontsize=p.font_pt - 1, color=PALETTE[6])
+        a = curve.apex
+        ax.plot([a.descriptor[0]], [a.limiting_potential], marker="*", ms=12, color=PALETTE[4], mec="#222222", mew=0.6, zorder=5, ls="none",
+                label=f"apex: {a.descriptor[0]:.2f} eV, $U_L$ = {a.limiting_potential:.2f} V, η$_{{min}}$ = {a.overpotential:.2f} V"
+                + (" (at range edge)" if a.at_boundary else ""))
+        s = curve.surfaces
+        if len(s):
+            ax.scatter(s["descriptor"], s["limiting_potential"], s=30, marker=MARKERS[1], color=PALETTE[0], edgecolor="white", linewidth=0.5, zorder=4, label="computed surfaces (exact $U_L$)")
+        # y range: the envelope, U_eq and the surfaces, with margins (step lines may leave the frame)
+        ys = [env.min(), env.max(), curve.equilibrium_potential, a.limiting_potential]
+        if len(s):
+            ys += [s["limiting_potential"].min(), s["limiting_potential"].max()]
+        lo, hi = min(ys), max(ys)
+        span = hi - lo or 1.0
+        ax.set_ylim(lo - 0.12 * span, hi + 0.25 * span)
+        ax.set_xlim(x[0], x[-1])
+        ax.set_xlabel(f"{curve.descriptor.label()} / eV")
+        ax.set_ylabel(f"limiting potential $U_L$ / V vs {sc}")
+        better = "higher is better" if curve.direction == "reduction" else "lower is better"
+        ax.set_title(f"Volcano of {curve.pathway.name} ({better})\n{_conditions_text(curve.conditions)}")
+        where = legend or ("below" if p.name == "single" else "right")
+        if where == "right":
+            leg = ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, fontsize=p.font_pt - 2, borderaxespad=0.0)
+        elif where == "below":
+            leg = ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.22), frameon=False, fontsize=p.font_pt - 2, ncol=2)
+        else:
+            leg = ax.legend(loc="upper left", frameon=False, fontsize=p.font_pt - 2)
+        if label_surfaces and len(s):
+            fig = ax.figure
+            avoid = [leg.get_window_extent(fig.canvas.get_renderer())] if where == "inside" else []
+            _label_points(ax, list(s["surface"]), s["descriptor"].to_numpy(float), s["limiting_potential"].to_numpy(float), p.font_pt - 2, avoid)
+        if caption:
+            rel = "; ".join(r.equation for r in curve.relations[:3]) + (" ..." if len(curve.relations) > 3 else "")
+            text = f"Scaling: {rel}.\n{_short_refs(curve.conditions)}. {_CAUTION}"
+            if where == "below":
+                ax.annotate(text, xy=(0.5, 0), xycoords=leg, xytext=(0, -2), textcoords="offset points", fontsize=p.font_pt - 2,
+                            color="#555555", va="top", ha="center", annotation_clip=False)
+            else:
+                _caption(ax, p, text)
+    return ax
+
+
+def _region_labels(ax, X, Y, regions: np.ndarray, labels, fontsize):
+    for k in np.unique(regions):
+        mask = regions == k
+        cx, cy = X[mask].mean(), Y[mask].mean()
+        # nearest cell of the region to its centroid (keeps the label inside non-convex regions)
+        d = (X - cx) ** 2 + (Y - cy) ** 2
+        d = np.where(mask, d, np.inf)
+        i = np.unravel_index(np.argmin(d), d.shape)
+        ax.text(X[i], Y[i], labels[k], ha="center", va="center", fontsize=fontsize, color="#111111",
+                bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.75), zorder=4)
+
+
+def _surfaces_on_map(ax, surf, p, label=True, values=None, cmap=None, norm=None):
+    """Surfaces as squares (filled with their exact value on the map's colour scale if given)."""
+    if surf is None or not len(surf):
+        return
+    if values is not None:
+        ax.scatter(surf["x"], surf["y"], s=30, marker=MARKERS[1], c=values, cmap=cmap, norm=norm, edgecolor="#111111", linewidth=0.8, zorder=5)
+    else:
+        ax.scatter(surf["x"], surf["y"], s=26, marker=MARKERS[1], color="white", edgecolor="#111111", linewidth=0.8, zorder=5)
+    if label:
+        _label_points(ax, list(surf["surface"]), surf["x"].to_numpy(float), surf["y"].to_numpy(float), p.font_pt - 2, boxed=True)
+
+
+def plot_activity_map(amap: ActivityMap, ax=None, style: str = "notebook", quantity: str = "limiting_potential", label_surfaces: bool = True, caption: bool = True, levels: int = 14):
+    """Filled contours of the limiting potential (or overpotential) over two descriptors.
+
+    ``quantity``: ``"limiting_potential"`` (V vs scale) or ``"overpotential"`` (V). Surfaces are
+    drawn at their descriptor values; the exact optimum is a star.
+    """
+    import matplotlib.pyplot as plt
+
+    if quantity not in ("limiting_potential", "overpotential"):
+        raise ValueError(f"quantity must be 'limiting_potential' or 'overpotential', got {quantity!r}")
+    p = preset(style)
+    sc = amap.conditions["scale"]
+    with style_context(p):
+        if ax is None:
+            _, ax = figure(p)
+        Z = amap.limiting_potential if quantity == "limiting_potential" else amap.overpotential
+        # colours: "better" is always the light end
+        reverse = (quantity == "overpotential") or (amap.pathway.direction == "oxidation")
+        cmap = plt.get_cmap("viridis_r" if reverse else "viridis")
+        cs = ax.contourf(amap.x, amap.y, Z, levels=levels, cmap=cmap, zorder=1)
+        ax.contour(amap.x, amap.y, Z, levels=cs.levels, colors="white", linewidths=0.3, alpha=0.5, zorder=2)
+        cb = ax.figure.colorbar(cs, ax=ax, pad=0.02)
+        cb.set_label(f"limiting potential $U_L$ / V vs {sc}" if quantity == "limiting_potential" else "theoretical overpotential η / V")
+        o = amap.optimum
+        ax.plot([o.descriptor[0]], [o.descriptor[1]], marker="*", ms=12, color=PALETTE[4], mec="#222222", mew=0.6, ls="none", zorder=6,
+                label=f"optimum: $U_L$ = {o.limiting_potential:.2f} V, η = {o.overpotential:.2f} V" + (" (at range edge)" if o.at_boundary else ""))
+        sv = None
+        if len(amap.surfaces):
+            sv = amap.surfaces[quantity].to_numpy(float)
+        _surfaces_on_map(ax, amap.surfaces, p, label_surfaces, sv, cs.cmap, cs.norm)
+        ax.set_xlabel(f"{amap.descriptors[0].label()} / eV")
+        ax.set_ylabel(f"{amap.descriptors[1].label()} / eV")
+        ax.set_title(f"Activity map of {amap.pathway.name}; {_conditions_text(amap.conditions)}")
+        ax.legend(loc="upper right", frameon=True, framealpha=0.85, fontsize=p.font_pt - 2)
+        if caption:
+            _caption(ax, p, f"Squares: computed surfaces filled with their exact value (not the scaling estimate).\n{_short_refs(amap.conditions)}. {_CAUTION}")
+    return ax
+
+
+def _region_edges(ax, x, y, regions):
+    """One thin line around each region (avoids stacked contour levels where indices jump)."""
+    for k in np.unique(regions):
+        ax.contour(x, y, (regions == k).astype(float), levels=[0.5], colors="#333333", linewidths=0.6, zorder=2)
+
+
+def _region_colors(n):
+    from matplotlib.colors import ListedColormap, to_rgba
+
+    cols = [to_rgba(PALETTE[k % len(PALETTE)], 0.45) for k in range(n)]
+    return ListedColormap(cols)
+
+
+def plot_determining_steps(amap: ActivityMap, ax=None, style: str = "notebook", label_surfaces: bool = True, caption: bool = True):
+    """Regions of the map by potential-determining step, each labelled with its step."""
+    p = preset(style)
+    with style_context(p):
+        if ax is None:
+            _, ax = figure(p)
+        n = len(amap.step_names)
+        idx = amap.determining_step_index - 1
+        X, Y = np.meshgrid(amap.x, amap.y)
+        ax.pcolormesh(amap.x, amap.y, idx, cmap=_region_colors(n), vmin=-0.5, vmax=n - 0.5, shading="nearest", zorder=1, rasterized=True)
+        _region_edges(ax, amap.x, amap.y, idx)
+        _region_labels(ax, X, Y, idx, [f"step {s}" for s in amap.step_names], p.font_pt - 1)
+        _surfaces_on_map(ax, amap.surfaces, p, label_surfaces)
+        ax.set_xlabel(f"{amap.descriptors[0].label()} / eV")
+        ax.set_ylabel(f"{amap.descriptors[1].label()} / eV")
+        ax.set_title(f"Potential-determining step, {amap.pathway.name}; {_conditions_text(amap.conditions)}")
+        if caption:
+            _caption(ax, p, f"{_short_refs(amap.conditions)}. {_CAUTION}")
+    return ax
+
+
+def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook", label_surfaces: bool = True, caption: bool = True, margin_lines: bool = True):
+    """Regions by winning product (least negative onset potential), labelled; surfaces on top.
+
+    Hatching (``margin_lines``) marks where the winner leads the runner-up by less than 0.1 V
+    (weak preference).
+    """
+    from ecatlab.notation import Species
+
+    p = preset(style)
+    with style_context(p):
+        if ax is None:
+            _, ax = figure(p)
+        n = len(smap.products)
+        X, Y = np.meshgrid(smap.x, smap.y)
+        ax.pcolormesh(smap.x, smap.y, smap.winner, cmap=_region_colors(n), vmin=-0.5, vmax=n - 0.5, shading="nearest", zorder=1, rasterized=True)
+        _region_edges(ax, smap.x, smap.y, smap.winner)
+        if margin_lines and np.nanmax(smap.margin) > 0.1:
+            import matplotlib as mpl
+
+            with mpl.rc_context({"hatch.color": "#8A8A8A", "hatch.linewidth": 0.4}):
+                ax.contourf(smap.x, smap.y, smap.margin, levels=[-1e-12, 0.1], colors="none", hatches=["//"], zorder=2)
+        labels = []
+        for lab in smap.product_labels:
+            try:
+                labels.append(Species.parse(f"{lab}(g)").latex().replace("(g)", ""))
+            except Exception:  # noqa: BLE001 - label only
+                labels.append(lab)
+        _region_labels(ax, X, Y, smap.winner, labels, p.font_pt)
+        _surfaces_on_map(ax, smap.surfaces, p, label_surfaces)
+        ax.set_xlabel(f"{smap.descriptors[0].label()} / eV")
+        ax.set_ylabel(f"{smap.descriptors[1].label()} / eV")
+        ax.set_title(f"Selectivity: least negative onset potential; {_conditions_text(smap.conditions)}")
+        if caption:
+            _caption(ax, p, f"Compared: {', '.join(smap.products)}. Hatched: winner leads the runner-up by less than 0.1 V.\n"
+                            f"Chemical steps (e.g. CO desorption) not included. {_short_refs(smap.conditions)}.\n{_CAUTION}")
+    return ax
+
+
+def volcano_figure(energies, pathway, descriptor, ax=None, style: str = "notebook", **kwargs):
+    """Compute (:func:`ecatlab.volcano.volcano`) and draw (:func:`plot_volcano`) a 1D volcano.
+
+    ``kwargs`` go to :func:`ecatlab.volcano.volcano` (relations, fixed_slopes, pH, scale, span...).
+    Returns the Axes.
+    """
+    curve = volcano(energies, pathway, descriptor, **kwargs)
+    return plot_volcano(curve, ax=ax, style=style)

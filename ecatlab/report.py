@@ -1,0 +1,464 @@
+"""One-file HTML report of a CHE analysis: inputs, tables, diagrams, ranking, warnings, provenance.
+
+The report is a single self-contained HTML file: figures are inline SVG with real text, styles are
+inline, and nothing is fetched from the network to view it (no scripts, fonts, images or links to
+other sites). The markup is well-formed XML as well as HTML, so it can be checked by any parser.
+
+Two steps, so that callers can reuse the figures (``ecatlab demo`` also saves them as files):
+
+* :func:`analyse` runs the engine for every pathway (recording every warning raised on the way
+  with ``warnings.catch_warnings(record=True)``) and draws the diagrams -> :class:`ReportAnalysis`;
+* :func:`render_html` turns an analysis (plus optional extra :class:`ReportSection` objects from
+  other modules, e.g. volcano plots) into the HTML text.
+
+:func:`build_report` and :func:`write_report` do both in one call.
+
+Results are theoretical estimates; every report carries :data:`SAFETY_CAUTION`.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import html
+import os
+import pathlib
+import warnings
+from dataclasses import dataclass, field
+from typing import Iterable, Sequence
+
+import numpy as np
+import pandas as pd
+
+from ecatlab.constants import STANDARD_TEMPERATURE
+
+__all__ = [
+    "SAFETY_CAUTION",
+    "ReportSection",
+    "ReportFigure",
+    "ReportAnalysis",
+    "analyse",
+    "render_html",
+    "build_report",
+    "write_report",
+]
+
+#: The caution every report carries.
+SAFETY_CAUTION = (
+    "These numbers are theoretical estimates from the computational hydrogen electrode model "
+    "(thermodynamics only: no kinetics, no transport, no catalyst stability) and are only as good as the "
+    "input energies. They do not establish that an experiment is safe or will work. Any experiment they "
+    "inform must follow local safety codes and licensed laboratory practice: CO is toxic, H2 is "
+    "flammable and forms explosive mixtures with air, and acidic or alkaline electrolytes are corrosive."
+)
+
+
+@dataclass(frozen=True)
+class ReportSection:
+    """An extra section of the report.
+
+    Attributes
+    ----------
+    title : str
+        Heading (plain text; escaped).
+    html : str
+        Body as an HTML fragment (inserted as given; keep it well-formed and free of external URLs;
+        use :func:`ecatlab.plotting.export.svg_fragment` for figures).
+    anchor : str, optional
+        ``id`` of the section (derived from the title if omitted).
+    """
+
+    title: str
+    html: str
+    anchor: str | None = None
+
+
+@dataclass
+class ReportFigure:
+    """One figure of the report (a matplotlib Figure plus what it shows).
+
+    ``svg`` may hold the text of an SVG file already saved from ``figure`` (then the report
+    embeds it instead of rendering the figure again).
+    """
+
+    pathway: str
+    kind: str  # "surfaces" (overlay of the best surfaces) or "potentials" (best surface at several U)
+    caption: str
+    figure: object = field(repr=False, compare=False)
+    svg: str | None = field(default=None, repr=False, compare=False)
+
+
+@dataclass
+class ReportAnalysis:
+    """Everything a report shows, computed once.
+
+    Attributes
+    ----------
+    table : EnergyTable
+    pathways : list of Pathway
+    pH, temperature : float
+        pH and temperature in K.
+    scale : str
+    surfaces : list of str
+    limiting : DataFrame
+        :func:`ecatlab.che.limiting_potentials` output for all pathways.
+    warnings : list of (category name, message)
+        Every warning raised while reading and analysing (duplicates removed).
+    figures : list of ReportFigure
+    parameters : dict
+        The parameters of the analysis, for the provenance section.
+    """
+
+    table: object
+    pathways: list
+    pH: float
+    scale: str
+    temperature: float
+    surfaces: list
+    limiting: pd.DataFrame
+    warnings: list
+    figures: list
+    parameters: dict
+
+    def close(self) -> None:
+        """Close the matplotlib figures (frees memory in long sessions and CLI runs)."""
+        import matplotlib.pyplot as plt
+
+        for f in self.figures:
+            plt.close(f.figure)
+
+
+def _complete_surfaces(lp: pd.DataFrame, key: str) -> list[str]:
+    rows = lp[(lp["pathway"] == key) & (lp["missing_species"].astype(str) == "")]
+    rows = rows.assign(_eta=rows["overpotential"]).sort_values("_eta", kind="stable", na_position="last")
+    return list(rows["surface"])
+
+
+def analyse(
+    energies,
+    pathways: str | Sequence,
+    *,
+    pH: float = 0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    surfaces: Iterable[str] | None = None,
+    top: int = 4,
+    style: str = "double",
+    diagrams: bool = True,
+) -> ReportAnalysis:
+    """Run the CHE engine for every pathway and draw the report's diagrams.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path
+    pathways : str, Pathway or list of them
+    pH, scale, temperature
+        Conditions (temperature in K; potentials in V on ``scale``).
+    surfaces : list of str, optional
+        Surfaces to include (default all).
+    top : int
+        Number of best surfaces (lowest overpotential) overlaid in each pathway's diagram.
+    style : str
+        Figure preset (``"double"`` suits a report page).
+    diagrams : bool
+        Draw the diagrams (``False``: tables only).
+
+    Returns
+    -------
+    ReportAnalysis
+        Per pathway, two figures: the ``top`` best surfaces at U = 0 V on the scale, and the best
+        surface at U = 0, U_eq and its U_L.
+    """
+    from ecatlab.che import limiting_potentials
+    from ecatlab.energies import EnergyTable, read_energies
+    from ecatlab.pathways import resolve
+
+    params = {
+        "energies": getattr(energies, "source", str(energies) if isinstance(energies, (str, os.PathLike)) else "<DataFrame>"),
+        "pathways": [getattr(p, "name", p) for p in ([pathways] if isinstance(pathways, str) or not isinstance(pathways, Sequence) else pathways)],
+        "pH": pH,
+        "scale": scale,
+        "temperature": temperature,
+        "surfaces": None if surfaces is None else list(surfaces),
+        "top": top,
+    }
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        table = energies if isinstance(energies, EnergyTable) else read_energies(energies)
+        paths = [resolve(p) for p in ([pathways] if isinstance(pathways, str) or not isinstance(pathways, Sequence) else pathways)]
+        if not paths:
+            from ecatlab.errors import PathwayError
+
+            raise PathwayError("the report needs at least one pathway (e.g. --pathway orr-4e)")
+        names = list(table.surfaces) if surfaces is None else list(surfaces)
+        lp = limiting_potentials(table, paths, pH=pH, scale=scale, temperature=temperature, surfaces=names, on_missing="report")
+        figures: list[ReportFigure] = []
+        if diagrams:
+            figures = _draw_figures(table, paths, lp, pH, scale, temperature, top, style)
+    seen = []
+    for w in caught:
+        item = (w.category.__name__, str(w.message))
+        if item not in seen:
+            seen.append(item)
+    return ReportAnalysis(table, paths, float(pH), str(lp["scale"].iloc[0]), float(temperature), names, lp, seen, figures, params)
+
+
+def _draw_figures(table, paths, lp, pH, scale, temperature, top, style) -> list[ReportFigure]:
+    from ecatlab.plotting.diagram import plot_diagram_at_potentials, plot_free_energy_diagram
+
+    figures = []
+    for path in paths:
+        ranked = _complete_surfaces(lp, path.name)
+        if not ranked:
+            continue
+        chosen = ranked[: max(1, int(top))]
+        ax = plot_free_energy_diagram(table, path, chosen, potential=0.0, pH=pH, scale=scale, temperature=temperature,
+                                      style=style, annotate=len(chosen) == 1)
+        figures.append(ReportFigure(
+            path.name, "surfaces",
+            f"{path.name}: free-energy diagram of the {len(chosen)} surface(s) with the lowest overpotential "
+            f"({', '.join(chosen)}) at U = 0 V vs {scale}; the potential-determining step of each is underlaid in yellow.",
+            ax.figure,
+        ))
+        best = chosen[0]
+        ax = plot_diagram_at_potentials(table, path, best, (0.0, "equilibrium", "limiting"), pH=pH, scale=scale,
+                                        temperature=temperature, style=style)
+        figures.append(ReportFigure(
+            path.name, "potentials",
+            f"{path.name} on {best} (lowest overpotential) at U = 0 V, at the equilibrium potential U_eq and at its "
+            f"limiting potential U_L (V vs {scale}); at U_L the potential-determining step is flat.",
+            ax.figure,
+        ))
+    return figures
+
+
+# ------------------------------------------------------------------------------------------------
+# HTML
+# ------------------------------------------------------------------------------------------------
+_CSS = """
+body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;color:#1d2329;max-width:1100px;
+margin:0 auto;padding:1.2rem 1.6rem 3rem;line-height:1.45;background:#fcfcfa}
+h1{font-size:1.6rem;margin:.2rem 0 .2rem;color:#1F4E79}
+h2{font-size:1.25rem;margin-top:2.2rem;border-bottom:2px solid #1F4E79;padding-bottom:.2rem;color:#1F4E79}
+h3{font-size:1.05rem;margin-top:1.6rem}
+.meta{color:#555;font-size:.9rem}
+.caution{border-left:6px solid #D55E00;background:#fff4ec;padding:.6rem .9rem;margin:1rem 0}
+.banner{border:2px dashed #B8860B;background:#fff9e6;padding:.5rem .9rem;margin:1rem 0;font-weight:600}
+table.ecatlab-table{border-collapse:collapse;font-size:.86rem;margin:.6rem 0 1rem;width:100%}
+table.ecatlab-table caption{caption-side:bottom;text-align:left;font-size:.8rem;color:#555;padding-top:.4rem}
+table.ecatlab-table th{border-bottom:1.5px solid #333;text-align:left;padding:.25rem .5rem;vertical-align:bottom}
+table.ecatlab-table td{border-bottom:1px solid #e3e3e0;padding:.2rem .5rem}
+table.ecatlab-table td.num{text-align:right;font-variant-numeric:tabular-nums}
+figure{margin:1rem 0 1.6rem}
+figure svg{max-width:100%;height:auto}
+figcaption{font-size:.85rem;color:#444;margin-top:.3rem}
+dl.columns dt{font-family:monospace;font-weight:600}
+dl.columns dd{margin:0 0 .3rem 1.2rem;font-size:.88rem}
+ul.warnings li{font-family:monospace;font-size:.85rem;margin-bottom:.3rem}
+pre{background:#f1f1ee;padding:.6rem;overflow-x:auto;font-size:.85rem;white-space:pre-wrap}
+nav ol{columns:2;font-size:.92rem}
+"""
+
+
+def _esc(text) -> str:
+    return html.escape(str(text), quote=True)
+
+
+def _anchor(title: str) -> str:
+    import re
+
+    return re.sub(r"[^a-z0-9]+", "-", title.lower()).strip("-") or "section"
+
+
+def _inputs_html(a: ReportAnalysis) -> str:
+    t = a.table
+    frame = t.frame
+    origin = frame["G_origin"].value_counts() if "G_origin" in frame else pd.Series(dtype=int)
+    prov = sorted({str(v) for v in frame["source"].dropna()}) if "source" in frame else []
+    items = [
+        f"<li><b>Energy table</b>: {_esc(t.describe())}.</li>",
+        f"<li><b>Surfaces</b> ({len(a.surfaces)}): {_esc(', '.join(a.surfaces))}.</li>",
+        f"<li><b>Adsorbates</b> ({len(t.species)}): {_esc(', '.join(t.species))}.</li>",
+        f"<li><b>Reference scheme</b>: {_esc(t.scheme.describe())}.</li>",
+        f"<li><b>Conditions</b>: pH {a.pH:g}, T = {a.temperature:.2f} K, potentials in V vs {_esc(a.scale)}.</li>",
+    ]
+    if len(origin):
+        items.append("<li><b>Origin of G values</b>: " + _esc("; ".join(f"{k}: {v} rows" for k, v in origin.items())) + ".</li>")
+    if prov:
+        items.append("<li><b>Provenance column of the input</b>: " + _esc("; ".join(prov[:20])) + (" ..." if len(prov) > 20 else "") + "</li>")
+    notes = "".join(f"<li>{_esc(n)}</li>" for n in t.notes) or "<li>none (G given directly)</li>"
+    rows = "".join(
+        f"<tr><td>{_esc(p.name)}</td><td>{_esc(p.direction)}</td><td class=\"num\">{abs(p.total_electrons):g}</td>"
+        f"<td>{_esc(p.overall_step().equation)}</td><td>{_esc(p.description)}</td></tr>"
+        for p in a.pathways
+    )
+    steps = "".join(
+        f"<li><b>{_esc(p.name)}</b>: " + "; ".join(f"{i + 1}. {_esc(s.equation)}" for i, s in enumerate(p.steps)) + "</li>"
+        for p in a.pathways
+    )
+    return (
+        "<ul>" + "".join(items) + "</ul>"
+        "<h3>Corrections applied while reading</h3><ul>" + notes + "</ul>"
+        "<h3>Pathways</h3>"
+        '<table class="ecatlab-table"><thead><tr><th>key</th><th>direction</th><th>electrons</th><th>overall reaction</th>'
+        "<th>description</th></tr></thead><tbody>" + rows + "</tbody></table>"
+        "<details><summary>Elementary steps</summary><ul>" + steps + "</ul></details>"
+    )
+
+
+def _columns_html(docs: dict) -> str:
+    return '<dl class="columns">' + "".join(f"<dt>{_esc(k)}</dt><dd>{_esc(v)}</dd>" for k, v in docs.items()) + "</dl>"
+
+
+def _ranking_html(a: ReportAnalysis) -> str:
+    from ecatlab.tables import overpotential_matrix, rank_surfaces, to_html
+
+    ranked = rank_surfaces(a.limiting)
+    best = ranked[ranked["rank"] == 1].copy()
+    best.attrs = dict(ranked.attrs)
+    best.attrs["caption"] = "Best surface(s) per pathway (rank 1 = lowest theoretical overpotential). " + ranked.attrs["caption"]
+    matrix = overpotential_matrix(a.limiting)
+    return (
+        "<p>Surfaces are ranked within each pathway by the theoretical overpotential (V); lower is better. "
+        "Rankings only compare the thermodynamic descriptor; kinetics and stability are not considered.</p>"
+        + to_html(best)
+        + "<h3>Overpotentials of every surface and pathway (V)</h3>"
+        + to_html(matrix)
+        + "<details><summary>Full ranking</summary>" + to_html(ranked) + "</details>"
+    )
+
+
+def _figures_html(a: ReportAnalysis) -> str:
+    from ecatlab.plotting.export import svg_fragment
+
+    if not a.figures:
+        return "<p>No diagrams: no surface has every adsorbate of these pathways, or diagrams were switched off.</p>"
+    parts = []
+    current = None
+    for k, f in enumerate(a.figures):
+        if f.pathway != current:
+            parts.append(f'<h3 id="diagram-{_esc(_anchor(f.pathway))}">{_esc(f.pathway)}</h3>')
+            current = f.pathway
+        svg = svg_fragment(f.svg if f.svg else f.figure, element_id=f"fig{k + 1}")
+        parts.append(f"<figure>{svg}<figcaption>Figure {k + 1}. {_esc(f.caption)}</figcaption></figure>")
+    return "".join(parts)
+
+
+def _warnings_html(a: ReportAnalysis) -> str:
+    if not a.warnings:
+        return "<p>No warnings were raised during the analysis.</p>"
+    return '<ul class="warnings">' + "".join(f"<li>{_esc(cat)}: {_esc(msg)}</li>" for cat, msg in a.warnings) + "</ul>"
+
+
+def _provenance_html(a: ReportAnalysis, command: str | None) -> str:
+    from ecatlab import __version__
+
+    if command is None:
+        args = ", ".join(f"{k}={v!r}" for k, v in a.parameters.items())
+        command = f"ecatlab.report.build_report({args})"
+    params = "".join(f"<tr><td>{_esc(k)}</td><td>{_esc(v)}</td></tr>" for k, v in a.parameters.items())
+    return (
+        f"<p>ecatlab version <b>{_esc(__version__)}</b>.</p>"
+        f"<p>Command:</p><pre>{_esc(command)}</pre>"
+        '<table class="ecatlab-table"><thead><tr><th>parameter</th><th>value</th></tr></thead><tbody>'
+        + params + "</tbody></table>"
+    )
+
+
+def render_html(
+    analysis: ReportAnalysis,
+    *,
+    sections: Sequence[ReportSection] = (),
+    command: str | None = None,
+    title: str | None = None,
+    banner: str | None = None,
+) -> str:
+    """The report as one self-contained HTML document (text).
+
+    Parameters
+    ----------
+    analysis : ReportAnalysis
+    sections : sequence of ReportSection
+        Extra sections, placed after the diagrams.
+    command : str, optional
+        The exact command line (or call) that produced the report; default: the equivalent
+        Python call built from the analysis parameters.
+    title : str, optional
+    banner : str, optional
+        A notice shown prominently at the top (e.g. that the data are illustrative).
+    """
+    from ecatlab import __version__
+    from ecatlab.tables import limiting_potential_table, to_html
+
+    a = analysis
+    title = title or f"ecatlab report: {', '.join(p.name for p in a.pathways)}"
+    table = limiting_potential_table(a.limiting, sort=True)
+    body: list[tuple[str, str, str]] = [
+        ("inputs", "Inputs", _inputs_html(a)),
+        ("limiting-potentials", "Limiting potentials",
+         "<p>Limiting potential U<sub>L</sub>, equilibrium potential U<sub>eq</sub> and theoretical overpotential "
+         "&#951; per surface and pathway, sorted by overpotential within each pathway.</p>" + to_html(table)
+         + "<h3>Columns</h3>" + _columns_html(table.attrs["columns"])),
+        ("ranking", "Ranking of surfaces", _ranking_html(a)),
+        ("diagrams", "Free-energy diagrams", _figures_html(a)),
+    ]
+    for s in sections:
+        body.append((s.anchor or _anchor(s.title), s.title, s.html))
+    body += [
+        ("warnings", "Warnings raised during the analysis", _warnings_html(a)),
+        ("provenance", "Version and parameters", _provenance_html(a, command)),
+    ]
+    stamp = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    nav = "".join(f'<li><a href="#{_esc(anchor)}">{_esc(head)}</a></li>' for anchor, head, _ in body)
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8"/>',
+        '<meta name="viewport" content="width=device-width, initial-scale=1"/>',
+        f"<title>{_esc(title)}</title><style>{_CSS}</style></head><body>",
+        f"<h1>{_esc(title)}</h1>",
+        f'<p class="meta">Generated by ecatlab {_esc(__version__)} on {stamp} · pH {a.pH:g} · '
+        f"{a.temperature:.2f} K · potentials in V vs {_esc(a.scale)} · {len(a.surfaces)} surfaces · "
+        f"{len(a.pathways)} pathways</p>",
+    ]
+    if banner:
+        parts.append(f'<div class="banner">{_esc(banner)}</div>')
+    parts.append(f'<div class="caution" id="caution"><b>Caution.</b> {_esc(SAFETY_CAUTION)}</div>')
+    parts.append(f"<nav><ol>{nav}</ol></nav>")
+    for anchor, head, content in body:
+        parts.append(f'<section id="{_esc(anchor)}"><h2>{_esc(head)}</h2>{content}</section>')
+    parts.append(f'<div class="caution"><b>Caution.</b> {_esc(SAFETY_CAUTION)}</div>')
+    parts.append("</body></html>")
+    return "\n".join(parts) + "\n"
+
+
+def build_report(
+    energies,
+    pathways,
+    *,
+    pH: float = 0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    surfaces: Iterable[str] | None = None,
+    top: int = 4,
+    sections: Sequence[ReportSection] = (),
+    command: str | None = None,
+    title: str | None = None,
+    banner: str | None = None,
+) -> str:
+    """Analyse and render in one call; returns the HTML text (figures are closed afterwards).
+
+    Parameters are those of :func:`analyse` and :func:`render_html`.
+    """
+    analysis = analyse(energies, pathways, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces, top=top)
+    try:
+        return render_html(analysis, sections=sections, command=command, title=title, banner=banner)
+    finally:
+        analysis.close()
+
+
+def write_report(path: str | os.PathLike, energies, pathways, **kwargs) -> pathlib.Path:
+    """Build the report (see :func:`build_report`) and write it to ``path`` (UTF-8); returns the path."""
+    target = pathlib.Path(path)
+    text = build_report(energies, pathways, **kwargs)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    target.write_text(text, encoding="utf-8")
+    return target

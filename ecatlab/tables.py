@@ -1,0 +1,408 @@
+r"""Limiting-potential tables for papers and reports: formatting, ranking and export.
+
+Input is the frame of :func:`ecatlab.che.limiting_potentials` (one row per surface and pathway);
+nothing here recomputes physics. :func:`limiting_potential_table` selects and renames its columns
+into a display table whose headers carry their units; :data:`TABLE_COLUMNS` documents each
+column. :func:`rank_surfaces` orders surfaces per pathway by theoretical overpotential.
+
+Exports (all carry the conditions: potential scale, pH, temperature and reference scheme):
+
+=========== ============================================================================
+format      what is written
+=========== ============================================================================
+CSV         full-precision numbers; the conditions as columns (``scale``, ``pH``, ``T [K]``)
+Markdown    pipe table, numbers rounded, caption as a paragraph under the table
+LaTeX       ``table`` float with ``booktabs`` rules (``\usepackage{booktabs}``), caption
+HTML        ``<table>`` with ``<caption>``, chemical formulas with ``<sub>``/``<sup>``
+=========== ============================================================================
+
+Potentials are rounded to 2 decimals by default (0.01 V), well below the typical uncertainty of
+DFT adsorption energies (about 0.1–0.2 eV; common practice, no source), so more digits would claim
+a precision the numbers do not have. The CSV keeps full precision for further work.
+"""
+
+from __future__ import annotations
+
+import html
+import os
+import pathlib
+import re
+from typing import Iterable, Sequence
+
+import numpy as np
+import pandas as pd
+
+from ecatlab.errors import EcatlabError
+
+__all__ = [
+    "TABLE_COLUMNS",
+    "limiting_potential_table",
+    "rank_surfaces",
+    "overpotential_matrix",
+    "table_caption",
+    "to_markdown",
+    "to_latex",
+    "to_html",
+    "export_table",
+    "TableInputError",
+]
+
+# source column -> (display header template, LaTeX header, documentation with unit, decimals or None)
+_SPEC: dict[str, tuple[str, str, str, int | None]] = {
+    "surface": ("surface", "surface", "surface name", None),
+    "pathway": ("pathway", "pathway", "pathway key (see ecatlab.list_pathways())", None),
+    "limiting_potential": ("U_L [V vs {scale}]", r"$U_\mathrm{{L}}$ / V vs {scale}",
+                           "limiting potential: least extreme potential at which every electrochemical step is downhill [V vs {scale}]", 2),
+    "equilibrium_potential": ("U_eq [V vs {scale}]", r"$U_\mathrm{{eq}}$ / V vs {scale}",
+                              "equilibrium potential of the overall reaction at the stated pH and T [V vs {scale}]", 2),
+    "overpotential": ("eta [V]", r"$\eta$ / V", "theoretical overpotential, positive = loss [V]", 2),
+    "determining_step": ("potential-determining step", "potential-determining step",
+                         "potential-determining step (equation)", None),
+    "max_chemical_dG": ("max chemical dG [eV]", r"max.\ chemical $\Delta G$ / eV",
+                        "largest free energy of a potential-independent (chemical) step; empty if none [eV]", 2),
+    "missing_species": ("missing species", "missing species", "adsorbates lacking for this surface (then no numbers)", None),
+}
+
+#: Documentation (with units) of the display columns, for the default RHE scale.
+TABLE_COLUMNS: dict[str, str] = {
+    _SPEC[k][0].format(scale="RHE"): _SPEC[k][2].format(scale="RHE") for k in _SPEC
+}
+
+_DEFAULT_COLUMNS = ("surface", "pathway", "limiting_potential", "equilibrium_potential", "overpotential", "determining_step")
+
+
+class TableInputError(EcatlabError, ValueError):
+    """The frame given to a table function is not a limiting-potential frame."""
+
+
+def _check_frame(lp: pd.DataFrame) -> None:
+    need = {"surface", "pathway", "limiting_potential", "overpotential", "scale", "pH", "temperature"}
+    if not isinstance(lp, pd.DataFrame) or not need <= set(lp.columns):
+        missing = sorted(need - set(getattr(lp, "columns", [])))
+        raise TableInputError(
+            f"expected the frame returned by ecatlab.limiting_potentials(); columns {missing} are missing"
+        )
+
+
+def _conditions(lp: pd.DataFrame) -> dict:
+    attrs = dict(lp.attrs)
+    scale = attrs.get("scale") or str(lp["scale"].iloc[0])
+    return {
+        "scale": scale,
+        "pH": float(attrs.get("pH", lp["pH"].iloc[0])),
+        "temperature": float(attrs.get("temperature", lp["temperature"].iloc[0])),
+        "references": attrs.get("references", ""),
+        "source": attrs.get("energy_source", ""),
+    }
+
+
+def table_caption(lp: pd.DataFrame, what: str = "Limiting potentials and theoretical overpotentials") -> str:
+    """Caption naming the conditions: scale, pH, T, reference scheme and energy source.
+
+    Parameters
+    ----------
+    lp : DataFrame
+        Output of :func:`ecatlab.che.limiting_potentials` (or a table made from it).
+    what : str
+        First words of the caption.
+    """
+    c = _conditions(lp)
+    text = (
+        f"{what} from the computational hydrogen electrode (CHE) model at pH {c['pH']:g} and "
+        f"{c['temperature']:.2f} K; potentials in V vs {c['scale']}, overpotentials in V."
+    )
+    if c["references"]:
+        text += f" Reference scheme: {c['references']}."
+    if c["source"]:
+        text += f" Energies: {c['source']}."
+    text += " Theoretical estimates (thermodynamics only, no kinetics)."
+    return text
+
+
+def limiting_potential_table(lp: pd.DataFrame, columns: Sequence[str] | None = None, sort: bool = False) -> pd.DataFrame:
+    """Display table of limiting potentials with unit-bearing headers.
+
+    Parameters
+    ----------
+    lp : DataFrame
+        Output of :func:`ecatlab.che.limiting_potentials`.
+    columns : sequence of str, optional
+        Source columns to keep, from ``surface, pathway, limiting_potential, equilibrium_potential,
+        overpotential, determining_step, max_chemical_dG, missing_species``. Default: the first six;
+        ``max_chemical_dG`` and ``missing_species`` are added when any row has a value there.
+    sort : bool
+        Sort by pathway, then overpotential (lowest first, missing last).
+
+    Returns
+    -------
+    DataFrame
+        Full-precision values; headers such as ``"U_L [V vs RHE]"``. ``.attrs["columns"]`` documents
+        every column with its unit, ``.attrs["caption"]`` names the conditions, ``.attrs["decimals"]``
+        gives the rounding used by the text exports.
+    """
+    _check_frame(lp)
+    c = _conditions(lp)
+    if columns is None:
+        cols = list(_DEFAULT_COLUMNS)
+        if "max_chemical_dG" in lp and np.isfinite(lp["max_chemical_dG"].to_numpy(dtype=float)).any():
+            cols.append("max_chemical_dG")
+        if "missing_species" in lp and (lp["missing_species"].astype(str).str.len() > 0).any():
+            cols.append("missing_species")
+    else:
+        unknown = [k for k in columns if k not in _SPEC]
+        if unknown:
+            raise ValueError(f"unknown column(s) {unknown}; choose from {list(_SPEC)}")
+        cols = list(columns)
+    frame = lp
+    if sort:
+        frame = frame.assign(_eta=frame["overpotential"]).sort_values(["pathway", "_eta"], na_position="last", kind="stable")
+    out = pd.DataFrame({_SPEC[k][0].format(scale=c["scale"]): frame[k].to_numpy() for k in cols})
+    out.attrs["columns"] = {_SPEC[k][0].format(scale=c["scale"]): _SPEC[k][2].format(scale=c["scale"]) for k in cols}
+    out.attrs["latex_headers"] = {_SPEC[k][0].format(scale=c["scale"]): _SPEC[k][1].format(scale=c["scale"]) for k in cols}
+    out.attrs["decimals"] = {_SPEC[k][0].format(scale=c["scale"]): _SPEC[k][3] for k in cols}
+    out.attrs["caption"] = table_caption(lp)
+    out.attrs["conditions"] = c
+    return out
+
+
+def rank_surfaces(lp: pd.DataFrame, pathways: str | Iterable[str] | None = None) -> pd.DataFrame:
+    """Surfaces ranked per pathway by theoretical overpotential (rank 1 = lowest eta).
+
+    Surfaces without numbers (missing species) come last with rank ``<NA>``. Ties share the lower
+    rank (``method="min"``).
+
+    Returns
+    -------
+    DataFrame
+        Columns ``pathway``, ``rank``, ``surface``, ``overpotential`` [V], ``limiting_potential``
+        [V vs scale], ``determining_step``; ``.attrs`` carries the caption and column docs.
+    """
+    _check_frame(lp)
+    frame = lp
+    if pathways is not None:
+        keep = [pathways] if isinstance(pathways, str) else list(pathways)
+        frame = frame[frame["pathway"].isin(keep)]
+    rank = frame.groupby("pathway", sort=False)["overpotential"].rank(method="min", na_option="keep").astype("Int64")
+    out = frame.assign(rank=rank)[["pathway", "rank", "surface", "overpotential", "limiting_potential", "determining_step"]]
+    order = {p: i for i, p in enumerate(pd.unique(frame["pathway"]))}
+    out = out.assign(_order=out["pathway"].map(order), _eta=out["overpotential"])
+    out = out.sort_values(["_order", "_eta"], na_position="last", kind="stable").drop(columns=["_order", "_eta"])
+    out = out.reset_index(drop=True)
+    c = _conditions(lp)
+    out.attrs["caption"] = table_caption(lp, "Surfaces ranked by theoretical overpotential (rank 1 = lowest)")
+    out.attrs["columns"] = {
+        "pathway": "pathway key",
+        "rank": "rank within the pathway by overpotential, 1 = lowest [-]",
+        "surface": "surface name",
+        "overpotential": "theoretical overpotential [V]",
+        "limiting_potential": f"limiting potential [V vs {c['scale']}]",
+        "determining_step": "potential-determining step (equation)",
+    }
+    out.attrs["decimals"] = {"overpotential": 2, "limiting_potential": 2}
+    out.attrs["conditions"] = c
+    return out
+
+
+def overpotential_matrix(lp: pd.DataFrame) -> pd.DataFrame:
+    """Wide table of theoretical overpotentials [V]: rows surfaces, columns pathways (NaN: missing)."""
+    _check_frame(lp)
+    wide = lp.pivot(index="surface", columns="pathway", values="overpotential")
+    wide = wide.reindex(index=list(pd.unique(lp["surface"])), columns=list(pd.unique(lp["pathway"])))
+    wide.columns.name = None
+    wide.attrs["caption"] = table_caption(lp, "Theoretical overpotentials in V (rows: surfaces, columns: pathways)")
+    wide.attrs["conditions"] = _conditions(lp)
+    wide.attrs["decimals"] = {c: 2 for c in wide.columns}
+    return wide
+
+
+# ------------------------------------------------------------------------------------------------
+# text rendering
+# ------------------------------------------------------------------------------------------------
+def _cells(table: pd.DataFrame, decimals: int | None, missing: str) -> list[list[str]]:
+    per_col = dict(table.attrs.get("decimals", {}))
+    out = []
+    for col in table.columns:
+        values = table[col].to_numpy()
+        d = decimals if decimals is not None else per_col.get(col)
+        numeric = pd.api.types.is_numeric_dtype(table[col]) and not pd.api.types.is_bool_dtype(table[col])
+        cells = []
+        for v in values:
+            if v is None or (isinstance(v, float) and not np.isfinite(v)) or v is pd.NA:
+                cells.append(missing)
+            elif numeric and isinstance(v, (float, np.floating)):
+                cells.append(f"{v:.{d if d is not None else 3}f}")
+            else:
+                cells.append(str(v))
+        out.append(cells)
+    return [list(row) for row in zip(*out)] if out else []
+
+
+def _chemistry_columns(table: pd.DataFrame) -> list[bool]:
+    """Text columns holding chemical equations or species (formatted with sub/superscripts)."""
+    return [any(w in str(c).lower() for w in ("step", "reaction", "species")) for c in table.columns]
+
+
+def _numeric_columns(table: pd.DataFrame) -> list[bool]:
+    return [pd.api.types.is_numeric_dtype(table[c]) and not pd.api.types.is_bool_dtype(table[c]) for c in table.columns]
+
+
+def _index_frame(table: pd.DataFrame) -> pd.DataFrame:
+    if isinstance(table.index, pd.RangeIndex) and table.index.name is None:
+        return table
+    name = table.index.name or ""
+    out = table.reset_index()
+    out = out.rename(columns={out.columns[0]: name or " "})
+    out.attrs = dict(table.attrs)
+    return out
+
+
+def to_markdown(table: pd.DataFrame, decimals: int | None = None, caption: str | bool = True, missing: str = "n/a") -> str:
+    """Markdown pipe table (numbers right-aligned) followed by the caption as a paragraph.
+
+    ``decimals`` overrides the per-column rounding kept in ``table.attrs``; ``caption=True`` uses
+    ``table.attrs["caption"]``, a string replaces it, ``False`` leaves it out.
+    """
+    table = _index_frame(table)
+    headers = [str(c) for c in table.columns]
+    rows = _cells(table, decimals, missing)
+    numeric = _numeric_columns(table)
+
+    def esc(text: str) -> str:
+        return text.replace("|", r"\|").replace("\n", " ")
+
+    widths = [max([len(esc(h))] + [len(esc(r[j])) for r in rows] + [3]) for j, h in enumerate(headers)]
+    def line(cells):
+        return "| " + " | ".join(esc(c).rjust(w) if num else esc(c).ljust(w) for c, w, num in zip(cells, widths, numeric)) + " |"
+    rule = "| " + " | ".join(("-" * (w - 1) + ":") if num else ("-" * w) for w, num in zip(widths, numeric)) + " |"
+    text = "\n".join([line(headers), rule] + [line(r) for r in rows])
+    cap = table.attrs.get("caption", "") if caption is True else (caption or "")
+    if cap:
+        text += "\n\n" + f"*{esc(cap)}*"
+    return text + "\n"
+
+
+_LATEX_SPECIAL = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_", "{": r"\{",
+                  "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}"}
+
+
+def _latex_escape(text: str) -> str:
+    return "".join(_LATEX_SPECIAL.get(ch, ch) for ch in text)
+
+
+def _latex_chem(text: str) -> str:
+    """Chemistry-aware LaTeX for cell text: H2O -> H$_{2}$O, H+ -> H$^{+}$, -> -> $\\rightarrow$."""
+    out = _latex_escape(text)
+    out = out.replace("->", r"$\rightarrow$").replace("→", r"$\rightarrow$")
+    out = re.sub(r"(?<=[A-Za-z)])(\d+)", r"$_{\1}$", out)
+    out = re.sub(r"\bH\+", r"H$^{+}$", out)
+    out = re.sub(r"\be-", r"e$^{-}$", out)
+    out = re.sub(r"\bOH-", r"OH$^{-}$", out)
+    return out
+
+
+def to_latex(
+    table: pd.DataFrame,
+    decimals: int | None = None,
+    caption: str | bool = True,
+    label: str | None = "tab:limiting-potentials",
+    missing: str = "--",
+) -> str:
+    r"""LaTeX ``table`` with ``booktabs`` rules (``\toprule``, ``\midrule``, ``\bottomrule``).
+
+    Needs ``\usepackage{booktabs}`` in the preamble. Numbers are right-aligned; chemical formulas
+    in text cells get subscripts; headers come from ``table.attrs["latex_headers"]`` when present.
+    """
+    table = _index_frame(table)
+    headers = table.attrs.get("latex_headers", {})
+    numeric = _numeric_columns(table)
+    rows = _cells(table, decimals, missing)
+    spec = "".join("r" if n else "l" for n in numeric)
+    head = " & ".join(headers.get(c, _latex_escape(str(c))) for c in table.columns) + r" \\"
+    chem = _chemistry_columns(table)
+    body = [" & ".join(cell if num else (_latex_chem(cell) if ch else _latex_escape(cell)) for cell, num, ch in zip(r, numeric, chem))
+            + r" \\" for r in rows]
+    cap = table.attrs.get("caption", "") if caption is True else (caption or "")
+    lines = [r"\begin{table}", r"  \centering"]
+    if cap:
+        lines.append(r"  \caption{" + _latex_chem(cap) + "}")
+    if label:
+        lines.append(r"  \label{" + label + "}")
+    lines += [r"  \begin{tabular}{" + spec + "}", r"    \toprule", "    " + head, r"    \midrule"]
+    lines += ["    " + b for b in body]
+    lines += [r"    \bottomrule", r"  \end{tabular}", r"\end{table}"]
+    return "\n".join(lines) + "\n"
+
+
+def _html_chem(text: str) -> str:
+    out = html.escape(text, quote=False)
+    out = re.sub(r"(?<=[A-Za-z)])(\d+)", r"<sub>\1</sub>", out)
+    out = out.replace("*", "<sup>*</sup>")
+    out = re.sub(r"\bH\+", "H<sup>+</sup>", out)
+    out = re.sub(r"\be-(?=\s|$)", "e<sup>−</sup>", out)
+    out = out.replace("-&gt;", "→")
+    return out
+
+
+def to_html(
+    table: pd.DataFrame,
+    decimals: int | None = None,
+    caption: str | bool = True,
+    missing: str = "n/a",
+    table_class: str = "ecatlab-table",
+    chemistry: bool = True,
+) -> str:
+    """HTML ``<table>`` with a ``<caption>``; column docs become ``title`` tooltips on the headers.
+
+    Well-formed (XML-parseable) markup; chemical formulas in text cells get ``<sub>``/``<sup>``
+    when ``chemistry`` is true.
+    """
+    table = _index_frame(table)
+    docs = table.attrs.get("columns", {})
+    numeric = _numeric_columns(table)
+    rows = _cells(table, decimals, missing)
+    cap = table.attrs.get("caption", "") if caption is True else (caption or "")
+    parts = [f'<table class="{html.escape(table_class)}">']
+    if cap:
+        parts.append(f"<caption>{html.escape(cap, quote=False)}</caption>")
+    ths = "".join(
+        f'<th scope="col" title="{html.escape(docs.get(c, ""))}">{html.escape(str(c), quote=False)}</th>' for c in table.columns
+    )
+    parts.append(f"<thead><tr>{ths}</tr></thead><tbody>")
+    chem = _chemistry_columns(table)
+    for r in rows:
+        tds = "".join(
+            f'<td class="num">{html.escape(cell, quote=False)}</td>' if num
+            else f"<td>{_html_chem(cell) if (chemistry and ch) else html.escape(cell, quote=False)}</td>"
+            for cell, num, ch in zip(r, numeric, chem)
+        )
+        parts.append(f"<tr>{tds}</tr>")
+    parts.append("</tbody></table>")
+    return "\n".join(parts) + "\n"
+
+
+def export_table(table: pd.DataFrame, path: str | os.PathLike, fmt: str | None = None, decimals: int | None = None) -> pathlib.Path:
+    """Write a table as CSV, Markdown (``.md``), LaTeX (``.tex``) or HTML (``.html``).
+
+    The format comes from ``fmt`` (``"csv"``, ``"markdown"``, ``"latex"``, ``"html"``) or the
+    suffix. CSV keeps full precision and appends the conditions as columns when absent.
+    """
+    target = pathlib.Path(path)
+    kind = (fmt or target.suffix.lstrip(".")).lower()
+    kind = {"md": "markdown", "tex": "latex", "htm": "html"}.get(kind, kind)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    if kind == "csv":
+        frame = _index_frame(table)
+        c = table.attrs.get("conditions")
+        if c:
+            extra = {"scale": c["scale"], "pH": c["pH"], "T [K]": c["temperature"]}
+            frame = frame.assign(**{k: v for k, v in extra.items() if k not in frame.columns})
+        frame.to_csv(target, index=False)
+    elif kind == "markdown":
+        target.write_text(to_markdown(table, decimals), encoding="utf-8")
+    elif kind == "latex":
+        target.write_text(to_latex(table, decimals), encoding="utf-8")
+    elif kind == "html":
+        target.write_text(to_html(table, decimals), encoding="utf-8")
+    else:
+        raise ValueError(f"unknown table format {kind!r} for {str(target)!r}; use csv, md, tex or html")
+    return target

@@ -1,0 +1,118 @@
+"""Tests of ecatlab.energies: reading, validation and the E -> G bookkeeping."""
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from ecatlab.energies import EnergyTable, read_energies
+from ecatlab.errors import EnergyTableError
+from ecatlab.references import ReferenceScheme
+
+
+def write(tmp_path, text, name="e.csv"):
+    path = tmp_path / name
+    path.write_text(text)
+    return path
+
+
+def test_read_g_table_case_insensitive_headers(tmp_path):
+    path = write(tmp_path, "# comment line\nSurface,SPECIES,g,source\nA,OH*,0.8,x\nA,O*,1.9,x\n\nB,OH*,1.0,y\n")
+    table = read_energies(path)
+    assert table.surfaces == ["A", "B"]
+    assert table.species == ["OH*", "O*"]
+    assert table.matrix.loc["A", "O*"] == 1.9
+    assert np.isnan(table.matrix.loc["B", "O*"])
+    assert list(table.frame["line"]) == [3, 4, 6]
+    assert "source" in table.frame.columns
+
+
+def test_e_rows_converted_with_reference_corrections(tmp_path):
+    corr = pd.DataFrame(
+        {"ZPE": {"H2(g)": 0.3, "H2O(l)": 0.5, "CO2(g)": 0.3, "N2(g)": 0.1},
+         "CpdT": {"H2(g)": 0.1, "H2O(l)": 0.1, "CO2(g)": 0.1, "N2(g)": 0.1},
+         "TS": {"H2(g)": 0.4, "H2O(l)": 0.6, "CO2(g)": 0.6, "N2(g)": 0.6}}
+    )
+    scheme = ReferenceScheme(corrections=corr)
+    frame = pd.DataFrame({"surface": ["A"], "species": ["OOH*"], "E": [3.5], "ZPE": [0.40], "CpdT": [0.08], "TS": [0.15], "solvation": [-0.2]})
+    table = read_energies(frame, references=scheme)
+    # OOH = 2 H2O - 1.5 H2: reference part = 2*(0.5+0.1-0.6) - 1.5*(0.3+0.1-0.4) = 0.0 - 0.0
+    # adsorbate part = 0.40 + 0.08 - 0.15 - 0.2 = 0.13
+    assert table.matrix.loc["A", "OOH*"] == pytest.approx(3.5 + 0.13 - 0.0)
+    # N-containing: NH2 = 0.5 N2 + H2 -> reference part 0.5*(0.1+0.1-0.6) + 1*(0.0) = -0.2
+    frame2 = pd.DataFrame({"surface": ["A"], "species": ["NH2*"], "E": [1.0], "ZPE": [0.5], "CpdT": [0.05], "TS": [0.1]})
+    t2 = read_energies(frame2, references=scheme)
+    assert t2.matrix.loc["A", "NH2*"] == pytest.approx(1.0 + 0.45 + 0.2)
+    assert any("G computed from E" in n for n in t2.notes)
+
+
+def test_mixed_g_and_e_rows(tmp_path):
+    path = write(tmp_path, "surface,species,G,E,ZPE,CpdT,TS\nA,OH*,0.8,,,,\nA,H*,,0.1,0.2,0.0,0.01\n")
+    table = read_energies(path)
+    assert table.frame["G_origin"].tolist() == ["G given", "from E + corrections"]
+
+
+@pytest.mark.parametrize(
+    "text, fragments",
+    [
+        ("surface,G\nA,0.1\n", ["missing column(s) ['species']"]),
+        ("surface,species,energy\nA,OH*,0.1\n", ["needs a column G"]),
+        ("surface,species,G\nA,OH*,abc\n", ["line 2", "column 'G'", "not a finite number", "'abc'"]),
+        ("surface,species,G\nA,OH*,\n", ["line 2", "no energy"]),
+        ("surface,species,G\nA,OH*,nan\n", ["line 2", "not a finite number"]),
+        ("surface,species,G\nA,OH*,inf\n", ["line 2", "not a finite number"]),
+        ("surface,species,G\nA,OH*,0.1\nA,OH*,0.2\n", ["line 2, line 3", "duplicate rows", "'OH*'"]),
+        ("surface,species,G\nA,OH,0.1\n", ["line 2", "column 'species'", "needs its phase"]),
+        ("surface,species,G\nA,CO(g),0.1\n", ["not an adsorbate", "overrides"]),
+        ("surface,species,G\nA,*,0.0\n", ["zero of adsorption energies"]),
+        ("surface,species,G\nA,SO4*,0.0\n", ["SO4*", "S cannot be built"]),
+        ("surface,species,G\n,OH*,0.1\n", ["empty surface name", "line 2"]),
+        ("surface,species,G,ZPE\nA,OH*,0.1,0.3\n", ["counted twice", "column 'ZPE'"]),
+        ("surface,species,E\nA,OH*,0.1\n", ["need the adsorbate's ZPE"]),
+        ("surface,species,E,ZPE,CpdT,TS\nA,OH*,0.1,,0.0,0.0\n", ["ZPE is empty", "line 2"]),
+        ("surface,species,G,E\nA,OH*,0.1,0.2\n", ["both G and E"]),
+        ("surface,species,G,g\nA,OH*,0.1,0.2\n", ["case-insensitive"]),
+        ("surface,species,G\n", ["no rows"]),
+        ("# only a comment\n", ["is empty"]),
+    ],
+)
+def test_bad_tables_give_clear_errors(tmp_path, text, fragments):
+    path = write(tmp_path, text)
+    with pytest.raises(EnergyTableError) as err:
+        read_energies(path)
+    message = str(err.value)
+    assert str(path) in message
+    for fragment in fragments:
+        assert fragment in message
+
+
+def test_missing_file_and_folder(tmp_path):
+    with pytest.raises(EnergyTableError, match="file not found"):
+        read_energies(tmp_path / "nope.csv")
+    with pytest.raises(EnergyTableError, match="is a folder"):
+        read_energies(tmp_path)
+
+
+def test_dataframe_errors_name_the_row_label():
+    frame = pd.DataFrame({"surface": ["A", "B"], "species": ["OH*", "O*"], "G": [0.1, "x"]}, index=[10, 11])
+    with pytest.raises(EnergyTableError, match=r"<DataFrame> at row 11, column 'G'"):
+        read_energies(frame)
+
+
+def test_input_frame_not_modified():
+    frame = pd.DataFrame({"Surface": ["A"], "Species": ["OH*"], "G": [0.1]})
+    before = frame.copy()
+    read_energies(frame)
+    pd.testing.assert_frame_equal(frame, before)
+
+
+def test_from_matrix_subset_and_roundtrip():
+    wide = pd.DataFrame({"OH*": [0.8, 1.0], "O*": [1.9, np.nan]}, index=["A", "B"])
+    table = EnergyTable.from_matrix(wide)
+    assert len(table.frame) == 3
+    assert table.subset(["B"]).surfaces == ["B"]
+    with pytest.raises(EnergyTableError, match="unknown surface"):
+        table.subset(["C"])
+    again = EnergyTable.from_dict(table.to_dict())
+    pd.testing.assert_frame_equal(again.matrix, table.matrix)
+    updated = table.with_values(pd.DataFrame({"O*": [2.5]}, index=["B"]))
+    assert updated.matrix.loc["B", "O*"] == 2.5

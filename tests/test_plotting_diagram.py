@@ -1,0 +1,203 @@
+"""Free-energy diagram plotter: the drawn geometry must equal the CHE engine's numbers."""
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import matplotlib.pyplot as plt
+import numpy as np
+import pytest
+
+from ecatlab.che import limiting_potentials, state_free_energies
+from ecatlab.demo import demo_energies
+from ecatlab.plotting import diagram as dg
+from ecatlab.plotting.style import HIGHLIGHT, PALETTE, preset
+
+
+@pytest.fixture(scope="module")
+def table():
+    return demo_energies()
+
+
+@pytest.fixture(autouse=True)
+def _close_figures():
+    yield
+    plt.close("all")
+
+
+def _drawn_levels(ax, series=0):
+    return ax.ecatlab_drawings[series].levels
+
+
+def _level_lines(ax):
+    return [ln for ln in ax.lines if ln.get_gid() == "ecatlab-level"]
+
+
+@pytest.mark.parametrize("potential", [0.0, 0.5, -0.3])
+def test_levels_equal_engine_state_energies(table, potential):
+    surfaces = ["ALY-01", "SAS-03", "ALY-05"]
+    ax = dg.plot_free_energy_diagram(table, "orr-4e", surfaces, potential=potential, pH=3, scale="RHE")
+    expected = state_free_energies(table, "orr-4e", potential=potential, pH=3, scale="RHE", surfaces=surfaces).to_numpy()
+    for j in range(len(surfaces)):
+        np.testing.assert_allclose(_drawn_levels(ax, j), expected[j], atol=1e-12)
+    # the y data of the Line2D artists themselves (not only the handle's view of them)
+    lines = _level_lines(ax)
+    assert len(lines) == len(surfaces) * 5
+    ys = np.array([ln.get_ydata()[0] for ln in lines]).reshape(len(surfaces), 5)
+    np.testing.assert_allclose(ys, expected, atol=1e-12)
+    # levels are flat bars centred on x = 0, 1, 2, ...
+    for k, ln in enumerate(lines[:5]):
+        x = np.asarray(ln.get_xdata())
+        assert x.mean() == pytest.approx(k)
+        assert np.ptp(ln.get_ydata()) == 0
+
+
+def test_equilibrium_potential_closes_the_cycle(table):
+    # At U = U_eq the overall reaction has dG = 0, so the last level returns to 0 eV.
+    # U_eq(ORR, 4e-) = 1.229 V vs RHE at 298.15 K (Bard, Parsons & Jordan, Standard Potentials
+    # in Aqueous Solution, 1985); the engine's molecular data give it within 2 mV.
+    ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-02", potential="equilibrium")
+    data = ax.ecatlab_data
+    assert data.equilibrium_potential == pytest.approx(1.229, abs=0.002)
+    assert _drawn_levels(ax)[-1] == pytest.approx(0.0, abs=1e-9)
+
+
+def test_limiting_potential_makes_determining_step_flat(table):
+    lp = limiting_potentials(table, "orr-4e", surfaces=["SAS-01"])
+    ax = dg.plot_free_energy_diagram(table, "orr-4e", "SAS-01", potential="limiting")
+    levels = _drawn_levels(ax)
+    steps = np.diff(levels)
+    pds = int(lp["determining_step_index"].iloc[0]) - 1
+    assert ax.ecatlab_data.series[0].potential == pytest.approx(lp["limiting_potential"].iloc[0])
+    assert steps[pds] == pytest.approx(0.0, abs=1e-9)
+    assert np.all(steps <= 1e-9)  # reduction at U_L: every electrochemical step downhill
+
+
+@pytest.mark.parametrize("key", ["orr-4e", "oer-4e", "co2rr-ch4", "nrr-distal"])
+def test_highlight_is_the_determining_step(table, key):
+    surfaces = ["ALY-03", "SAS-02"]
+    lp = limiting_potentials(table, key, surfaces=surfaces)
+    ax = dg.plot_free_energy_diagram(table, key, surfaces, potential=0.0)
+    for j, drawing in enumerate(ax.ecatlab_drawings):
+        pds = int(lp["determining_step_index"].iloc[j]) - 1
+        assert drawing.highlight_index == pds
+        hl = drawing.highlight_line
+        assert hl.get_visible() and hl.get_color() == HIGHLIGHT
+        # the highlight runs exactly along the connector of step pds
+        conn = drawing.connector_lines[pds]
+        np.testing.assert_allclose(hl.get_xdata(), conn.get_xdata())
+        np.testing.assert_allclose(hl.get_ydata(), conn.get_ydata())
+        np.testing.assert_allclose(hl.get_ydata(), drawing.levels[pds : pds + 2])
+
+
+def test_labels_present_with_chemical_formatting(table):
+    ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
+    texts = [t.get_text() for t in ax.texts]
+    for label in ("O₂", "OOH*", "O*", "OH*", "H₂O"):
+        assert label in texts
+    values = [t.get_text() for t in ax.ecatlab_drawings[0].value_texts]
+    expected = state_free_energies(table, "orr-4e", surfaces=["ALY-01"]).to_numpy()[0]
+    assert values == [f"{v:.2f}".replace("-", "\N{MINUS SIGN}") for v in expected]
+    title = ax.get_title(loc="left")
+    assert "orr-4e" in title and "V vs RHE" in title and "pH 0" in title and "298.15 K" in title
+    legend_texts = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert any(t.startswith("potential-determining step") for t in legend_texts)
+
+
+def test_overlay_uses_distinct_colours_and_dashes_and_axis_labels(table):
+    surfaces = ["ALY-01", "ALY-02", "SAS-01", "SAS-03"]
+    ax = dg.plot_free_energy_diagram(table, "orr-4e", surfaces, potential=0.0)
+    colours = [d.level_lines[0].get_color() for d in ax.ecatlab_drawings]
+    assert colours == list(PALETTE[:4])
+    assert len({str(d.level_lines[0]._dash_pattern) for d in ax.ecatlab_drawings}) == 4
+    assert [t.get_text() for t in ax.get_xticklabels()] == ["O₂", "OOH*", "O*", "OH*", "H₂O"]
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert legend[:4] == surfaces
+
+
+def test_update_moves_existing_artists_only(table):
+    ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
+    drawing = ax.ecatlab_drawings[0]
+    n_lines, n_texts = len(ax.lines), len(ax.texts)
+    ids = [id(a) for a in drawing.level_lines + drawing.connector_lines + drawing.state_texts]
+    new = state_free_energies(table, "orr-4e", potential=0.9, surfaces=["ALY-01"]).to_numpy()[0]
+    drawing.update(new, highlight_index=2, title="U = 0.90 V vs RHE")
+    assert len(ax.lines) == n_lines and len(ax.texts) == n_texts
+    assert [id(a) for a in drawing.level_lines + drawing.connector_lines + drawing.state_texts] == ids
+    np.testing.assert_allclose(drawing.levels, new)
+    np.testing.assert_allclose(drawing.highlight_line.get_ydata(), new[2:4])
+    assert drawing.state_texts[3].get_position() == pytest.approx((3, new[3]))
+    assert ax.get_title() == "U = 0.90 V vs RHE"
+    assert "ΔG" in drawing.highlight_text.get_text() and "step 3" in drawing.highlight_text.get_text()
+    lo, hi = ax.get_ylim()
+    assert lo < new.min() and hi > new.max()
+    drawing.update(new, highlight_index=None)
+    assert not drawing.highlight_line.get_visible()
+    with pytest.raises(ValueError, match="5 levels"):
+        drawing.update(new[:3])
+
+
+def test_given_axes_is_used_and_returned(table):
+    fig, ax = plt.subplots()
+    out = dg.plot_free_energy_diagram(table, "her-volmer-heyrovsky", "SAS-04", ax=ax)
+    assert out is ax
+    assert len(fig.axes) == 1
+
+
+def test_several_potentials_of_one_surface(table):
+    ax = dg.plot_diagram_at_potentials(table, "oer-4e", "ALY-03", (0.0, "equilibrium", "limiting"))
+    data = ax.ecatlab_data
+    lp = limiting_potentials(table, "oer-4e", surfaces=["ALY-03"])
+    us = [s.potential for s in data.series]
+    assert us == pytest.approx([0.0, lp["equilibrium_potential"].iloc[0], lp["limiting_potential"].iloc[0]])
+    for j, u in enumerate(us):
+        expected = state_free_energies(table, "oer-4e", potential=u, surfaces=["ALY-03"]).to_numpy()[0]
+        np.testing.assert_allclose(_drawn_levels(ax, j), expected, atol=1e-12)
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert legend[0] == "U = 0.00 V" and "eq" in legend[1] and "L" in legend[2]
+
+
+def test_grid_and_product_comparison(table):
+    fig = dg.plot_diagram_grid(table, "nrr-distal", ["ALY-01", "ALY-02", "SAS-01"], ncols=2, style="double")
+    visible = [a for a in fig.axes if a.get_visible() and getattr(a, "ecatlab_drawings", None)]
+    assert len(visible) == 3
+    expected = state_free_energies(table, "nrr-distal", surfaces=["ALY-01", "ALY-02", "SAS-01"]).to_numpy()
+    for a, row in zip(visible, expected):
+        np.testing.assert_allclose(a.ecatlab_drawings[0].levels, row, atol=1e-12)
+    keys = ["co2rr-co", "co2rr-hcooh", "co2rr-ch4"]
+    fig = dg.plot_product_comparison(table, keys, "SAS-02", style="double")
+    panels = [a for a in fig.axes if getattr(a, "ecatlab_drawings", None)]
+    assert [a.ecatlab_data.pathway.name for a in panels] == keys
+    lp = limiting_potentials(table, keys, surfaces=["SAS-02"])
+    for a, (_, row) in zip(panels, lp.iterrows()):
+        assert a.ecatlab_drawings[0].highlight_index == row["determining_step_index"] - 1
+        assert f"{row['limiting_potential']:.2f}".replace("-", "\N{MINUS SIGN}") in a.get_title(loc="left")
+    assert len({a.get_ylim() for a in panels}) == 1  # shared energy axis
+
+
+def test_presets_set_journal_widths(table):
+    ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", style="single")
+    w, h = ax.figure.get_size_inches()
+    assert w * 25.4 == pytest.approx(preset("single").width_mm)
+    assert ax.ecatlab_drawings[0].level_lines[0].get_linewidth() == pytest.approx(preset("single").level_width_pt)
+
+
+def test_state_label_text():
+    assert dg.state_label_text("NH2NH2*") == "NH₂NH₂*"
+    assert dg.state_label_text("H+ + e-") == "H⁺ + e⁻"
+    assert dg.state_label_text("O* + OH*") == "O* + OH*"
+    assert dg.state_label_text("2 H*") == "2\N{THIN SPACE}H*"
+    assert dg.state_label_text("CO2(g)") == "CO₂(g)"
+    assert dg.state_label_mathtext("OOH*") == r"$\mathrm{OOH}^{*}$"
+
+
+def test_missing_species_and_bad_potential_give_clear_errors(table):
+    from ecatlab.energies import EnergyTable
+    from ecatlab.errors import ConditionError, EcatlabError, MissingSpeciesError
+
+    small = EnergyTable.from_matrix({"OH*": {"X": 1.0}, "O*": {"X": 2.4}})
+    with pytest.raises(MissingSpeciesError, match="OOH"):
+        dg.plot_free_energy_diagram(small, "orr-4e", "X")
+    with pytest.raises(ConditionError, match="'zero', 'equilibrium', 'limiting'"):
+        dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential="onsett")
+    assert issubclass(ConditionError, EcatlabError)

@@ -1,0 +1,323 @@
+"""Tests of the Jupyter explorer (ecatlab.explorer), driven without a browser by setting `.value`.
+
+Reference values from outside the project:
+* O2 + 4 H+ + 4 e- -> 2 H2O: E0 = 1.229 V vs SHE; O2 + 2 H2O + 4 e- -> 4 OH-: E0 = 0.401 V vs SHE
+  (CRC Handbook of Chemistry and Physics, "Electrochemical Series").
+* Nernst slope k_B T ln(10)/e = 0.05916 V per pH unit at 298.15 K (Bard & Faulkner, Electrochemical
+  Methods, 2nd ed.; also from scipy.constants below).
+"""
+
+from __future__ import annotations
+
+import base64
+import logging
+import math
+import sys
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+import pandas as pd  # noqa: E402
+import pytest  # noqa: E402
+import scipy.constants as sc  # noqa: E402
+
+from ecatlab import che  # noqa: E402
+from ecatlab.demo import demo_energies  # noqa: E402
+from ecatlab.energies import EnergyTable  # noqa: E402
+from ecatlab.explorer import Explorer, ExplorerSnapshot, ExplorerState, explore, pathway_options  # noqa: E402
+from ecatlab.explorer.view import FIGURE_HEIGHT_PX  # noqa: E402
+from ecatlab.pathways import REACTION_FAMILIES  # noqa: E402
+
+
+@pytest.fixture(scope="module")
+def table():
+    return demo_energies()
+
+
+@pytest.fixture(autouse=True)
+def no_logged_widget_errors(caplog):
+    """ipywidgets logs (instead of raising) exceptions from button callbacks outside IPython; fail on any."""
+    caplog.set_level(logging.WARNING)
+    yield
+    bad = [r for r in caplog.records if "Exception in callback" in r.getMessage() or r.levelno >= logging.ERROR]
+    assert not bad, f"widget callbacks logged errors: {[r.getMessage() for r in bad]}"
+
+
+@pytest.fixture
+def ex(table):
+    explorer = explore(table, pathway="orr-4e", potential=0.5, render="inline")
+    yield explorer
+    assert explorer.view.figure is not None
+
+
+def _step_row(ex: Explorer, surface: str) -> np.ndarray:
+    return ex.state.step_table().loc[surface].to_numpy(dtype=float)
+
+
+# -- limiting potential: determining step at zero, every other electrochemical step downhill -----------
+@pytest.mark.parametrize("key", ["orr-4e", "oer-4e", "co2rr-ch4", "nrr-distal", "orr-4e-dissociative"])
+def test_slider_at_limiting_potential_zeroes_the_determining_step(table, key):
+    ex = explore(table, pathway=key, surfaces=table.surfaces, render="inline")
+    engine = che.limiting_potentials(table, key).set_index("surface")
+    ec = ex.state.electrochemical
+    for surface in table.surfaces:
+        u_l = float(engine.loc[surface, "limiting_potential"])
+        ex.potential.value = u_l
+        assert ex.state.potential == u_l
+        dG = _step_row(ex, surface)
+        k = int(engine.loc[surface, "determining_step_index"]) - 1
+        assert abs(dG[k]) < 1e-9
+        others = np.delete(np.arange(len(dG)), k)
+        assert np.all(dG[others][ec[others]] <= 1e-9), (surface, dG)
+        # the table does not mark it, the read-out names it
+        assert str(k + 1) not in ex.state.readout().loc[surface, "uphill_steps_now"].split(", ")
+        assert ex.state.readout().loc[surface, "determining_step"] == engine.loc[surface, "determining_step"]
+    assert ex.errors == []
+
+
+def test_limiting_potential_matches_a_brute_force_scan(table):
+    """Independent check: scan U on a fine grid with the engine's step_free_energies."""
+    st = ExplorerState(table, pathway="orr-4e", surfaces=table.surfaces)
+    grid = np.round(np.arange(0.0, 1.3, 0.001), 6)
+    for surface in table.surfaces[:4]:
+        ok = [
+            bool(np.all(che.step_free_energies(table, "orr-4e", potential=u, surfaces=[surface]).to_numpy() <= 1e-12))
+            for u in grid
+        ]
+        highest_ok = grid[np.flatnonzero(ok)].max()
+        assert st.limiting_potential_of(surface) == pytest.approx(highest_ok, abs=1.01e-3)
+
+
+# -- outputs equal the engine's ---------------------------------------------------------------------------
+def test_tables_and_levels_equal_the_engine(table):
+    ex = explore(table, pathway="co2rr-hcooh", potential=-0.3, pH=7.0, scale="SHE", render="inline")
+    engine_steps = che.step_free_energies(table, "co2rr-hcooh", potential=-0.3, pH=7.0, scale="SHE", surfaces=ex.state.surfaces)
+    pd.testing.assert_frame_equal(ex.state.step_table(), engine_steps, check_exact=False, atol=1e-12, rtol=0)
+    levels = che.state_free_energies(table, "co2rr-hcooh", potential=-0.3, pH=7.0, scale="SHE", surfaces=ex.state.surfaces)
+    np.testing.assert_allclose(ex.state.levels(), levels.to_numpy(), atol=1e-12)
+    drawn = np.vstack([d.levels for d in ex.view.drawings])
+    np.testing.assert_allclose(drawn, levels.to_numpy(), atol=1e-12)
+    lim = che.limiting_potentials(table, "co2rr-hcooh", pH=7.0, scale="SHE", surfaces=ex.state.surfaces)
+    np.testing.assert_allclose(ex.state.readout()["limiting_potential"].to_numpy(), lim["limiting_potential"].to_numpy(), atol=1e-12)
+    np.testing.assert_allclose(ex.state.readout()["overpotential"].to_numpy(), lim["overpotential"].to_numpy(), atol=1e-12)
+
+
+def test_uphill_steps_are_marked_in_table_html(ex):
+    ex.potential.value = 1.0  # above every ORR limiting potential of the demo: some step uphill on each surface
+    up = ex.state.uphill()
+    assert up.any(axis=1).all()
+    assert ex.table.value.count('class="uphill"') == int(up.sum())
+    ex.potential.value = 0.0  # below every U_L: all electrochemical steps downhill
+    assert not ex.state.uphill().any()
+    assert 'class="uphill"' not in ex.table.value
+
+
+# -- reaction / product switching ----------------------------------------------------------------------------
+def test_switch_reaction_and_product_updates_pathway_table_and_figure(ex, table):
+    ex.reaction.value = "CO2RR"
+    assert [k for _, k in ex.pathway.options] == list(REACTION_FAMILIES["CO2RR"])
+    labels = [lab for lab, _ in ex.pathway.options]
+    for wanted in ("CO", "HCOOH", "CH4 via CHO*", "CH4 via COH*", "CH3OH"):
+        assert wanted in labels
+    assert ex.state.pathway.name == "co2rr-co"
+    ex.pathway.value = "co2rr-ch3oh"
+    path = ex.state.pathway
+    assert path.name == "co2rr-ch3oh"
+    assert list(ex.state.step_table().columns) == list(path.step_names)
+    for step in path.steps:
+        assert step.equation.replace(">", "&gt;") in ex.table.value
+    assert len(ex.view.drawings) == len(ex.state.surfaces)
+    assert all(len(d.level_lines) == len(path.labels) for d in ex.view.drawings)
+    assert len(ex.view.ax.get_xticks()) == len(path.labels)
+    assert "co2rr-ch3oh" in ex.view.ax.get_title(loc="left")
+    np.testing.assert_allclose(np.vstack([d.levels for d in ex.view.drawings]), ex.state.levels(), atol=1e-12)
+    ex.reaction.value = "NRR"
+    assert [k for _, k in ex.pathway.options] == ["nrr-distal", "nrr-alternating"]
+    ex.pathway.value = "nrr-alternating"
+    assert ex.state.pathway.name == "nrr-alternating"
+    assert "NHNH*" in ex.state.pathway.labels
+    assert ex.errors == []
+
+
+def test_orr_options_are_4e_2e_dissociative():
+    assert [k for _, k in pathway_options("ORR")] == ["orr-4e", "orr-2e", "orr-4e-dissociative"]
+
+
+def test_surface_multiselect_changes_series_and_focus(ex, table):
+    ex.surfaces.value = ("SAS-02", "ALY-03")
+    assert ex.state.surfaces == ["SAS-02", "ALY-03"]
+    assert list(ex.focus.options) == ["SAS-02", "ALY-03"]
+    assert len(ex.view.drawings) == 2
+    assert list(ex.state.readout().index) == ["SAS-02", "ALY-03"]
+    ex.surfaces.value = ()  # nothing selected: rejected visibly, last valid selection kept
+    assert ex.errors and "select at least one surface" in ex.error.value
+    assert ex.surfaces.value == ("SAS-02", "ALY-03")
+
+
+# -- one figure, artists moved ---------------------------------------------------------------------------------
+def test_no_figure_is_created_per_update(ex):
+    figs_before = plt.get_fignums()
+    fig = ex.view.figure
+    n_lines = len(ex.view.ax.lines)
+    n_texts = len(ex.view.ax.texts)
+    renders = ex.view.renders
+    for u in np.linspace(-0.5, 1.5, 60):
+        ex.potential.value = float(u)
+    for p in (3.0, 7.0, 11.0):
+        ex.pH.value = p
+    assert plt.get_fignums() == figs_before
+    assert ex.view.figure is fig
+    assert len(ex.view.ax.lines) == n_lines and len(ex.view.ax.texts) == n_texts
+    assert ex.view.renders == renders + 63
+
+
+def test_inline_output_is_fixed_height_and_holds_one_current_image(ex):
+    assert ex.view.widget.layout.height == f"{FIGURE_HEIGHT_PX}px"
+    ex.potential.value = 0.2
+    first = ex.view.widget.outputs
+    assert len(first) == 1 and "image/png" in first[0]["data"]
+    png = base64.b64decode(first[0]["data"]["image/png"])
+    assert png[:8] == b"\x89PNG\r\n\x1a\n"
+    ex.potential.value = 0.7
+    second = ex.view.widget.outputs
+    assert len(second) == 1 and second[0]["data"]["image/png"] != first[0]["data"]["image/png"]
+
+
+def test_fast_redraw_equals_full_redraw(ex):
+    """The cached-background path must give the same pixels as drawing everything."""
+    ex.potential.value = 0.41
+    ex.potential.value = 0.42  # background cached: fast path
+    fast = np.asarray(ex.view.figure.canvas.buffer_rgba()).copy()
+    ex.view.render_png()  # full draw
+    full = np.asarray(ex.view.figure.canvas.buffer_rgba())
+    assert np.array_equal(fast, full)
+
+
+# -- clamps, validation, errors ------------------------------------------------------------------------------------
+def test_slider_clamp_is_reported(ex):
+    ex.pH.value = 20.0
+    assert ex.state.pH == 14.0
+    assert any("pH 20" in m and "clamped to 14" in m for m in ex.messages)
+    assert "clamped" in ex.status.value
+    ex.potential_entry.value = 9.0
+    assert ex.potential.value == ex.potential.max and ex.state.potential == ex.potential.max
+    assert ex.potential_entry.value == ex.potential.max
+    assert any("U (V) 9" in m for m in ex.messages)
+
+
+def test_callback_errors_are_shown_not_raised(ex):
+    before = ex.state.step_table()
+    ex.temperature.value = -5.0
+    assert ex.errors and type(ex.errors[-1]).__name__ == "ConditionError"
+    assert "temperature" in ex.error.value and "Not applied" in ex.error.value
+    assert ex.temperature.value == pytest.approx(298.15)  # control back to what is shown
+    pd.testing.assert_frame_equal(ex.state.step_table(), before)
+    ex.potential.value = 0.3  # next good change clears the error line
+    assert ex.error.value == ""
+
+
+def test_button_error_is_routed_to_the_error_area(caplog):
+    wide = demo_energies().matrix.copy()
+    wide.loc["ALY-01", "OOH*"] = np.nan  # ALY-01 cannot do associative ORR
+    ex = explore(EnergyTable.from_matrix(wide), pathway="orr-4e", render="inline")
+    assert ex.state.readout().loc["ALY-01", "missing_species"] == "OOH*"
+    ex.focus.value = "ALY-01"
+    ex.snap_limiting_button.click()
+    assert ex.errors and "ALY-01" in ex.error.value and "OOH*" in ex.error.value
+
+
+def test_temperature_warning_is_shown(ex):
+    ex.temperature.value = 320.0
+    assert ex.state.temperature == 320.0
+    assert "298.15 K" in ex.status.value  # engine's ConditionsWarning text
+
+
+# -- snap buttons over pure functions ------------------------------------------------------------------------------
+def test_snap_buttons_use_the_engine_values(ex, table):
+    ex.focus.value = "SAS-03"
+    ex.snap_limiting_button.click()
+    expected = che.limiting_potentials(table, "orr-4e", surfaces=["SAS-03"])["limiting_potential"].iloc[0]
+    assert ex.state.potential == pytest.approx(expected, abs=1e-12)
+    assert ex.potential.value == ex.state.potential
+    ex.snap_equilibrium_button.click()
+    assert ex.state.potential == pytest.approx(che.equilibrium_potential("orr-4e"), abs=1e-12)
+    assert ex.state.potential == pytest.approx(1.229, abs=0.002)  # CRC electrochemical series
+
+
+def test_equilibrium_on_she_at_ph14_matches_the_alkaline_couple(table):
+    st = ExplorerState(table, pathway="orr-4e", pH=14.0, scale="SHE")
+    assert st.equilibrium_potential() == pytest.approx(0.401, abs=0.003)  # CRC: O2 + 2 H2O + 4 e- -> 4 OH-
+
+
+def test_snap_extends_slider_range_when_needed(table):
+    ex = explore(table, pathway="co2rr-ch4", pH=14.0, scale="SHE", render="inline")
+    ex.potential.min = -1.0
+    target = ex.snap_to_limiting(ex.state.surfaces[0])
+    assert target < -1.0
+    assert ex.potential.value == target and ex.potential.min <= target
+    assert any("range extended" in m for m in ex.messages)
+
+
+def test_scale_switch_keeps_the_physical_potential(ex):
+    ex.pH.value = 7.0
+    ex.potential.value = 0.8
+    ex.scale.value = "SHE"
+    slope = sc.k * 298.15 * math.log(10) / sc.e
+    assert slope == pytest.approx(0.05916, abs=1e-5)  # Bard & Faulkner
+    assert ex.state.potential == pytest.approx(0.8 - 7 * slope, abs=1e-9)
+    assert ex.potential.value == pytest.approx(ex.state.potential)
+    before = ex.state.step_energies()
+    ex.scale.value = "RHE"
+    assert ex.state.potential == pytest.approx(0.8, abs=1e-12)
+    np.testing.assert_allclose(ex.state.step_energies(), before, atol=1e-12)
+
+
+# -- export ---------------------------------------------------------------------------------------------------------------
+def test_export_writes_figure_and_tables(ex, tmp_path):
+    ex.export_folder.value = str(tmp_path)
+    ex.potential.value = 0.6
+    ex.export_button.click()
+    assert ex.errors == []
+    names = sorted(p.name for p in ex.exported)
+    assert any(n.endswith(".png") for n in names) and any(n.endswith(".svg") for n in names)
+    steps_csv = next(p for p in ex.exported if p.name.endswith("_steps.csv"))
+    text = steps_csv.read_text(encoding="utf-8")
+    assert "U = +0.600 V vs RHE" in text and "references" in text and "safety" in text
+    back = pd.read_csv(steps_csv, comment="#", index_col=0)
+    np.testing.assert_allclose(back.to_numpy(), ex.state.step_table().to_numpy(), atol=1e-9)
+    svg = next(p for p in ex.exported if p.suffix == ".svg").read_text(encoding="utf-8")
+    n_levels = len(ex.state.surfaces) * len(ex.state.pathway.labels)
+    assert svg.count('id="ecatlab-level') >= n_levels  # moving artists are in the saved file
+    assert all(a.get_animated() for a in ex.view._dynamic)
+
+
+# -- display and degradation -------------------------------------------------------------------------------------------------
+def test_mimebundle_has_widget_view_and_a_clear_fallback(ex):
+    bundle = ex._repr_mimebundle_()
+    assert "application/vnd.jupyter.widget-view+json" in bundle
+    assert "ipywidgets" in bundle["text/plain"]
+    assert "data:image/png;base64," in bundle["text/html"]
+
+
+def test_without_ipywidgets_a_static_snapshot_and_a_message(table, monkeypatch):
+    monkeypatch.setitem(sys.modules, "ipywidgets", None)
+    with pytest.warns(UserWarning, match="needs ipywidgets"):
+        snap = explore(table, pathway="her-volmer-heyrovsky")
+    assert isinstance(snap, ExplorerSnapshot)
+    page = snap._repr_html_()
+    assert "pip install ipywidgets" in page and "data:image/png;base64," in page
+    assert "H* + H+ + e- -&gt; * + H2(g)" in page
+
+
+def test_state_rejects_bad_values_without_changing(table):
+    st = ExplorerState(table, pathway="orr-4e")
+    with pytest.raises(ValueError):
+        st.set_pH(15.0)
+    with pytest.raises(ValueError):
+        st.set_potential(float("nan"))
+    with pytest.raises(ValueError):
+        st.set_reaction("ORR", "nrr-distal")
+    assert st.pH == 0.0 and st.pathway.name == "orr-4e"
