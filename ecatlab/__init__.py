@@ -38,6 +38,24 @@ _EXPORTS: dict[str, str] = {
     # demo data
     "demo_energies": "ecatlab.demo",
     "demo_path": "ecatlab.demo",
+    # thermochemistry and the gas library
+    "HarmonicAdsorbate": "ecatlab.thermochemistry",
+    "IdealGasMolecule": "ecatlab.thermochemistry",
+    "LowFrequencyTreatment": "ecatlab.thermochemistry",
+    "ThermoCorrection": "ecatlab.thermochemistry",
+    "ModeChange": "ecatlab.thermochemistry",
+    "detect_rotational_symmetry": "ecatlab.thermochemistry",
+    "gas_molecule": "ecatlab.molecules",
+    "reference_corrections": "ecatlab.molecules",
+    "available_gases": "ecatlab.molecules",
+    "water_vapour_pressure_bar": "ecatlab.molecules",
+    # ingestion of DFT results
+    "energy_table_from_vasp": "ecatlab.ingest",
+    "adsorption_energies": "ecatlab.ingest",
+    "read_vasp_run": "ecatlab.ingest",
+    "read_vasp_modes": "ecatlab.ingest",
+    # notebook explorer
+    "explore": "ecatlab.explorer",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

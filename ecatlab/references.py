@@ -75,19 +75,6 @@ FORMATION_TABLE_SOURCE = (
 
 DEFAULT_REFERENCES: tuple[str, ...] = ("H2(g)", "H2O(l)", "CO2(g)", "N2(g)")
 
-#: Fallback reference corrections (eV) at 298.15 K: ZPE, integral of Cp dT from 0 K, and T*S.
-#: H2O(l) is treated as its vapour at 0.035 bar. Values of the kind tabulated in many CHE studies;
-#: common practice, no single source (from memory). Replaced by computed values when the
-#: thermochemistry module is available (see :func:`default_reference_corrections`).
-_FIXED_REFERENCE_CORRECTIONS = pd.DataFrame(
-    {
-        "ZPE": {"H2(g)": 0.27, "H2O(l)": 0.56, "CO2(g)": 0.31, "N2(g)": 0.15},
-        "CpdT": {"H2(g)": 0.09, "H2O(l)": 0.10, "CO2(g)": 0.10, "N2(g)": 0.09},
-        "TS": {"H2(g)": 0.40, "H2O(l)": 0.67, "CO2(g)": 0.66, "N2(g)": 0.59},
-    }
-)
-
-
 def default_reference_corrections(temperature: float) -> tuple[pd.DataFrame, str]:
     """ZPE, integral of Cp dT and T*S of the reference molecules at ``temperature``.
 

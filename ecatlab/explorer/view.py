@@ -259,7 +259,7 @@ class DiagramView:
 
         canvas = self.figure.canvas
         width, height = canvas.get_width_height(physical=True)
-        image = Image.frombuffer("RGBA", (width, height), bytes(canvas.buffer_rgba()), "raw", "RGBA", 0, 1)
+        image = Image.frombuffer("RGBA", (width, height), bytes(canvas.buffer_rgba()), "raw", "RGBA", 0, 1).convert("RGB")
         buf = io.BytesIO()
         image.save(buf, format="png", compress_level=1)
         self.last_png = buf.getvalue()
