@@ -54,6 +54,24 @@ _EXPORTS: dict[str, str] = {
     "adsorption_energies": "ecatlab.ingest",
     "read_vasp_run": "ecatlab.ingest",
     "read_vasp_modes": "ecatlab.ingest",
+    # figures, tables, report
+    "plot_free_energy_diagram": "ecatlab.plotting.diagram",
+    "plot_diagram_at_potentials": "ecatlab.plotting.diagram",
+    "plot_diagram_grid": "ecatlab.plotting.diagram",
+    "plot_product_comparison": "ecatlab.plotting.diagram",
+    "save_figure": "ecatlab.plotting.export",
+    "limiting_potential_table": "ecatlab.tables",
+    "rank_surfaces": "ecatlab.tables",
+    "export_table": "ecatlab.tables",
+    "build_report": "ecatlab.report",
+    "write_report": "ecatlab.report",
+    # reaction networks
+    "build_network": "ecatlab.network",
+    "NetworkAnalysis": "ecatlab.network",
+    "best_route": "ecatlab.network",
+    "best_routes": "ecatlab.network",
+    "product_ranking": "ecatlab.network",
+    "selectivity": "ecatlab.network",
     # notebook explorer
     "explore": "ecatlab.explorer",
 }

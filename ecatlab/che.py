@@ -68,6 +68,7 @@ from ecatlab.references import ReferenceScheme
 __all__ = [
     "CompiledPathway",
     "compile_pathway",
+    "compile_steps",
     "step_free_energies",
     "state_free_energies",
     "limiting_potentials",
@@ -88,7 +89,10 @@ LIMITING_POTENTIAL_COLUMNS: dict[str, str] = {
     "electrons": "electrons transferred per overall reaction [-]",
     "limiting_potential": "U_L: least extreme potential at which every electrochemical step is downhill [V vs scale]",
     "equilibrium_potential": "U_eq of the overall reaction at the stated pH and T [V vs scale]",
-    "overpotential": "theoretical overpotential |U_eq - U_L| signed so that positive means losses [V]",
+    "overpotential": (
+        "theoretical overpotential from the electrochemical steps: U_eq - U_L (reduction) or U_L - U_eq (oxidation) [V]; "
+        "negative only when an uphill chemical step (see uphill_chemical_steps) carries the thermodynamic obstacle"
+    ),
     "determining_step": "potential-determining step (equation)",
     "determining_step_index": "1-based index of the potential-determining step [-]",
     "max_chemical_dG": "largest free energy of a chemical (potential-independent) step; NaN if the pathway has none [eV]",
@@ -188,6 +192,15 @@ class CompiledPathway:
 def compile_pathway(pathway: Pathway, scheme: ReferenceScheme) -> CompiledPathway:
     """Turn a pathway into the arrays of :class:`CompiledPathway` using ``scheme`` for molecules."""
     return _compile(pathway.steps, tuple(a.key for a in pathway.adsorbates), scheme, pathway)
+
+
+def compile_steps(steps: Sequence[Step], adsorbates: Sequence[str], scheme: ReferenceScheme) -> CompiledPathway:
+    """Arrays for any list of steps (not necessarily a closed pathway), e.g. the edges of a network.
+
+    ``adsorbates`` fixes the column order of the stoichiometry; every adsorbate of the steps must be in it.
+    The returned object's ``pathway`` is None.
+    """
+    return _compile(tuple(steps), tuple(adsorbates), scheme, None)
 
 
 def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: ReferenceScheme, pathway) -> CompiledPathway:

@@ -34,7 +34,7 @@ out: hydrogen evolution is the competitor and is evaluated with the engine's HER
 
 Costs and the best route
 ------------------------
-Edge free energies come from the CHE engine (:func:`ecatlab.che._compile` and
+Edge free energies come from the CHE engine (:func:`ecatlab.che.compile_steps` and
 :meth:`~ecatlab.che.CompiledPathway.affine`, the same arrays :func:`~ecatlab.che.compile_pathway`
 builds): :math:`\Delta G_e(U) = a_e + n_e U` on the chosen scale (eV). For a reduction route
 *r* the cost is
@@ -797,7 +797,7 @@ class NetworkAnalysis:
         self.surfaces = che._select_surfaces(self.table, surfaces)
         self.chemical_limit = chemical_limit
         steps = [e.step for e in network.edges]
-        self.compiled = che._compile(steps, network.adsorbates, self.table.scheme, None)
+        self.compiled = che.compile_steps(steps, network.adsorbates, self.table.scheme)
         values = self.table.values(self.surfaces, network.adsorbates)
         missing = np.isnan(values)
         # a missing adsorbate must not spoil the other steps through the matrix product

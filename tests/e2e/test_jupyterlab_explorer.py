@@ -1,0 +1,317 @@
+"""End-to-end: the quickstart notebook's explorer in a real JupyterLab, driven in headless Chromium.
+
+What a user does, done by a browser: open ``01_quickstart.ipynb`` in JupyterLab, run all cells,
+drag the potential slider, click another reaction. Checked in the page (not in the kernel):
+
+* the explorer renders as a live widget (not the static fallback that appears when the front-end
+  widget extension is missing) with its diagram image, controls and read-out;
+* the read-out's limiting potentials and potential-determining steps equal the CHE engine's
+  ``ecatlab.che.limiting_potentials(ecatlab.demo.demo_energies(), <pathway>)`` computed in this test
+  process, before and after every move; the "uphill now" column equals the electrochemical steps
+  with dG > 0 in ``ecatlab.che.step_free_energies`` at the potential the page shows;
+* the diagram image changes (its PNG ``src`` and a pixel hash of the screenshot) when the potential
+  and when the reaction change;
+* no JavaScript console error, no uncaught page error, no error/Traceback output in any cell, no
+  message in the explorer's error line.
+
+Screenshots of the explorer (before, after the potential move, after the reaction change) and the
+JupyterLab log go to ``$ECATLAB_E2E_ARTIFACTS`` or ``<repo>/test-artifacts/e2e`` (printed).
+Run: ``python -m pytest -m browser -s tests/e2e``. Every wait below has a timeout.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import re
+import time
+
+import pytest
+
+pytestmark = pytest.mark.browser
+
+NOTEBOOK = "01_quickstart.ipynb"
+CHROMIUM_ARGS = [
+    "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
+    "--no-first-run", "--disable-sync", "--disable-quic", "--disable-dev-shm-usage",
+]
+VIEWPORT = {"width": 1400, "height": 1000}
+# timeouts, ms
+PAGE_LOAD_MS = 60_000
+RUN_ALL_MS = 120_000
+UPDATE_MS = 30_000
+ACTION_MS = 10_000
+# Console errors that JupyterLab itself emits and that do not concern ecatlab. Each entry is a
+# regular expression and the reason it is allowed; anything not listed fails the test.
+ALLOWED_CONSOLE_ERRORS: list[tuple[str, str]] = []
+
+WIDGET_OUTPUT = '.jp-OutputArea-output[data-mime-type="application/vnd.jupyter.widget-view+json"]'
+MINUS = "\N{MINUS SIGN}"
+
+# Everything the test reads from the explorer in one round trip (the explorer root is the argument).
+_SNAPSHOT_JS = """
+(root) => {
+  const text = (el) => (el ? el.innerText.trim() : null);
+  const rows = Array.from(root.querySelectorAll('.ecatlab-readout tbody tr')).map(
+      (tr) => Array.from(tr.children).map((c) => c.innerText.trim()));
+  const img = root.querySelector('.widget-output img');
+  const entry = root.querySelector('.widget-text input[type="number"]');
+  const handle = root.querySelector('.noUi-handle');
+  return {
+    caption: text(root.querySelector('.ecatlab-readout caption')),
+    rows: rows,
+    img_src: img ? img.getAttribute('src') : null,
+    img_size: img ? [img.naturalWidth, img.naturalHeight] : null,
+    entry: entry ? entry.value : null,
+    aria_value: handle ? handle.getAttribute('aria-valuenow') : null,
+    error_line: text(Array.from(root.querySelectorAll('.widget-html-content')).find(
+        (el) => el.innerText.includes('Not applied;')) || null),
+  };
+}
+"""
+
+
+def _fmt(value: float, digits: int = 3) -> str:
+    """The explorer's number format (signed, fixed digits, Unicode minus); 'n/a' when not finite."""
+    if not math.isfinite(value):
+        return "n/a"
+    return f"{value:+.{digits}f}".replace("-", MINUS)
+
+
+def _engine_readout(pathway: str):
+    from ecatlab import che
+    from ecatlab.demo import demo_energies
+
+    return che.limiting_potentials(demo_energies(), pathway).set_index("surface")
+
+
+def _engine_uphill_now(pathway: str, potential: float, surfaces: list[str]) -> dict[str, str]:
+    """Electrochemical steps with dG > 0 at ``potential`` (V vs RHE, pH 0), 1-based, as the read-out lists them."""
+    from ecatlab import che
+    from ecatlab.demo import demo_energies
+    from ecatlab.explorer.model import UPHILL_TOLERANCE
+    from ecatlab.pathways import pathway as get_pathway
+
+    steps = get_pathway(pathway).steps
+    dG = che.step_free_energies(demo_energies(), pathway, potential=potential, surfaces=surfaces)
+    out = {}
+    for surface in surfaces:
+        row = dG.loc[surface].to_numpy(dtype=float)
+        up = [str(i + 1) for i, step in enumerate(steps) if step.is_electrochemical and row[i] > UPHILL_TOLERANCE]
+        out[surface] = ", ".join(up) or "none"
+    return out
+
+
+def _check_readout(snapshot: dict, pathway: str) -> None:
+    """Every read-out row equals the engine: U_L (V vs RHE) and the potential-determining step."""
+    engine = _engine_readout(pathway)
+    assert snapshot["rows"], "the explorer shows no read-out rows"
+    for row in snapshot["rows"]:
+        surface, u_l, _eta, determining = row[0], row[1], row[2], row[3].splitlines()[0]
+        expected = engine.loc[surface]
+        assert u_l == _fmt(float(expected["limiting_potential"])), (
+            f"{pathway} {surface}: page shows U_L {u_l}, engine {expected['limiting_potential']:+.6f} V vs RHE")
+        want = f"{int(expected['determining_step_index'])}: {expected['determining_step']}"
+        assert determining == want, f"{pathway} {surface}: page shows determining step {determining!r}, engine {want!r}"
+
+
+def _check_uphill_now(snapshot: dict, pathway: str) -> float:
+    potential = float(snapshot["entry"])
+    surfaces = [row[0] for row in snapshot["rows"]]
+    expected = _engine_uphill_now(pathway, potential, surfaces)
+    for row in snapshot["rows"]:
+        assert row[4] == expected[row[0]], (
+            f"{pathway} {row[0]} at U = {potential} V: page says uphill now {row[4]!r}, engine {expected[row[0]]!r}")
+    return potential
+
+
+def _pathway_in(snapshot: dict) -> str:
+    """Pathway key from the read-out caption, e.g. 'orr-4e (reduction); U_eq = ...'."""
+    match = re.match(r"\s*([a-z0-9-]+) \(", snapshot["caption"] or "")
+    assert match, f"read-out caption not understood: {snapshot['caption']!r}"
+    return match.group(1)
+
+
+def _pixel_hash(locator) -> str:
+    return hashlib.sha256(locator.screenshot(timeout=ACTION_MS)).hexdigest()[:16]
+
+
+class PageErrors:
+    """Console errors and uncaught page errors, collected while the test runs."""
+
+    def __init__(self, page):
+        self.console: list[str] = []
+        self.page_errors: list[str] = []
+        self.allowed: list[str] = []
+        page.on("console", self._on_console)
+        page.on("pageerror", lambda exc: self.page_errors.append(str(exc)))
+
+    def _on_console(self, msg) -> None:
+        if msg.type != "error":
+            return
+        text = f"{msg.text} (at {msg.location.get('url', '?')}:{msg.location.get('lineNumber', '?')})"
+        for pattern, reason in ALLOWED_CONSOLE_ERRORS:
+            if re.search(pattern, msg.text):
+                self.allowed.append(f"{text} -- allowed: {reason}")
+                return
+        self.console.append(text)
+
+    def check(self) -> None:
+        for line in self.allowed:
+            print(f"[e2e] console error allowed: {line}")
+        assert not self.page_errors, "uncaught errors in the page:\n" + "\n".join(self.page_errors)
+        assert not self.console, "JavaScript console errors:\n" + "\n".join(self.console)
+
+
+def _check_cell_outputs(page) -> None:
+    """No cell shows an error or a Traceback (JupyterLab renders both error and stderr outputs as stderr)."""
+    texts = page.locator(
+        '.jp-OutputArea-output[data-mime-type="application/vnd.jupyter.stderr"], '
+        '.jp-OutputArea-output[data-mime-type="application/vnd.jupyter.error"]'
+    ).all_inner_texts()
+    for text in texts:
+        print(f"[e2e] stderr output in the notebook: {text[:500]!r}")
+    bad = [t for t in texts if re.search(r"Traceback|Error|Exception", t)]
+    assert not bad, "kernel error output in the notebook:\n" + "\n---\n".join(t[:3000] for t in bad)
+    tracebacks = [t for t in page.locator(".jp-RenderedText").all_inner_texts() if "Traceback" in t]
+    assert not tracebacks, "Traceback in the notebook:\n" + "\n---\n".join(t[:3000] for t in tracebacks)
+
+
+def _wait_kernel_idle(page, timeout_ms: int) -> None:
+    page.wait_for_selector('.jp-Notebook-ExecutionIndicator[data-status="idle"]', state="attached", timeout=timeout_ms)
+
+
+def _settle(page, explorer, timeout_ms: int = UPDATE_MS, quiet_s: float = 1.2) -> dict:
+    """Wait until the kernel is idle and the explorer's state stopped changing for ``quiet_s``; return it."""
+    deadline = time.monotonic() + timeout_ms / 1000
+    last, since = None, time.monotonic()
+    while True:
+        _wait_kernel_idle(page, max(1000, int((deadline - time.monotonic()) * 1000)))
+        snap = explorer.evaluate(_SNAPSHOT_JS)
+        key = (snap["caption"], str(snap["rows"]), snap["img_src"], snap["entry"])
+        if key != last:
+            last, since = key, time.monotonic()
+        elif time.monotonic() - since >= quiet_s:
+            return snap
+        if time.monotonic() > deadline:
+            raise AssertionError(f"the explorer kept changing for {timeout_ms} ms")
+        page.wait_for_timeout(200)
+
+
+def _save(locator, folder, name: str) -> None:
+    path = folder / name
+    locator.scroll_into_view_if_needed(timeout=ACTION_MS)
+    locator.screenshot(path=str(path), timeout=ACTION_MS)
+    print(f"[e2e] screenshot: {path}")
+
+
+def test_quickstart_explorer_in_jupyterlab(jupyterlab, chromium_executable, sync_playwright_factory, artifacts_dir):
+    t0 = time.monotonic()
+    with sync_playwright_factory() as pw:
+        browser = pw.chromium.launch(executable_path=chromium_executable, headless=True, args=CHROMIUM_ARGS,
+                                     timeout=PAGE_LOAD_MS)
+        try:
+            context = browser.new_context(viewport=VIEWPORT, device_scale_factor=1)
+            context.set_default_timeout(ACTION_MS)
+            page = context.new_page()
+            errors = PageErrors(page)
+            try:
+                _drive(page, errors, jupyterlab, artifacts_dir)
+            except BaseException:
+                page.screenshot(path=str(artifacts_dir / "failure_page.png"), full_page=True, timeout=ACTION_MS)
+                (artifacts_dir / "failure_page.html").write_text(page.content(), encoding="utf-8")
+                print(f"[e2e] failure screenshot and page HTML in {artifacts_dir}")
+                print(f"[e2e] console errors so far: {errors.console + errors.page_errors}")
+                raise
+            finally:
+                context.close()
+        finally:
+            browser.close()
+    print(f"[e2e] browser part took {time.monotonic() - t0:.1f} s")
+
+
+def _drive(page, errors: PageErrors, lab, artifacts) -> None:
+    # 1. open the notebook; wait for JupyterLab, the notebook and an idle kernel
+    page.goto(lab.url(f"lab/tree/{NOTEBOOK}", reset=""), timeout=PAGE_LOAD_MS)
+    page.wait_for_selector(".jp-NotebookPanel .jp-Notebook .jp-Cell", timeout=PAGE_LOAD_MS)
+    _wait_kernel_idle(page, PAGE_LOAD_MS)
+
+    # 2. run all cells from the menu, as a user would
+    page.locator(".lm-MenuBar-itemLabel", has_text=re.compile(r"^Run$")).click()
+    page.locator(".lm-Menu-itemLabel", has_text=re.compile(r"^Run All Cells$")).click()
+    n_code = page.locator(".jp-Notebook .jp-CodeCell").count()
+    page.wait_for_function(
+        """(n) => {
+             const prompts = Array.from(document.querySelectorAll('.jp-Notebook .jp-CodeCell .jp-InputArea-prompt'));
+             return prompts.length === n && prompts.every((p) => /\\[\\d+\\]/.test(p.innerText));
+           }""",
+        arg=n_code, timeout=RUN_ALL_MS,
+    )
+    _wait_kernel_idle(page, RUN_ALL_MS)
+
+    # 3. the explorer: a live widget (not the static fallback) with image, controls and read-out
+    explorer = page.locator(f"{WIDGET_OUTPUT}:has(.ecatlab-readout)")
+    explorer.wait_for(state="visible", timeout=UPDATE_MS)
+    assert explorer.count() == 1, "expected exactly one explorer widget in the quickstart"
+    assert page.locator(".ecatlab-explorer-static").count() == 0, (
+        "the static fallback is shown: the JupyterLab widget front end did not render the explorer")
+    explorer.locator(".widget-output img").wait_for(state="visible", timeout=UPDATE_MS)
+    before = _settle(page, explorer)
+    assert before["img_size"] and before["img_size"][0] > 300, f"diagram image missing or tiny: {before['img_size']}"
+    pathway = _pathway_in(before)
+    assert pathway == "orr-4e", before["caption"]
+    _check_readout(before, pathway)
+    u_before = _check_uphill_now(before, pathway)
+    image = explorer.locator(".widget-output img")
+    hash_before = _pixel_hash(image)
+    _save(explorer, artifacts, "01_explorer_before.png")
+    _check_cell_outputs(page)
+
+    # 4a. drag the potential slider to the right (~ +1 V), then one arrow key step
+    slider = explorer.locator(".widget-hslider", has=page.locator("label", has_text="U (V)"))
+    handle = slider.locator(".noUi-handle")
+    handle.scroll_into_view_if_needed()
+    box = handle.bounding_box()
+    assert box, "potential slider handle not visible"
+    track = slider.locator(".noUi-target").bounding_box()
+    x, y = box["x"] + box["width"] / 2, box["y"] + box["height"] / 2
+    dx = track["width"] / 6.0  # the slider spans 6 V
+    page.mouse.move(x, y)
+    page.mouse.down()
+    page.mouse.move(x + dx, y, steps=12)
+    page.mouse.up()
+    handle.focus()
+    page.keyboard.press("ArrowRight")
+    after_u = _settle(page, explorer)
+    u_after = float(after_u["entry"])
+    print(f"[e2e] potential moved from {u_before:+.3f} to {u_after:+.3f} V vs RHE")
+    assert u_after > u_before + 0.5, f"the drag did not move the potential enough: {u_before} -> {u_after}"
+    assert after_u["img_src"] != before["img_src"], "the diagram image did not change after the potential moved"
+    assert _pixel_hash(image) != hash_before, "the diagram's pixels did not change after the potential moved"
+    _check_readout(after_u, pathway)  # U_L and determining step do not depend on U ...
+    _check_uphill_now(after_u, pathway)  # ... the steps uphill now do
+    assert [r[4] for r in after_u["rows"]] != [r[4] for r in before["rows"]], "'uphill now' did not change with U"
+    _save(explorer, artifacts, "02_explorer_after_potential.png")
+
+    # 4b. pick another reaction with its toggle button
+    hash_u = _pixel_hash(image)
+    explorer.get_by_role("button", name="OER", exact=True).click()
+    page.wait_for_function(
+        "(root) => (root.querySelector('.ecatlab-readout caption') || {innerText: ''}).innerText.startsWith('oer-')",
+        arg=explorer.element_handle(), timeout=UPDATE_MS,
+    )
+    after_r = _settle(page, explorer)
+    new_pathway = _pathway_in(after_r)
+    assert new_pathway == "oer-4e", after_r["caption"]
+    _check_readout(after_r, new_pathway)
+    _check_uphill_now(after_r, new_pathway)
+    assert [r[1] for r in after_r["rows"]] != [r[1] for r in after_u["rows"]], "U_L column unchanged after the reaction change"
+    assert after_r["img_src"] != after_u["img_src"], "the diagram image did not change after the reaction changed"
+    assert _pixel_hash(image) != hash_u, "the diagram's pixels did not change after the reaction changed"
+    _save(explorer, artifacts, "03_explorer_after_reaction.png")
+
+    # 5. no errors anywhere
+    assert not after_r["error_line"], f"the explorer shows an error: {after_r['error_line']}"
+    _check_cell_outputs(page)
+    errors.check()
+    page.screenshot(path=str(artifacts / "00_jupyterlab_page.png"), timeout=ACTION_MS)
