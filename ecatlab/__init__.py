@@ -72,8 +72,21 @@ _EXPORTS: dict[str, str] = {
     "best_routes": "ecatlab.network",
     "product_ranking": "ecatlab.network",
     "selectivity": "ecatlab.network",
+    # scaling relations and volcanoes
+    "fit_scaling": "ecatlab.scaling",
+    "fit_scaling_relations": "ecatlab.scaling",
+    "ScalingRelation": "ecatlab.scaling",
+    "scaling_table": "ecatlab.scaling",
+    "bond_counting_slope": "ecatlab.scaling",
+    "volcano": "ecatlab.volcano",
+    "activity_map": "ecatlab.volcano",
+    "selectivity_map": "ecatlab.volcano",
+    "volcano_summary": "ecatlab.volcano",
+    "VolcanoAnalysis": "ecatlab.volcano",
     # notebook explorer
     "explore": "ecatlab.explorer",
+    "Explorer": "ecatlab.explorer",
+    "ExplorerState": "ecatlab.explorer",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

@@ -132,19 +132,34 @@ def plot_volcano(curve: VolcanoCurve, ax=None, style: str = "notebook", show_ste
     return ax
 
 
-def _region_labels(ax, X, Y, regions: np.ndarray, labels, fontsize):
+def _region_labels(ax, X, Y, regions: np.ndarray, labels, fontsize, points=None):
+    """Label each region near its centroid, preferring cells away from surface points and the frame.
+
+    Returns the label boxes (display coordinates) so point labels can avoid them."""
+    sx = (X - X.min()) / (np.ptp(X) or 1.0)
+    sy = (Y - Y.min()) / (np.ptp(Y) or 1.0)
+    ok = (sx > 0.15) & (sx < 0.85) & (sy > 0.07) & (sy < 0.93)
+    if points is not None and len(points):
+        px = (np.asarray(points[0], float) - X.min()) / (np.ptp(X) or 1.0)
+        py = (np.asarray(points[1], float) - Y.min()) / (np.ptp(Y) or 1.0)
+        near = np.min((sx[..., None] - px) ** 2 + ((sy[..., None] - py) * 2.5) ** 2, axis=-1)
+        ok &= near > 0.12**2
+    boxes = []
+    renderer = ax.figure.canvas.get_renderer()
     for k in np.unique(regions):
         mask = regions == k
-        cx, cy = X[mask].mean(), Y[mask].mean()
-        # nearest cell of the region to its centroid (keeps the label inside non-convex regions)
-        d = (X - cx) ** 2 + (Y - cy) ** 2
-        d = np.where(mask, d, np.inf)
+        cx, cy = sx[mask].mean(), sy[mask].mean()
+        d = (sx - cx) ** 2 + (sy - cy) ** 2
+        pref = mask & ok
+        d = np.where(pref if pref.any() else mask, d, np.inf)
         i = np.unravel_index(np.argmin(d), d.shape)
-        ax.text(X[i], Y[i], labels[k], ha="center", va="center", fontsize=fontsize, color="#111111",
-                bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.75), zorder=4)
+        t = ax.text(X[i], Y[i], labels[k], ha="center", va="center", fontsize=fontsize, color="#111111",
+                    bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.75), zorder=4)
+        boxes.append(t.get_window_extent(renderer))
+    return boxes
 
 
-def _surfaces_on_map(ax, surf, p, label=True, values=None, cmap=None, norm=None):
+def _surfaces_on_map(ax, surf, p, label=True, values=None, cmap=None, norm=None, avoid=()):
     """Surfaces as squares (filled with their exact value on the map's colour scale if given)."""
     if surf is None or not len(surf):
         return
@@ -153,7 +168,7 @@ def _surfaces_on_map(ax, surf, p, label=True, values=None, cmap=None, norm=None)
     else:
         ax.scatter(surf["x"], surf["y"], s=26, marker=MARKERS[1], color="white", edgecolor="#111111", linewidth=0.8, zorder=5)
     if label:
-        _label_points(ax, list(surf["surface"]), surf["x"].to_numpy(float), surf["y"].to_numpy(float), p.font_pt - 2, boxed=True)
+        _label_points(ax, list(surf["surface"]), surf["x"].to_numpy(float), surf["y"].to_numpy(float), p.font_pt - 2, avoid=avoid, boxed=True)
 
 
 def plot_activity_map(amap: ActivityMap, ax=None, style: str = "notebook", quantity: str = "limiting_potential", label_surfaces: bool = True, caption: bool = True, levels: int = 14):
@@ -219,8 +234,9 @@ def plot_determining_steps(amap: ActivityMap, ax=None, style: str = "notebook", 
         X, Y = np.meshgrid(amap.x, amap.y)
         ax.pcolormesh(amap.x, amap.y, idx, cmap=_region_colors(n), vmin=-0.5, vmax=n - 0.5, shading="nearest", zorder=1, rasterized=True)
         _region_edges(ax, amap.x, amap.y, idx)
-        _region_labels(ax, X, Y, idx, [f"step {s}" for s in amap.step_names], p.font_pt - 1)
-        _surfaces_on_map(ax, amap.surfaces, p, label_surfaces)
+        pts = (amap.surfaces["x"], amap.surfaces["y"]) if len(amap.surfaces) else None
+        boxes = _region_labels(ax, X, Y, idx, [f"step {s}" for s in amap.step_names], p.font_pt - 1, pts)
+        _surfaces_on_map(ax, amap.surfaces, p, label_surfaces, avoid=boxes)
         ax.set_xlabel(f"{amap.descriptors[0].label()} / eV")
         ax.set_ylabel(f"{amap.descriptors[1].label()} / eV")
         ax.set_title(f"Potential-determining step, {amap.pathway.name}; {_conditions_text(amap.conditions)}")
@@ -256,8 +272,9 @@ def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook",
                 labels.append(Species.parse(f"{lab}(g)").latex().replace("(g)", ""))
             except Exception:  # noqa: BLE001 - label only
                 labels.append(lab)
-        _region_labels(ax, X, Y, smap.winner, labels, p.font_pt)
-        _surfaces_on_map(ax, smap.surfaces, p, label_surfaces)
+        pts = (smap.surfaces["x"], smap.surfaces["y"]) if len(smap.surfaces) else None
+        boxes = _region_labels(ax, X, Y, smap.winner, labels, p.font_pt, pts)
+        _surfaces_on_map(ax, smap.surfaces, p, label_surfaces, avoid=boxes)
         ax.set_xlabel(f"{smap.descriptors[0].label()} / eV")
         ax.set_ylabel(f"{smap.descriptors[1].label()} / eV")
         ax.set_title(f"Selectivity: least negative onset potential; {_conditions_text(smap.conditions)}")
