@@ -126,7 +126,7 @@ def test_cutoff_raises_soft_modes_and_records_them():
 
 
 def _grimme_entropy_reference(nu_cm, t):
-    """Independent transcription of Grimme (Chem. Eur. J. 2012) with scipy.constants, J/K."""
+    """Independent re-implementation of Grimme (Chem. Eur. J. 2012) with scipy.constants, J/K."""
     nu = nu_cm * sc.c * 100
     x = sc.h * nu / (sc.k * t)
     s_v = sc.k * (x / math.expm1(x) - math.log(-math.expm1(-x)))
