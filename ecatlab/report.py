@@ -9,9 +9,12 @@ Two steps, so that callers can reuse the figures (``ecatlab demo`` also saves th
 * :func:`analyse` runs the engine for every pathway (recording every warning raised on the way
   with ``warnings.catch_warnings(record=True)``) and draws the diagrams -> :class:`ReportAnalysis`;
 * :func:`render_html` turns an analysis (plus optional extra :class:`ReportSection` objects from
-  other modules, e.g. volcano plots) into the HTML text.
+  other modules) into the HTML text.
 
-:func:`build_report` and :func:`write_report` do both in one call.
+:func:`volcano_section` (1D volcano figure + :func:`ecatlab.volcano.volcano_summary` table) and
+:func:`routes_section` (best route per surface from :class:`ecatlab.network.NetworkAnalysis` + the
+network figure) build ready-made sections; :func:`build_report` and :func:`write_report` do
+everything in one call and take ``volcanoes=[("orr-4e", "OH*")]`` and ``routes=[("CO2", "CH4")]``.
 
 Results are theoretical estimates; every report carries :data:`SAFETY_CAUTION`.
 """
@@ -38,6 +41,8 @@ __all__ = [
     "ReportAnalysis",
     "analyse",
     "render_html",
+    "volcano_section",
+    "routes_section",
     "build_report",
     "write_report",
 ]
@@ -250,6 +255,8 @@ table.ecatlab-table td{border-bottom:1px solid #e3e3e0;padding:.2rem .5rem}
 table.ecatlab-table td.num{text-align:right;font-variant-numeric:tabular-nums}
 figure{margin:1rem 0 1.6rem}
 figure svg{max-width:100%;height:auto}
+figure.wide svg{width:100%;height:auto}
+figure.medium svg{width:72%;height:auto}
 figcaption{font-size:.85rem;color:#444;margin-top:.3rem}
 dl.columns dt{font-family:monospace;font-weight:600}
 dl.columns dd{margin:0 0 .3rem 1.2rem;font-size:.88rem}
@@ -430,6 +437,193 @@ def render_html(
     return "\n".join(parts) + "\n"
 
 
+# ------------------------------------------------------------------------------------------------
+# Ready-made extra sections: volcano and best routes
+# ------------------------------------------------------------------------------------------------
+def _fmt_value(value, unit: str = "eV") -> str:
+    """Energies (eV) and potentials (V) to 3 decimals, other numbers (pH, K) as given, booleans yes/no."""
+    if isinstance(value, (bool, np.bool_)):
+        return "yes" if value else "no"
+    if isinstance(value, (float, np.floating)):
+        return f"{float(value):.3f}" if (unit == "eV" or unit.startswith("V")) else f"{float(value):g}"
+    return str(value)
+
+
+def _svg_figure(ax_or_fig, element_id: str, caption: str, size: str = "wide") -> str:
+    import matplotlib.pyplot as plt
+
+    from ecatlab.plotting.export import svg_fragment
+
+    fig = ax_or_fig if hasattr(ax_or_fig, "savefig") else ax_or_fig.figure
+    try:
+        svg = svg_fragment(fig, element_id=element_id)
+    finally:
+        plt.close(fig)
+    return f'<figure class="{size}">{svg}<figcaption>{_esc(caption)}</figcaption></figure>'
+
+
+def volcano_section(
+    energies,
+    pathway,
+    descriptor: str,
+    *,
+    pH: float = 0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    style: str = "double",
+    **volcano_kwargs,
+) -> ReportSection:
+    """A report section with the 1D volcano of ``pathway`` against ``descriptor``.
+
+    The curve comes from :func:`ecatlab.volcano.volcano` (scaling relations fitted to every surface
+    of ``energies`` unless given in ``volcano_kwargs``); the section shows the figure
+    (:func:`ecatlab.plotting.volcano.plot_volcano`) and the quantity/value/unit/note table of
+    :meth:`VolcanoCurve.summary` (the same as :func:`ecatlab.volcano.volcano_summary`), values
+    rounded to 3 decimals (eV for descriptors, V for potentials).
+
+    Raises
+    ------
+    NotationError, ScalingError, PathwayError
+        Unreadable descriptor, an adsorbate missing from the table, an unknown pathway.
+    """
+    from ecatlab.plotting.volcano import plot_volcano
+    from ecatlab.tables import to_html
+    from ecatlab.volcano import volcano
+
+    curve = volcano(energies, pathway, descriptor, pH=pH, scale=scale, temperature=temperature, **volcano_kwargs)
+    key = curve.pathway.name
+    summary = curve.summary()
+    shown = pd.DataFrame({
+        "quantity": summary["quantity"],
+        "value": [_fmt_value(v, u) for v, u in zip(summary["value"], summary["unit"])],
+        "unit": summary["unit"],
+        "note": summary["note"],
+    })
+    shown.attrs["caption"] = (
+        f"Volcano of {key} against {curve.descriptor.text}: apex, equilibrium potential and the scaling relations "
+        f"used (pH {float(pH):g}, {float(temperature):.2f} K, potentials in V vs {curve.conditions['scale']}). "
+        "Theoretical estimate: the apex is the best any surface obeying these relations can do."
+    )
+    anchor = _anchor(f"volcano {key} {curve.descriptor.text}")
+    apex = curve.apex
+    intro = (
+        f"<p>Limiting potential of {_esc(key)} along the descriptor {_esc(curve.descriptor.text)} (eV) when every "
+        "other adsorbate follows a linear scaling relation with it; each step's onset line is drawn, the envelope is "
+        f"the limiting potential and the computed surfaces sit at their exact values. Apex: descriptor "
+        f"<b>{apex.descriptor[0]:.3f} eV</b>, U<sub>L</sub> <b>{apex.limiting_potential:.3f} V</b>, overpotential "
+        f"<b>{apex.overpotential:.3f} V</b>.</p>"
+    )
+    ax = plot_volcano(curve, style=style)
+    figure = _svg_figure(ax, anchor + "-fig",
+                         f"Volcano of {key} vs {curve.descriptor.text} ({_fmt_value(apex.overpotential)} V minimum overpotential "
+                         "set by the scaling relations).")
+    return ReportSection(f"Volcano: {key} vs {curve.descriptor.text}", intro + figure + to_html(shown), anchor)
+
+
+def routes_section(
+    energies,
+    reactant: str,
+    product: str,
+    *,
+    pH: float = 0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    surfaces: Iterable[str] | None = None,
+    style: str = "double",
+    her: str | None = "her-volmer-heyrovsky",
+) -> ReportSection:
+    """A report section with the best route from ``reactant`` to ``product`` on every surface.
+
+    Built with :func:`ecatlab.network.build_network` and :meth:`NetworkAnalysis.best_routes`: per
+    surface the route with the least negative limiting potential (V on ``scale``), its
+    potential-determining step, the largest chemical-step dG (eV) and the route; the HER limiting
+    potential of the engine's ``her`` pathway is listed beside it as the competitor. The figure
+    (:func:`ecatlab.plotting.network.plot_network`) shows the routes on the surface with the best
+    limiting potential at U = 0 V.
+
+    Raises
+    ------
+    PathwayError
+        Unknown reactant or product (the message lists the known molecules).
+    """
+    from ecatlab.energies import EnergyTable, read_energies
+    from ecatlab.network import NetworkAnalysis, build_network
+    from ecatlab.plotting.network import plot_network
+    from ecatlab.tables import to_html
+
+    table = energies if isinstance(energies, EnergyTable) else read_energies(energies)
+    network = build_network(table, reactant)
+    analysis = NetworkAnalysis(network, table, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces)
+    key = network.resolve_product(product)
+    best = analysis.best_routes(key)
+    sc = analysis.scale
+    shown = pd.DataFrame({
+        "surface": best["surface"],
+        f"U_L [V vs {sc}]": best["limiting_potential"].round(3),
+        "potential-determining step": best["determining_step"],
+        "max chemical dG [eV]": best["max_chemical_dG"].round(3),
+        "route": best["route"].str.split(" via ").str[-1],
+        "tied routes": best["tied_routes"],
+    })
+    if her is not None:
+        onsets = analysis.onset_potentials([key], her=her)
+        if "H2(g)" in onsets:
+            h2 = onsets["H2(g)"].reindex(best["surface"]).to_numpy()
+            shown[f"U_L HER [V vs {sc}]"] = np.round(h2, 3)
+            shown["HER first"] = np.where(np.isnan(h2) | best["limiting_potential"].isna(), "n/a",
+                                          np.where(h2 > best["limiting_potential"].to_numpy(), "yes", "no"))
+    shown = shown.sort_values(f"U_L [V vs {sc}]", ascending=False, kind="stable", na_position="last").reset_index(drop=True)
+    shown.attrs["caption"] = (
+        f"Best route {network.reactant} -> {key} per surface (network search over {len(network.routes(key))} routes), "
+        f"pH {analysis.pH:g}, {analysis.temperature:.2f} K, {table.scheme.describe().split(';')[0]}. "
+        "'HER first' = hydrogen evolution has the less negative limiting potential (a thermodynamic indicator only)."
+    )
+    shown.attrs["columns"] = {
+        f"U_L [V vs {sc}]": "limiting potential of the best route (least negative over all routes), V",
+        "potential-determining step": "the electrochemical step that sets U_L",
+        "max chemical dG [eV]": "largest free energy of a chemical (potential-independent) step on the route, eV; n/a = none",
+        "route": "intermediates in order (after 'via' in NetworkAnalysis.best_routes)",
+        "tied routes": "other routes with the same limiting potential (within 1e-9 eV)",
+    }
+    anchor = _anchor(f"routes {network.reactant} {key}")
+    intro = (
+        f"<p>Every route from {_esc(network.reactant)} to {_esc(key)} through the adsorbates in the table, searched "
+        "per surface for the least negative limiting potential (bottleneck over electrochemical steps; chemical steps "
+        "reported separately). Surfaces lacking an adsorbate use only the routes their data allow.</p>"
+    )
+    parts = [intro, to_html(shown)]
+    ok = best.dropna(subset=["limiting_potential"])
+    if len(ok):
+        top = ok.loc[ok["limiting_potential"].idxmax()]
+        ax = plot_network(analysis, str(top["surface"]), key, potential=0.0, style=style)
+        parts.insert(1, _svg_figure(
+            ax, anchor + "-fig",
+            f"Routes to {key} on {top['surface']} (best U_L = {top['limiting_potential']:.3f} V vs {sc}) at U = 0 V: arrows "
+            "coloured by step dG (blue downhill, red uphill), dashed = chemical steps, thick band = the best route.",
+            size="medium",
+        ))
+    return ReportSection(f"Best routes: {network.reactant} to {key}", "".join(parts), anchor)
+
+
+def _extra_sections(table, volcanoes, routes, pH, scale, temperature, surfaces, style) -> list[ReportSection]:
+    """The volcano and route sections; errors name the section asked for (same error class)."""
+    from ecatlab.errors import EcatlabError, PathwayError, ScalingError
+
+    out = []
+    for pathway, descriptor in volcanoes or ():
+        try:
+            out.append(volcano_section(table, pathway, descriptor, pH=pH, scale=scale, temperature=temperature, style=style))
+        except EcatlabError as exc:
+            raise ScalingError(f"volcano section {getattr(pathway, 'name', pathway)} vs {descriptor!r}: {exc}") from exc
+    for reactant, product in routes or ():
+        try:
+            out.append(routes_section(table, reactant, product, pH=pH, scale=scale, temperature=temperature,
+                                      surfaces=surfaces, style=style))
+        except EcatlabError as exc:
+            raise PathwayError(f"routes section {reactant} -> {product}: {exc}") from exc
+    return out
+
+
 def build_report(
     energies,
     pathways,
@@ -440,17 +634,31 @@ def build_report(
     surfaces: Iterable[str] | None = None,
     top: int = 4,
     sections: Sequence[ReportSection] = (),
+    volcanoes: Sequence[tuple[str, str]] = (),
+    routes: Sequence[tuple[str, str]] = (),
     command: str | None = None,
     title: str | None = None,
     banner: str | None = None,
 ) -> str:
     """Analyse and render in one call; returns the HTML text (figures are closed afterwards).
 
-    Parameters are those of :func:`analyse` and :func:`render_html`.
+    Parameters are those of :func:`analyse` and :func:`render_html`, plus
+
+    volcanoes : sequence of (pathway, descriptor)
+        One :func:`volcano_section` each, e.g. ``[("orr-4e", "OH*")]``.
+    routes : sequence of (reactant, product)
+        One :func:`routes_section` each, e.g. ``[("CO2", "CH4")]``.
+
+    The extra sections come after ``sections``; they use the same conditions and surfaces.
     """
     analysis = analyse(energies, pathways, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces, top=top)
     try:
-        return render_html(analysis, sections=sections, command=command, title=title, banner=banner)
+        extra = _extra_sections(analysis.table, volcanoes, routes, pH, scale, temperature, surfaces, "double")
+        if volcanoes:
+            analysis.parameters["volcanoes"] = [tuple(v) for v in volcanoes]
+        if routes:
+            analysis.parameters["routes"] = [tuple(r) for r in routes]
+        return render_html(analysis, sections=list(sections) + extra, command=command, title=title, banner=banner)
     finally:
         analysis.close()
 

@@ -36,6 +36,48 @@ def test_report_command_bad_input_is_a_short_error(tmp_path, capsys):
     assert code == 2
 
 
+def test_report_command_volcano_and_routes(tmp_path, capsys):
+    from ecatlab.demo import demo_energies
+    from ecatlab.network import NetworkAnalysis, build_network
+    from ecatlab.volcano import volcano_summary
+
+    out = tmp_path / "r.html"
+    code = main(["report", str(demo_path()), "--pathway", "oer-4e", "--surface", "ALY-01", "ALY-02",
+                 "--volcano", "oer-4e=O* - OH*", "--routes", "N2:NH3", "-o", str(out)])
+    assert code == 0, capsys.readouterr().err
+    text = out.read_text(encoding="utf-8")
+    ET.fromstring(text.split("\n", 1)[1])
+    assert "http" not in text and "<script" not in text
+    import html
+
+    assert "--volcano 'oer-4e=O* - OH*' --routes N2:NH3" in html.unescape(text)  # the exact command, re-runnable
+    # volcano over all surfaces of the file (the fit needs them), with fit_against defaulting to O*
+    summary = volcano_summary(demo_energies(), "oer-4e", "O* - OH*").set_index("quantity")["value"]
+    vol = text.split('<section id="volcano-oer-4e-o-oh">')[1].split("</section>")[0]
+    assert f"<td>{summary['minimum overpotential']:.3f}</td>" in vol
+    table = demo_energies()
+    best = NetworkAnalysis(build_network(table, "N2"), table, surfaces=["ALY-01", "ALY-02"]).best_routes("NH3")
+    routes = text.split('<section id="routes-n2-g-nh3-g">')[1].split("</section>")[0]
+    for _, row in best.iterrows():
+        assert f'<td class="num">{row["limiting_potential"]:.3f}</td>' in routes
+    assert "SAS-01" not in routes  # the route search follows --surface
+
+
+@pytest.mark.parametrize("option, message", [
+    (["--volcano", "orr-4e=CO3*"], "volcano section orr-4e vs 'CO3*'"),
+    (["--volcano", "orr-4e"], "expected KEY=DESCRIPTOR"),
+    (["--volcano", "orr-4e=OH"], "every species must end in '*'"),
+    (["--routes", "CO2:C2H6"], "routes section CO2 -> C2H6: no molecule 'C2H6'"),
+    (["--routes", "CO2-CH4"], "expected REACTANT:PRODUCT"),
+])
+def test_report_section_errors_exit_2(tmp_path, capsys, option, message):
+    out = tmp_path / "r.html"
+    code = main(["report", str(demo_path()), "--pathway", "orr-4e", "--surface", "ALY-01", *option, "-o", str(out)])
+    err = capsys.readouterr().err
+    assert code == 2 and message in err and "Traceback" not in err
+    assert not out.exists()
+
+
 @pytest.fixture(scope="module")
 def demo_run(tmp_path_factory):
     out = tmp_path_factory.mktemp("demo") / "demo-out"
@@ -65,6 +107,19 @@ def test_demo_writes_tables_diagrams_and_report(demo_run):
         for key in keys:
             assert f'id="diagram-{key}"' in report
     assert "ILLUSTRATIVE" in report and "ecatlab demo -o" in report
+    # one volcano (orr-4e vs OH*) and one best-route section (CO2 -> CH4)
+    from ecatlab.demo import demo_energies
+    from ecatlab.network import best_routes
+    from ecatlab.volcano import volcano_summary
+
+    summary = volcano_summary(demo_energies(), "orr-4e", "OH*").set_index("quantity")["value"]
+    vol = report.split('<section id="volcano-orr-4e-oh">')[1].split("</section>")[0]
+    assert f"<td>{summary['best limiting potential']:.3f}</td>" in vol and "<svg " in vol
+    routes = report.split('<section id="routes-co2-g-ch4-g">')[1].split("</section>")[0]
+    for value in best_routes(demo_energies(), "CO2", "CH4")["limiting_potential"]:
+        assert f'<td class="num">{value:.3f}</td>' in routes
+    assert "<svg " in routes
+    assert "done in" in printed
     tex = (out / "limiting_potentials.tex").read_text()
     assert r"\toprule" in tex and "SAS-06" in tex
 

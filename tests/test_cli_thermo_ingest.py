@@ -5,7 +5,8 @@ import pytest
 
 from ecatlab.cli import main
 from ecatlab.thermochemistry import HarmonicAdsorbate
-from test_ingest import make_tree, pt111_slab
+from ecatlab.ingest.synthetic import fcc111_slab
+from test_ingest import make_tree
 
 
 def run(capsys, *argv):
@@ -36,7 +37,7 @@ def test_thermo_gas(capsys):
 
 
 def test_ingest_then_table(tmp_path, capsys):
-    root = make_tree(tmp_path / "dft", pt111_slab())
+    root = make_tree(tmp_path / "dft", fcc111_slab("Pt", a=3.92, size=(2, 2, 3)))
     out_csv = tmp_path / "energies.csv"
     code, out, err = run(capsys, "ingest", str(root), "-o", str(out_csv))
     assert code == 0, err

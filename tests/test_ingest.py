@@ -1,5 +1,5 @@
 """Ingestion of DFT results: total-energy tables, VASP folders (files written by the tests with
-invented numbers), an ASE database, and the bad-input errors.
+invented numbers by ``ecatlab.ingest.synthetic``), an ASE database, and the bad-input errors.
 
 External sources: pymatgen (Vasprun, Poscar, Structure), scipy.constants (conversion of the
 dynamical-matrix eigenvalues), ase (fcc111 slab builder, database).
@@ -22,137 +22,30 @@ from ecatlab.ingest import (
     read_vasp_modes,
     read_vasp_run,
 )
+from ecatlab.ingest.synthetic import (
+    add_adsorbate,
+    cm_to_eigenvalue,
+    dynmat_block,
+    fcc111_slab,
+    molecule_in_box,
+    write_outcar_modes,
+    write_run,
+    write_vasprun,
+    write_vib_run,
+)
 
 
-def _v(name, rows, fmt="{: .8f}"):
-    out = [f'  <varray name="{name}">'] if name else ['  <varray>']
-    for r in rows:
-        out.append("   <v>" + " ".join(fmt.format(x) for x in r) + " </v>")
-    out.append("  </varray>")
-    return "\n".join(out)
-
-def write_vasprun(path, symbols, lattice, frac, energies, *, nelm=60, scf_steps=8, ibrion=2, nsw=100,
-                  selective=None, dynmat=None, gga="PE", date="2024 03 05", time="10:11:12"):
-    path = Path(path); path.parent.mkdir(parents=True, exist_ok=True)
-    types = list(dict.fromkeys(symbols))
-    struct = lambda name: "\n".join([
-        f' <structure name="{name}">' if name else " <structure>",
-        "  <crystal>", _v("basis", lattice), "  </crystal>",
-        _v("positions", frac),
-        (('  <varray name="selective" type="logical">\n' + "\n".join("   <v>" + " ".join("T" if x else "F" for x in r) + " </v>" for r in selective) + "\n  </varray>") if selective is not None else ""),
-        " </structure>"])
-    calcs = []
-    for e in energies:
-        sc = "\n".join(f'  <scstep>\n   <energy>\n    <i name="e_fr_energy"> {e+0.001:.8f} </i>\n    <i name="e_wo_entrp"> {e-0.001:.8f} </i>\n    <i name="e_0_energy"> {e:.8f} </i>\n   </energy>\n  </scstep>' for _ in range(scf_steps))
-        calcs.append(f""" <calculation>
-{sc}
-{struct(None)}
-{_v("forces", [[0,0,0]]*len(symbols))}
-  <energy>
-   <i name="e_fr_energy"> {e+0.001:.8f} </i>
-   <i name="e_wo_entrp"> {e-0.001:.8f} </i>
-   <i name="e_0_energy"> {e:.8f} </i>
-  </energy>
-{dynmat or ""}
- </calculation>""")
-    atoms = "\n".join(f"    <rc><c>{s:2s}</c><c>{types.index(s)+1}</c></rc>" for s in symbols)
-    atomtypes = "\n".join(f"    <rc><c>{symbols.count(t)}</c><c>{t}</c><c>1.0</c><c>0.0</c><c>  PAW_PBE {t} 08Apr2002</c></rc>" for t in types)
-    text = f"""<?xml version="1.0" encoding="ISO-8859-1"?>
-<modeling>
- <generator>
-  <i name="program" type="string">vasp </i>
-  <i name="version" type="string">6.3.2  </i>
-  <i name="subversion" type="string">(build Jan 1 2023) complex parallel</i>
-  <i name="platform" type="string">LinuxIFC </i>
-  <i name="date" type="string">{date} </i>
-  <i name="time" type="string">{time} </i>
- </generator>
- <incar>
-  <i type="string" name="GGA">{gga}</i>
-  <i type="int" name="IBRION">{ibrion}</i>
-  <i type="int" name="NSW">{nsw}</i>
-  <i name="ENCUT">400.0</i>
- </incar>
- <parameters>
-  <separator name="electronic">
-   <i type="int" name="NELM">{nelm}</i>
-   <i type="int" name="ISPIN">1</i>
-   <i type="logical" name="LHFCALC">F</i>
-   <i name="AEXX">0.0</i>
-   <i name="HFSCREEN">0.0</i>
-  </separator>
-  <separator name="ionic">
-   <i type="int" name="IBRION">{ibrion}</i>
-   <i type="int" name="NSW">{nsw}</i>
-  </separator>
- </parameters>
- <atominfo>
-  <atoms>{len(symbols)}</atoms>
-  <types>{len(types)}</types>
-  <array name="atoms">
-   <dimension dim="1">ion</dimension>
-   <field type="string">element</field>
-   <field type="int">atomtype</field>
-   <set>
-{atoms}
-   </set>
-  </array>
-  <array name="atomtypes">
-   <dimension dim="1">type</dimension>
-   <field type="int">atomspertype</field>
-   <field type="string">element</field>
-   <field>mass</field>
-   <field>valence</field>
-   <field type="string">pseudopotential</field>
-   <set>
-{atomtypes}
-   </set>
-  </array>
- </atominfo>
-{struct("initialpos")}
-{chr(10).join(calcs)}
-{struct("finalpos")}
-</modeling>
-"""
-    path.write_text(text)
-    return path
-
-def dynmat_block(eigenvalues, n_free):
-    n = 3 * n_free
-    vecs = np.eye(n)
-    hess = np.diag(eigenvalues)
-    return "\n".join([" <dynmat>", _v("hessian", hess), '  <v name="eigenvalues">' + " ".join(f"{x: .8f}" for x in eigenvalues) + " </v>", _v("eigenvectors", vecs), " </dynmat>"])
-
-
-def write_outcar_modes(path, freqs_cm):
-    """OUTCAR fragment with the dynamical-matrix block (and VASP's second, mass-divided block)."""
-    lines = [" Eigenvectors and eigenvalues of the dynamical matrix", " ----------------------------------------------------", ""]
-    for i, f in enumerate(freqs_cm, start=1):
-        thz = abs(f) * sc.c * 100 / 1e12
-        tag = "f/i=" if f < 0 else "f  ="
-        lines += [f"  {i:3d} {tag} {thz:11.6f} THz {2 * math.pi * thz:11.6f} 2PiTHz {abs(f):11.6f} cm-1 {abs(f) * 0.1239842:11.6f} meV",
-                  "             X         Y         Z           dx          dy          dz",
-                  "      0.000000  0.000000  2.000000     0.000000    0.000000    1.000000", ""]
-    lines += [" Eigenvectors after division by SQRT(mass)", "", " Eigenvectors and eigenvalues of the dynamical matrix",
-              "   1 f  =    1.000000 THz    6.283185 2PiTHz   33.356410 cm-1     4.135667 meV"]
-    Path(path).parent.mkdir(parents=True, exist_ok=True)
-    Path(path).write_text("\n".join(lines) + "\n")
-
-
-def cm_to_eigenvalue(freqs_cm):
-    """Inverse of the VASP convention, written independently with scipy.constants."""
-    omega = 2 * math.pi * sc.c * 100 * np.asarray(freqs_cm, dtype=float)  # rad/s
-    return -np.sign(freqs_cm) * omega**2 * sc.angstrom**2 * sc.atomic_mass / sc.e
-
-
-# -- a real structure ----------------------------------------------------------------------------
 def pt111_slab():
-    """Pt(111) 2x2x3 slab from ase.build.fcc111 (a = 3.92 A, Pt lattice constant from memory),
-    written as a POSCAR and read back with pymatgen."""
-    from ase.build import fcc111
-    from pymatgen.io.ase import AseAtomsAdaptor
+    """Pt(111) 2x2x3 slab from ase.build.fcc111 (a = 3.92 A, Pt lattice constant from memory)."""
+    return fcc111_slab("Pt", a=3.92, size=(2, 2, 3), vacuum=7.0)
 
-    return AseAtomsAdaptor.get_structure(fcc111("Pt", size=(2, 2, 3), a=3.92, vacuum=7.0))
+
+def test_synthetic_eigenvalues_against_scipy():
+    # the writer's inverse conversion, checked against scipy.constants written out here
+    freqs = np.array([3650.0, 410.0, -45.0])
+    omega = 2 * math.pi * sc.c * 100 * freqs  # rad/s
+    expected = -np.sign(freqs) * omega**2 * sc.angstrom**2 * sc.atomic_mass / sc.e
+    assert np.allclose(cm_to_eigenvalue(freqs), expected, rtol=1e-12)
 
 
 @pytest.fixture(scope="module")
@@ -166,19 +59,6 @@ def real_slab(tmp_path_factory):
     return structure
 
 
-def add_adsorbate(slab, species_atoms):
-    s = slab.copy()
-    top = max(site.coords[2] for site in s)
-    for k, el in enumerate(species_atoms):
-        s.append(el, [0.0, 0.0, top + 1.9 + 1.0 * k], coords_are_cartesian=True)
-    return s
-
-
-def write_run(folder, structure, energy, **kw):
-    return write_vasprun(Path(folder) / "vasprun.xml", [str(site.specie) for site in structure],
-                         structure.lattice.matrix, structure.frac_coords, [energy + 0.3, energy], **kw)
-
-
 # invented energies (eV) for the tests; not DFT results
 E = {"slab": -72.000, "OH": -82.500, "O": -77.400, "OOH": -87.300, "H2": -6.770, "H2O": -14.220}
 VIB = {"OH": [3650.0, 760.0, 720.0, 410.0, 320.0, 90.0], "O": [480.0, 350.0, 340.0],
@@ -187,27 +67,17 @@ VIB = {"OH": [3650.0, 760.0, 720.0, 410.0, 320.0, 90.0], "O": [480.0, 350.0, 340
 
 def make_tree(root, slab, vib=True, outcar=False):
     root = Path(root)
-    write_run(root / "gas" / "H2", _molecule(["H", "H"], 0.74), E["H2"])
-    write_run(root / "gas" / "H2O", _molecule(["O", "H", "H"], 0.97), E["H2O"])
+    write_run(root / "gas" / "H2", molecule_in_box(["H", "H"], 0.74), E["H2"])
+    write_run(root / "gas" / "H2O", molecule_in_box(["O", "H", "H"], 0.97), E["H2O"])
     write_run(root / "Pt111" / "slab", slab, E["slab"])
     for name, atoms in (("OH", ["O", "H"]), ("O", ["O"]), ("OOH", ["O", "O", "H"])):
         s = add_adsorbate(slab, atoms)
         write_run(root / "Pt111" / name, s, E[name])
-        if vib:
-            free = [[False] * 3] * len(slab) + [[True] * 3] * len(atoms)
-            if outcar:
-                write_outcar_modes(root / "Pt111" / name / "vib" / "OUTCAR", VIB[name])
-            else:
-                write_run(root / "Pt111" / name / "vib", s, E[name], ibrion=5, nsw=1, selective=free,
-                          dynmat=dynmat_block(list(cm_to_eigenvalue(VIB[name])), len(atoms)))
+        if vib and outcar:
+            write_outcar_modes(root / "Pt111" / name / "vib" / "OUTCAR", VIB[name])
+        elif vib:
+            write_vib_run(root / "Pt111" / name / "vib", s, E[name], VIB[name], len(atoms))
     return root
-
-
-def _molecule(symbols, step):
-    from pymatgen.core import Lattice, Structure
-
-    coords = [[5.0, 5.0, 5.0 + step * i] for i in range(len(symbols))]
-    return Structure(Lattice.cubic(12.0), symbols, coords, coords_are_cartesian=True)
 
 
 # -- energies ---------------------------------------------------------------------------------------
@@ -252,8 +122,7 @@ def test_dynmat_conversion_against_scipy():
 def test_vasprun_and_outcar_routes_agree(tmp_path, real_slab):
     freqs = [3650.0, 760.0, 720.0, 410.0, 320.0, -45.0]
     s = add_adsorbate(real_slab, ["O", "H"])
-    free = [[False] * 3] * 12 + [[True] * 3] * 2
-    write_run(tmp_path / "vib", s, -80.0, ibrion=5, nsw=1, selective=free, dynmat=dynmat_block(list(cm_to_eigenvalue(freqs)), 2))
+    write_vib_run(tmp_path / "vib", s, -80.0, freqs, 2)
     write_outcar_modes(tmp_path / "vib" / "OUTCAR", freqs)
     from_xml = read_vasp_modes(tmp_path / "vib")
     from_outcar = outcar_frequencies_cm(tmp_path / "vib" / "OUTCAR")
@@ -349,7 +218,7 @@ def test_unbuildable_composition_names_path(tmp_path, real_slab):
         energy_table_from_vasp(root, zero_corrections=True)
 
 
-def test_missing_corrections_and_reference_molecule(tmp_path, real_slab):
+def test_missing_corrections_and_referencemolecule_in_box(tmp_path, real_slab):
     root = make_tree(tmp_path / "dft", real_slab, vib=False)
     with pytest.raises(IngestError, match="no vibrational corrections for Pt111/O\\*"):
         energy_table_from_vasp(root)

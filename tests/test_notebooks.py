@@ -115,6 +115,21 @@ def test_orr_oer_screening(python3_kernel, kernel_env, tmp_path):
     assert_figures(nb, "screening")
     ranking = text_of(tagged(nb, "ranking")[0])
     assert "orr-4e" in ranking and "oer-4e" in ranking
+    # the volcano apex printed by the notebook equals volcano_summary on the same data
+    from ecatlab.demo import demo_energies
+    from ecatlab.volcano import volcano_summary
+
+    summary = volcano_summary(demo_energies(), "orr-4e", "OH*").set_index("quantity")["value"]
+    printed = text_of(tagged(nb, "volcano")[0])
+    descriptor = float(printed.split("descriptor ")[1].split(" eV")[0])
+    u_l = float(printed.split("U_L ")[1].split(" V")[0])
+    eta = float(printed.split("overpotential ")[1].split(" V")[0])
+    assert descriptor == pytest.approx(summary["optimal descriptor"], abs=1e-6)
+    assert u_l == pytest.approx(summary["best limiting potential"], abs=1e-6)
+    assert eta == pytest.approx(summary["minimum overpotential"], abs=1e-6)
+    # the scaling limit with dG(OOH*) = dG(OH*) + 3.2 eV: 0.37 V (Man et al., ChemCatChem 3, 1159 (2011))
+    limit = text_of(tagged(nb, "volcano-limit")[0])
+    assert float(limit.split("overpotential ")[1].split(" V")[0]) == pytest.approx(0.37, abs=0.005)
 
 
 def test_co2_products(python3_kernel, kernel_env, tmp_path):
@@ -130,6 +145,23 @@ def test_co2_products(python3_kernel, kernel_env, tmp_path):
     for surface, key in best.items():
         line = next(l for l in shown.splitlines() if l.startswith(surface))
         assert key in line, (surface, key, line)
+    # best routes CO2 -> CH4: the printed limiting potentials are the network's, and the engine agrees
+    from ecatlab.network import NetworkAnalysis, build_network
+
+    table = demo_energies()
+    an = NetworkAnalysis(build_network(table, "CO2"), table)
+    routes = an.best_routes("CH4").set_index("surface")
+    printed = {l.split()[0]: float(l.split("U_L = ")[1].split(" V")[0]) for l in text_of(tagged(nb, "co2-routes")[0]).splitlines() if "U_L = " in l}
+    assert set(printed) == set(routes.index)
+    for surface, value in printed.items():
+        assert value == pytest.approx(routes.loc[surface, "limiting_potential"], abs=1e-6)
+    top = routes["limiting_potential"].idxmax()
+    check = text_of(tagged(nb, "co2-route-check")[0])
+    engine = che.limiting_potentials(table, an.best_route(top, "CH4"), surfaces=[top]).iloc[0]["limiting_potential"]
+    assert check.startswith(top) and f"engine {engine:.6f} V" in check and f"network {engine:.6f} V" in check
+    assert "H2(g)" in text_of(tagged(nb, "co2-ranking")[0])
+    fractions = ast.literal_eval(next(l for l in text_of(tagged(nb, "co2-selectivity")[0]).splitlines() if l.startswith("{")))
+    assert sum(fractions.values()) == pytest.approx(1.0, abs=2e-3)
 
 
 def test_nrr(python3_kernel, kernel_env, tmp_path):
@@ -139,6 +171,19 @@ def test_nrr(python3_kernel, kernel_env, tmp_path):
 
 
 def test_bring_your_own_data(python3_kernel, kernel_env, tmp_path):
+    from ecatlab import che
+
     nb = run_notebook(ROOT / "notebooks" / "05_bring_your_own_data.ipynb", tmp_path)
     assert_figures(nb, "byod")
     assert "report.html True" in text_of(tagged(nb, "report")[0])
+    # the one-cell DFT-folder route gives the engine's limiting potentials on the ingested example
+    from ecatlab.energies import read_energies
+    from ecatlab.ingest import energy_table_from_vasp
+
+    runs = ROOT / "demo_data" / "dft_example"
+    lp = che.limiting_potentials(read_energies(energy_table_from_vasp(runs, corrections=runs / "corrections.csv")),
+                                 ["orr-4e", "oer-4e", "her-volmer-heyrovsky"])
+    shown = ast.literal_eval(text_of(tagged(nb, "byod-dft")[0]).strip())
+    assert len(shown) == len(lp) == 6
+    for r in lp.itertuples():
+        assert shown[f"{r.surface} {r.pathway}"] == pytest.approx(r.limiting_potential, abs=1e-6)

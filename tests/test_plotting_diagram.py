@@ -40,16 +40,27 @@ def test_levels_equal_engine_state_energies(table, potential):
     expected = state_free_energies(table, "orr-4e", potential=potential, pH=3, scale="RHE", surfaces=surfaces).to_numpy()
     for j in range(len(surfaces)):
         np.testing.assert_allclose(_drawn_levels(ax, j), expected[j], atol=1e-12)
-    # the y data of the Line2D artists themselves (not only the handle's view of them)
+    # the y data of the Line2D artists themselves (not only the handle's view of them): one level
+    # artist per series, each bar a NaN-separated segment
     lines = _level_lines(ax)
-    assert len(lines) == len(surfaces) * 5
-    ys = np.array([ln.get_ydata()[0] for ln in lines]).reshape(len(surfaces), 5)
-    np.testing.assert_allclose(ys, expected, atol=1e-12)
-    # levels are flat bars centred on x = 0, 1, 2, ...
-    for k, ln in enumerate(lines[:5]):
-        x = np.asarray(ln.get_xdata())
-        assert x.mean() == pytest.approx(k)
-        assert np.ptp(ln.get_ydata()) == 0
+    assert len(lines) == len(surfaces)
+    for j, ln in enumerate(lines):
+        x, y = np.asarray(ln.get_xdata(), float), np.asarray(ln.get_ydata(), float)
+        assert x.shape == y.shape == (5 * 3,)
+        assert np.isnan(x[2::3]).all() and np.isnan(y[2::3]).all()
+        np.testing.assert_allclose(y[0::3], expected[j], atol=1e-12)
+        np.testing.assert_allclose(y[1::3], expected[j], atol=1e-12)  # levels are flat bars ...
+        np.testing.assert_allclose((x[0::3] + x[1::3]) / 2, np.arange(5), atol=1e-12)  # ... centred on x = 0, 1, 2, ...
+        assert np.all(x[1::3] - x[0::3] == pytest.approx(2 * dg.LEVEL_HALF_WIDTH))
+    for k in range(5):
+        bx, by = ax.ecatlab_drawings[0].level_xy(k)
+        assert bx.mean() == pytest.approx(k) and np.ptp(by) == 0 and by[0] == pytest.approx(expected[0][k])
+    # connectors join the right end of level i to the left end of level i + 1
+    d = ax.ecatlab_drawings[1]
+    for i in range(4):
+        cx, cy = d.connector_xy(i)
+        np.testing.assert_allclose(cx, [i + dg.LEVEL_HALF_WIDTH, i + 1 - dg.LEVEL_HALF_WIDTH])
+        np.testing.assert_allclose(cy, expected[1][i : i + 2], atol=1e-12)
 
 
 def test_equilibrium_potential_closes_the_cycle(table):
@@ -84,9 +95,9 @@ def test_highlight_is_the_determining_step(table, key):
         hl = drawing.highlight_line
         assert hl.get_visible() and hl.get_color() == HIGHLIGHT
         # the highlight runs exactly along the connector of step pds
-        conn = drawing.connector_lines[pds]
-        np.testing.assert_allclose(hl.get_xdata(), conn.get_xdata())
-        np.testing.assert_allclose(hl.get_ydata(), conn.get_ydata())
+        cx, cy = drawing.connector_xy(pds)
+        np.testing.assert_allclose(hl.get_xdata(), cx)
+        np.testing.assert_allclose(hl.get_ydata(), cy)
         np.testing.assert_allclose(hl.get_ydata(), drawing.levels[pds : pds + 2])
 
 
@@ -107,9 +118,9 @@ def test_labels_present_with_chemical_formatting(table):
 def test_overlay_uses_distinct_colours_and_dashes_and_axis_labels(table):
     surfaces = ["ALY-01", "ALY-02", "SAS-01", "SAS-03"]
     ax = dg.plot_free_energy_diagram(table, "orr-4e", surfaces, potential=0.0)
-    colours = [d.level_lines[0].get_color() for d in ax.ecatlab_drawings]
+    colours = [d.level_line.get_color() for d in ax.ecatlab_drawings]
     assert colours == list(PALETTE[:4])
-    assert len({str(d.level_lines[0]._dash_pattern) for d in ax.ecatlab_drawings}) == 4
+    assert len({str(d.level_line._dash_pattern) for d in ax.ecatlab_drawings}) == 4
     assert [t.get_text() for t in ax.get_xticklabels()] == ["O₂", "OOH*", "O*", "OH*", "H₂O"]
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
     assert legend[:4] == surfaces
@@ -119,14 +130,16 @@ def test_update_moves_existing_artists_only(table):
     ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
     drawing = ax.ecatlab_drawings[0]
     n_lines, n_texts = len(ax.lines), len(ax.texts)
-    ids = [id(a) for a in drawing.level_lines + drawing.connector_lines + drawing.state_texts]
+    ids = [id(a) for a in drawing.artists]
     new = state_free_energies(table, "orr-4e", potential=0.9, surfaces=["ALY-01"]).to_numpy()[0]
     drawing.update(new, highlight_index=2, title="U = 0.90 V vs RHE")
     assert len(ax.lines) == n_lines and len(ax.texts) == n_texts
-    assert [id(a) for a in drawing.level_lines + drawing.connector_lines + drawing.state_texts] == ids
+    assert [id(a) for a in drawing.artists] == ids
     np.testing.assert_allclose(drawing.levels, new)
     np.testing.assert_allclose(drawing.highlight_line.get_ydata(), new[2:4])
     assert drawing.state_texts[3].get_position() == pytest.approx((3, new[3]))
+    np.testing.assert_allclose(drawing.level_xy(3)[1], [new[3], new[3]])
+    np.testing.assert_allclose(drawing.connector_xy(3)[1], new[3:5])
     assert ax.get_title() == "U = 0.90 V vs RHE"
     assert "ΔG" in drawing.highlight_text.get_text() and "step 3" in drawing.highlight_text.get_text()
     lo, hi = ax.get_ylim()
@@ -179,7 +192,7 @@ def test_presets_set_journal_widths(table):
     ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", style="single")
     w, h = ax.figure.get_size_inches()
     assert w * 25.4 == pytest.approx(preset("single").width_mm)
-    assert ax.ecatlab_drawings[0].level_lines[0].get_linewidth() == pytest.approx(preset("single").level_width_pt)
+    assert ax.ecatlab_drawings[0].level_line.get_linewidth() == pytest.approx(preset("single").level_width_pt)
 
 
 def test_state_label_text():

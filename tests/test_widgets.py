@@ -118,7 +118,9 @@ def test_uphill_steps_are_marked_in_table_html(ex):
 # -- reaction / product switching ----------------------------------------------------------------------------
 def test_switch_reaction_and_product_updates_pathway_table_and_figure(ex, table):
     ex.reaction.value = "CO2RR"
-    assert [k for _, k in ex.pathway.options] == list(REACTION_FAMILIES["CO2RR"])
+    builtin = [k for _, k in ex.pathway.options if not k.startswith("best route:")]
+    assert builtin == list(REACTION_FAMILIES["CO2RR"])
+    assert [k for _, k in ex.pathway.options][: len(builtin)] == builtin  # built-in pathways first, then best routes
     labels = [lab for lab, _ in ex.pathway.options]
     for wanted in ("CO", "HCOOH", "CH4 via CHO*", "CH4 via COH*", "CH3OH"):
         assert wanted in labels
@@ -130,12 +132,12 @@ def test_switch_reaction_and_product_updates_pathway_table_and_figure(ex, table)
     for step in path.steps:
         assert step.equation.replace(">", "&gt;") in ex.table.value
     assert len(ex.view.drawings) == len(ex.state.surfaces)
-    assert all(len(d.level_lines) == len(path.labels) for d in ex.view.drawings)
+    assert all(d.n_states == len(path.labels) and len(d.levels) == len(path.labels) for d in ex.view.drawings)
     assert len(ex.view.ax.get_xticks()) == len(path.labels)
     assert "co2rr-ch3oh" in ex.view.ax.get_title(loc="left")
     np.testing.assert_allclose(np.vstack([d.levels for d in ex.view.drawings]), ex.state.levels(), atol=1e-12)
     ex.reaction.value = "NRR"
-    assert [k for _, k in ex.pathway.options] == ["nrr-distal", "nrr-alternating"]
+    assert [k for _, k in ex.pathway.options] == ["nrr-distal", "nrr-alternating", "best route:N2H4(g)", "best route:NH3(g)"]
     ex.pathway.value = "nrr-alternating"
     assert ex.state.pathway.name == "nrr-alternating"
     assert "NHNH*" in ex.state.pathway.labels
@@ -289,8 +291,12 @@ def test_export_writes_figure_and_tables(ex, tmp_path):
     back = pd.read_csv(steps_csv, comment="#", index_col=0)
     np.testing.assert_allclose(back.to_numpy(), ex.state.step_table().to_numpy(), atol=1e-9)
     svg = next(p for p in ex.exported if p.suffix == ".svg").read_text(encoding="utf-8")
-    n_levels = len(ex.state.surfaces) * len(ex.state.pathway.labels)
-    assert svg.count('id="ecatlab-level') >= n_levels  # moving artists are in the saved file
+    # moving artists are in the saved file: one level path per surface with one bar (M ... L) per state
+    groups = svg.split('<g id="ecatlab-level">')[1:]
+    assert len(groups) == len(ex.state.surfaces)
+    for group in groups:
+        path = group[: group.index("/>")]
+        assert path.count("M ") == path.count("L ") == len(ex.state.pathway.labels)
     assert all(a.get_animated() for a in ex.view._dynamic)
 
 

@@ -6,7 +6,8 @@ Writes, into an output folder it marks as its own (file ``.ecatlab-output``):
   pathway (ORR, OER, HER, CO2RR, NRR) for the twelve hypothetical surfaces;
 * ``ranking.csv`` / ``.md`` — surfaces ranked per pathway by theoretical overpotential;
 * ``diagrams/<pathway>.svg`` and ``.png`` — free-energy diagram of the best surfaces at U = 0;
-* ``report.html`` — the one-file report.
+* ``report.html`` — the one-file report, with a volcano section (orr-4e against OH*) and a
+  best-route section (CO2 to CH4, HER as competitor).
 
 It never overwrites files it did not make: a folder that exists, is not empty and lacks the
 marker is refused with an error naming it.
@@ -22,6 +23,8 @@ import time
 from ecatlab.errors import EcatlabError
 
 MARKER = ".ecatlab-output"
+DEMO_VOLCANO = ("orr-4e", "OH*")  # (pathway, descriptor) of the report's volcano section
+DEMO_ROUTES = ("CO2", "CH4")  # (reactant, product) of the report's best-route section
 DEFAULT_DIR = "ecatlab-demo-output"
 
 
@@ -69,7 +72,7 @@ def run(args: argparse.Namespace) -> int:
     from ecatlab.demo import DEMO_LABEL, demo_energies
     from ecatlab.pathways import BUILTIN_PATHWAYS
     from ecatlab.plotting.export import save_figure
-    from ecatlab.report import analyse, render_html
+    from ecatlab.report import analyse, render_html, routes_section, volcano_section
     from ecatlab.tables import export_table, limiting_potential_table, rank_surfaces
 
     start = time.perf_counter()
@@ -89,8 +92,10 @@ def run(args: argparse.Namespace) -> int:
             files = save_figure(fig.figure, out / "diagrams" / name, formats=("svg", "png"), dpi=200)
             fig.svg = files[0].read_text(encoding="utf-8")
             written += files
+        sections = [volcano_section(analysis.table, *DEMO_VOLCANO), routes_section(analysis.table, *DEMO_ROUTES)]
+        analysis.parameters.update(volcanoes=[DEMO_VOLCANO], routes=[DEMO_ROUTES])
         command = f"ecatlab demo -o {args.output}"
-        html = render_html(analysis, command=command, banner=DEMO_LABEL + " — do not cite or compare with experiment.",
+        html = render_html(analysis, command=command, sections=sections, banner=DEMO_LABEL + " — do not cite or compare with experiment.",
                            title="ecatlab demo: illustrative screening of twelve hypothetical surfaces")
         report = out / "report.html"
         report.write_text(html, encoding="utf-8")

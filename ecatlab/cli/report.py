@@ -1,4 +1,5 @@
-"""``ecatlab report FILE --pathway KEY [KEY ...] -o report.html``: the one-file HTML report."""
+"""``ecatlab report FILE --pathway KEY [KEY ...] [--volcano KEY=DESCRIPTOR ...] [--routes REACTANT:PRODUCT ...]
+-o report.html``: the one-file HTML report."""
 
 from __future__ import annotations
 
@@ -26,6 +27,11 @@ def register(subparsers) -> None:
     parser.add_argument("--temperature", "-T", type=float, default=STANDARD_TEMPERATURE, help="temperature in K (default 298.15)")
     parser.add_argument("--surface", nargs="+", metavar="NAME", default=None, help="only these surfaces (default all)")
     parser.add_argument("--top", type=int, default=4, help="number of best surfaces overlaid per diagram (default 4)")
+    parser.add_argument("--volcano", nargs="+", metavar="KEY=DESCRIPTOR", default=[],
+                        help="add a volcano section per item, e.g. orr-4e=OH* or 'oer-4e=O* - OH*' "
+                             "(scaling relations fitted to the table's surfaces)")
+    parser.add_argument("--routes", nargs="+", metavar="REACTANT:PRODUCT", default=[],
+                        help="add a best-route section per item, e.g. CO2:CH4 (network search, HER as competitor)")
     parser.add_argument("--title", default=None, help="report title")
     parser.add_argument("-o", "--output", default="report.html", help="HTML file to write (default report.html)")
     parser.set_defaults(func=run)
@@ -38,15 +44,41 @@ def _command_line(args: argparse.Namespace) -> str:
     if args.surface:
         argv += ["--surface", *args.surface]
     argv += ["--top", str(args.top)]
+    if args.volcano:
+        argv += ["--volcano", *args.volcano]
+    if args.routes:
+        argv += ["--routes", *args.routes]
     if args.title:
         argv += ["--title", args.title]
     argv += ["-o", str(args.output)]
     return "ecatlab " + " ".join(shlex.quote(a) for a in argv)
 
 
+def parse_volcano(text: str) -> tuple[str, str]:
+    """``"orr-4e=OH*"`` -> ``("orr-4e", "OH*")``; a clear error otherwise."""
+    from ecatlab.errors import ScalingError
+
+    key, sep, descriptor = text.partition("=")
+    if not sep or not key.strip() or not descriptor.strip():
+        raise ScalingError(f"--volcano {text!r}: expected KEY=DESCRIPTOR, e.g. orr-4e=OH* or 'oer-4e=O* - OH*'")
+    return key.strip(), descriptor.strip()
+
+
+def parse_route(text: str) -> tuple[str, str]:
+    """``"CO2:CH4"`` -> ``("CO2", "CH4")``; a clear error otherwise."""
+    from ecatlab.errors import PathwayError
+
+    reactant, sep, product = text.partition(":")
+    if not sep or not reactant.strip() or not product.strip():
+        raise PathwayError(f"--routes {text!r}: expected REACTANT:PRODUCT, e.g. CO2:CH4 or N2:NH3")
+    return reactant.strip(), product.strip()
+
+
 def run(args: argparse.Namespace) -> int:
     from ecatlab.report import write_report
 
+    volcanoes = [parse_volcano(v) for v in args.volcano]
+    routes = [parse_route(r) for r in args.routes]
     path = write_report(
         args.output,
         args.file,
@@ -56,6 +88,8 @@ def run(args: argparse.Namespace) -> int:
         temperature=args.temperature,
         surfaces=args.surface,
         top=args.top,
+        volcanoes=volcanoes,
+        routes=routes,
         title=args.title,
         command=_command_line(args),
     )

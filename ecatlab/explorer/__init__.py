@@ -2,11 +2,13 @@
 
 ``ecatlab.explorer.explore(energies)`` opens it. The pieces are usable on their own:
 :class:`ExplorerState` (plain state object, engine numbers, no widgets), :class:`DiagramView`
-(one Figure, artists moved in place) and :class:`Explorer` (the controls). ipywidgets and
+(one Figure, artists moved in place), :class:`~ecatlab.explorer.volcano_tab.VolcanoPanel` (the
+volcano tab) and :class:`Explorer` (the controls). ipywidgets and
 matplotlib are imported only when an explorer is built.
 """
 
-from ecatlab.explorer.model import Conditions, ExplorerState, PATHWAY_LABELS, UPHILL_TOLERANCE, pathway_options
+from ecatlab.explorer.model import (Conditions, ExplorerState, PATHWAY_LABELS, ROUTE_REACTANTS, RouteChoice, UPHILL_TOLERANCE,
+                                    pathway_options, route_key)
 from ecatlab.explorer.widget import Explorer, ExplorerSnapshot, explore, export_snapshot, readout_html, step_table_html
 
 __all__ = [
@@ -21,4 +23,7 @@ __all__ = [
     "pathway_options",
     "PATHWAY_LABELS",
     "UPHILL_TOLERANCE",
+    "RouteChoice",
+    "ROUTE_REACTANTS",
+    "route_key",
 ]

@@ -11,6 +11,13 @@ read-out. It computes no physics itself:
   ``dG_i(U) = a_i + n_i U`` (:meth:`ecatlab.che.CompiledPathway.affine`), evaluated once per change
   of pathway, surfaces, pH, scale or temperature; a potential move only evaluates ``a + n U``.
 
+"Best route" choices (CO2RR, NRR, ORR) come from :mod:`ecatlab.network`: the reaction network of
+the family's reactant is built once per table, a :class:`~ecatlab.network.NetworkAnalysis` once per
+(pH, scale, temperature), and the best route of the **focus** surface (an ordinary Pathway) is
+shown for every selected surface; surfaces lacking one of its adsorbates are reported by the
+engine (``missing_species``), not rejected. The route is searched again when the focus surface,
+pH, scale or temperature changes.
+
 All setters validate before they change anything, so a rejected value leaves the state (and what
 is drawn) at the last valid conditions.
 """
@@ -18,6 +25,7 @@ is drawn) at the last valid conditions.
 from __future__ import annotations
 
 import math
+import re
 import warnings
 from dataclasses import dataclass
 from typing import Iterable, Sequence
@@ -32,7 +40,8 @@ from ecatlab.errors import ConditionError, EcatlabWarning, PathwayError
 from ecatlab.notation import Pathway
 from ecatlab.pathways import REACTION_FAMILIES, resolve
 
-__all__ = ["ExplorerState", "Conditions", "PATHWAY_LABELS", "pathway_options", "UPHILL_TOLERANCE"]
+__all__ = ["ExplorerState", "Conditions", "RouteChoice", "PATHWAY_LABELS", "ROUTE_REACTANTS", "pathway_options", "route_key",
+           "is_route_key", "UPHILL_TOLERANCE"]
 
 #: Step free energies above this (eV) count as uphill; a determining step evaluated exactly at the
 #: limiting potential is 0 within floating-point rounding and is therefore not marked.
@@ -58,6 +67,62 @@ PATHWAY_LABELS: dict[str, str] = {
 # Order in the selector (ORR: 4e, 2e, dissociative as in the user guide); other families keep
 # the order of REACTION_FAMILIES.
 _ORDER = {"ORR": ("orr-4e", "orr-2e", "orr-4e-dissociative")}
+
+
+#: Reactant of the reaction network behind the "best route to <product>" choices, per family
+#: (OER and HER have none: the network enumerates reductions of a reactant).
+ROUTE_REACTANTS: dict[str, str] = {"ORR": "O2", "CO2RR": "CO2", "NRR": "N2"}
+_ROUTE_PREFIX = "best route:"
+
+
+def route_key(product: str) -> str:
+    """Selector value of the "best route to ``product``" choice (``product`` as the network names it, e.g. ``"CH4(g)"``)."""
+    return f"{_ROUTE_PREFIX}{product}"
+
+
+def is_route_key(value) -> bool:
+    return isinstance(value, str) and value.startswith(_ROUTE_PREFIX)
+
+
+def product_label(product: str) -> str:
+    """``"CH4(g)"`` -> ``"CH4"`` (phase dropped, for labels)."""
+    return re.sub(r"\((g|l|aq|s)\)$", "", product)
+
+
+@dataclass(frozen=True)
+class RouteChoice:
+    """The best route of the focus surface, as shown by the explorer.
+
+    Attributes
+    ----------
+    reactant, product : str
+        As the network names them (``"CO2"``, ``"CH4(g)"``).
+    focus : str
+        Surface whose best route is drawn for all selected surfaces.
+    ranked : tuple of RankedRoute
+        Best route first, then the runner-up when one has complete data
+        (:meth:`ecatlab.network.NetworkAnalysis.ranked_routes`); limiting potentials in V vs ``scale``.
+    tied : int
+        Number of other routes with the best route's limiting potential (within the network's tie tolerance).
+    scale, pH, temperature
+        Conditions of the search.
+    """
+
+    reactant: str
+    product: str
+    focus: str
+    ranked: tuple
+    tied: int
+    scale: str
+    pH: float
+    temperature: float
+
+    @property
+    def pathway(self) -> Pathway:
+        return self.ranked[0].pathway
+
+    def describe(self) -> str:
+        return f"best route to {product_label(self.product)} on {self.focus}"
 
 
 def pathway_options(family: str) -> list[tuple[str, str]]:
@@ -130,13 +195,23 @@ class ExplorerState:
         if reaction not in REACTION_FAMILIES and pathway is None:
             raise PathwayError(f"unknown reaction {reaction!r}; choose one of {', '.join(REACTION_FAMILIES)}")
         self._reaction = reaction
-        self._pathway: Pathway = resolve(pathway if pathway is not None else pathway_options(reaction)[0][1])
+        self._networks: dict = {}  # reactant -> ReactionNetwork (or the error that prevented it)
+        self._analyses: dict = {}  # (reactant, pH, scale, T) -> NetworkAnalysis (most recent few)
+        self._route: RouteChoice | None = None
         chosen = list(surfaces) if surfaces is not None else self.table.surfaces[:10]
         self._surfaces = self._check_surfaces(chosen)
+        self._focus = self._surfaces[0]
         self._conditions = Conditions(float(potential), self._check_scale(scale), float(pH), float(temperature))
         self._check_potential(self._conditions.potential)
         self._check_pH(self._conditions.pH)
-        self._rebuild(self._pathway, self._surfaces, self._conditions)
+        if is_route_key(pathway):
+            if reaction not in ROUTE_REACTANTS:
+                raise PathwayError(f"{reaction} has no best-route choices; they exist for {', '.join(ROUTE_REACTANTS)}")
+            route = self._find_route(reaction, pathway[len(_ROUTE_PREFIX):], self._focus, self._conditions)
+            self._rebuild(route.pathway, self._surfaces, self._conditions, route)
+        else:
+            self._pathway: Pathway = resolve(pathway if pathway is not None else pathway_options(reaction)[0][1])
+            self._rebuild(self._pathway, self._surfaces, self._conditions)
 
     # -- read-only views -----------------------------------------------------------------------
     @property
@@ -151,6 +226,22 @@ class ExplorerState:
     @property
     def surfaces(self) -> list[str]:
         return list(self._surfaces)
+
+    @property
+    def focus(self) -> str:
+        """Focus surface: target of "snap to limiting potential" and, for a best-route choice, the
+        surface whose best route is drawn for all selected surfaces."""
+        return self._focus
+
+    @property
+    def route(self) -> RouteChoice | None:
+        """The best-route choice shown, or ``None`` for a built-in or custom pathway."""
+        return self._route
+
+    @property
+    def selection(self) -> str:
+        """Value of the product/pathway selector: the built-in key, or ``route_key(product)``."""
+        return route_key(self._route.product) if self._route is not None else self._pathway.name
 
     @property
     def conditions(self) -> Conditions:
@@ -208,7 +299,7 @@ class ExplorerState:
             raise ConditionError(f"pH {value!r} is outside the explorer's range 0 to 14")
 
     # -- engine calls ------------------------------------------------------------------------------
-    def _rebuild(self, path: Pathway, surfaces: list[str], cond: Conditions) -> None:
+    def _rebuild(self, path: Pathway, surfaces: list[str], cond: Conditions, route: RouteChoice | None = None) -> None:
         """Ask the engine for everything that does not depend on U; commit only if it all succeeds."""
         notices: list[str] = []
         with warnings.catch_warnings(record=True) as caught:
@@ -227,7 +318,74 @@ class ExplorerState:
         self._limiting = limiting.set_index("surface", drop=False)
         self._u_eq = float(u_eq)
         self._det = limiting["determining_step_index"].to_numpy(dtype=int)
+        self._route = route
+        if route is not None:
+            self._focus = route.focus
         self.notices = notices
+
+    # -- reaction networks (best routes) ------------------------------------------------------------
+    def _network(self, reactant: str):
+        from ecatlab.network import build_network
+
+        if reactant not in self._networks:
+            try:
+                self._networks[reactant] = build_network(self.table, reactant)
+            except Exception as exc:  # noqa: BLE001 - kept and re-raised where the network is needed
+                self._networks[reactant] = exc
+        net = self._networks[reactant]
+        if isinstance(net, Exception):
+            raise net
+        return net
+
+    def route_products(self, family: str) -> list[str]:
+        """Products of the family's reaction network (``[]`` for OER/HER or when the table lacks
+        the adsorbates to build it)."""
+        reactant = ROUTE_REACTANTS.get(family)
+        if reactant is None:
+            return []
+        try:
+            return list(self._network(reactant).products)
+        except Exception:  # noqa: BLE001 - no network, no best-route choices
+            return []
+
+    def pathway_choices(self, family: str) -> list[tuple[str, str]]:
+        """(label, value) pairs of the product/pathway selector: the built-in pathways of the family,
+        then one "best route to <product>" per network product."""
+        return pathway_options(family) + [(f"best route to {product_label(p)}", route_key(p)) for p in self.route_products(family)]
+
+    def _analysis(self, reactant: str, cond: Conditions):
+        from ecatlab.network import NetworkAnalysis
+
+        key = (reactant, cond.pH, cond.scale, cond.temperature)
+        if key not in self._analyses:
+            if len(self._analyses) >= 8:
+                self._analyses.pop(next(iter(self._analyses)))
+            self._analyses[key] = NetworkAnalysis(self._network(reactant), self.table, pH=cond.pH, scale=cond.scale,
+                                                  temperature=cond.temperature)
+        return self._analyses[key]
+
+    def _find_route(self, family: str, product: str, focus: str, cond: Conditions) -> RouteChoice:
+        """Ask the network for the best route (and the runner-up) of ``focus``; PathwayError when
+        no route to ``product`` has complete data on ``focus``."""
+        reactant = ROUTE_REACTANTS.get(family)
+        if reactant is None:
+            raise PathwayError(f"{family} has no best-route choices; they exist for {', '.join(ROUTE_REACTANTS)}")
+        analysis = self._analysis(reactant, cond)
+        ranked = tuple(analysis.ranked_routes(focus, product, top=2))
+        table = analysis.best_routes(product, top=1)
+        tied = int(table.loc[table["surface"] == focus, "tied_routes"].iloc[0])
+        return RouteChoice(reactant, analysis.network.resolve_product(product), focus, ranked, tied, cond.scale, cond.pH, cond.temperature)
+
+    def _rebuild_at(self, cond: Conditions, surfaces: list[str] | None = None, focus: str | None = None) -> None:
+        """Rebuild for new conditions/surfaces/focus; a best-route choice is searched again first."""
+        surfaces = self._surfaces if surfaces is None else surfaces
+        focus = self._focus if focus is None else focus
+        if self._route is not None:
+            route = self._find_route(self._reaction, self._route.product, focus, cond)
+            self._rebuild(route.pathway, surfaces, cond, route)
+        else:
+            self._rebuild(self._pathway, surfaces, cond)
+            self._focus = focus
 
     # -- setters -----------------------------------------------------------------------------------
     def set_potential(self, value: float) -> None:
@@ -241,12 +399,12 @@ class ExplorerState:
         value = float(value)
         self._check_pH(value)
         c = self._conditions
-        self._rebuild(self._pathway, self._surfaces, Conditions(c.potential, c.scale, value, c.temperature))
+        self._rebuild_at(Conditions(c.potential, c.scale, value, c.temperature))
 
     def set_temperature(self, value: float) -> None:
         """Temperature in K; the engine rejects non-positive values (ConditionError)."""
         c = self._conditions
-        self._rebuild(self._pathway, self._surfaces, Conditions(c.potential, c.scale, c.pH, float(value)))
+        self._rebuild_at(Conditions(c.potential, c.scale, c.pH, float(value)))
 
     def set_scale(self, scale: str, keep_physical_potential: bool = True) -> None:
         """Switch RHE/SHE. By default the electrode stays at the same physical potential, so U is
@@ -259,19 +417,29 @@ class ExplorerState:
         if keep_physical_potential:
             shift = float(che.nernst_shift(c.pH, c.temperature))
             u = u - shift if sc == "SHE" else u + shift
-        self._rebuild(self._pathway, self._surfaces, Conditions(u, sc, c.pH, c.temperature))
+        self._rebuild_at(Conditions(u, sc, c.pH, c.temperature))
 
     def set_reaction(self, family: str, pathway: str | None = None) -> None:
-        """Switch the reaction family; the pathway becomes ``pathway`` or the family's first one."""
+        """Switch the reaction family; the pathway becomes ``pathway`` (a built-in key of the family or
+        a ``route_key``) or the family's first built-in one."""
         options = pathway_options(family)
         key = pathway if pathway is not None else options[0][1]
+        if is_route_key(key):
+            route = self._find_route(family, key[len(_ROUTE_PREFIX):], self._focus, self._conditions)
+            self._rebuild(route.pathway, self._surfaces, self._conditions, route)
+            self._reaction = family
+            return
         if key not in [k for _, k in options]:
             raise PathwayError(f"pathway {key!r} does not belong to {family}; choose one of {[k for _, k in options]}")
         self._rebuild(resolve(key), self._surfaces, self._conditions)
         self._reaction = family
 
     def set_pathway(self, pathway: str | Pathway) -> None:
-        """Switch the pathway (built-in key, Pathway or step text)."""
+        """Switch the pathway (built-in key, Pathway, step text, or ``route_key(product)`` for the
+        best route of the focus surface in the current family's network)."""
+        if is_route_key(pathway):
+            self.set_reaction(self._reaction, pathway)
+            return
         path = resolve(pathway)
         self._rebuild(path, self._surfaces, self._conditions)
         family = _family_of(path.name) if isinstance(pathway, str) else None
@@ -279,7 +447,19 @@ class ExplorerState:
             self._reaction = family
 
     def set_surfaces(self, surfaces: Iterable[str]) -> None:
-        self._rebuild(self._pathway, self._check_surfaces(list(surfaces)), self._conditions)
+        """Shown surfaces; the focus stays if it is still shown, else it becomes the first one."""
+        chosen = self._check_surfaces(list(surfaces))
+        self._rebuild_at(self._conditions, chosen, self._focus if self._focus in chosen else chosen[0])
+
+    def set_focus(self, surface: str) -> None:
+        """Focus surface (one of the shown surfaces). For a best-route choice the route is searched
+        again on the new focus surface; PathwayError when it has no route with complete data."""
+        surface = str(surface)
+        if surface not in self._surfaces:
+            raise ConditionError(f"focus surface {surface!r} is not shown; shown: {self._surfaces}")
+        if surface == self._focus:
+            return
+        self._rebuild_at(self._conditions, focus=surface)
 
     # -- what is shown ------------------------------------------------------------------------------
     def step_energies(self) -> np.ndarray:
@@ -365,4 +545,6 @@ class ExplorerState:
 
     def describe(self) -> str:
         """One line with pathway and conditions (written into figure captions and exports)."""
+        if self._route is not None:
+            return f"{self._route.describe()} ({self._pathway.name}): {self._conditions.describe()}"
         return f"{self._pathway.name}: {self._conditions.describe()}"

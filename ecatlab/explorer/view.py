@@ -25,6 +25,8 @@ import contextlib
 import dataclasses
 import io
 import math
+import struct
+import zlib
 
 import numpy as np
 
@@ -55,6 +57,29 @@ def _references_line(state) -> str:
     described = state.table.scheme.describe()
     refs = described.split(";")[1].strip() if ";" in described else described
     return "CHE, " + refs
+
+
+def _png_chunk(tag: bytes, data: bytes) -> bytes:
+    return struct.pack(">I", len(data)) + tag + data + struct.pack(">I", zlib.crc32(tag + data) & 0xFFFFFFFF)
+
+
+def fast_png(rgba: np.ndarray) -> bytes:
+    """Lossless PNG (8-bit RGB) of an (height, width, 4) uint8 RGBA buffer, built for speed.
+
+    The live view sends one PNG per slider move. A general encoder tries five row filters per
+    row and compresses harder; a rendered diagram (large flat areas) compresses almost as well
+    without filtering, so this writer uses filter type 0 on every row and zlib level 1: about
+    half the time of Pillow's ``compress_level=1`` at a similar size. The alpha channel is
+    dropped (the figure background is opaque). Format: PNG specification, ISO/IEC 15948 (IHDR
+    colour type 2, bit depth 8; IDAT zlib stream; CRC-32 per chunk).
+    """
+    rgb = np.asarray(rgba)[:, :, :3]
+    height, width = rgb.shape[:2]
+    raw = np.zeros((height, 3 * width + 1), dtype=np.uint8)  # first byte of each row: filter 0
+    raw[:, 1:] = rgb.reshape(height, 3 * width)
+    header = struct.pack(">IIBBBBB", width, height, 8, 2, 0, 0, 0)
+    return (b"\x89PNG\r\n\x1a\n" + _png_chunk(b"IHDR", header) + _png_chunk(b"IDAT", zlib.compress(raw.tobytes(), 1))
+            + _png_chunk(b"IEND", b""))
 
 
 def _in_kernel() -> bool:
@@ -171,7 +196,7 @@ class DiagramView:
         self._heading = heading
         self._dynamic = [self._conditions]
         for d in self.drawings:
-            self._dynamic += [d.highlight_line, *d.connector_lines, *d.level_lines]
+            self._dynamic += [d.highlight_line, d.connector_line, d.level_line]
         for artist in self._dynamic:
             artist.set_animated(True)
         self._background = None
@@ -255,14 +280,9 @@ class DiagramView:
         self.renders += 1
 
     def _encode_png(self) -> bytes:
-        from PIL import Image
-
+        """The canvas buffer as PNG bytes (see :func:`fast_png`)."""
         canvas = self.figure.canvas
-        width, height = canvas.get_width_height(physical=True)
-        image = Image.frombuffer("RGBA", (width, height), bytes(canvas.buffer_rgba()), "raw", "RGBA", 0, 1).convert("RGB")
-        buf = io.BytesIO()
-        image.save(buf, format="png", compress_level=1)
-        self.last_png = buf.getvalue()
+        self.last_png = fast_png(np.asarray(canvas.buffer_rgba()))
         return self.last_png
 
     def render_png(self) -> bytes:

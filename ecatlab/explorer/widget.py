@@ -14,6 +14,7 @@ import html
 import math
 import os
 import pathlib
+import re
 import warnings
 from dataclasses import dataclass
 from typing import Callable, Iterable
@@ -21,7 +22,7 @@ from typing import Callable, Iterable
 import numpy as np
 
 from ecatlab.constants import STANDARD_TEMPERATURE
-from ecatlab.explorer.model import UPHILL_TOLERANCE, ExplorerState, pathway_options
+from ecatlab.explorer.model import UPHILL_TOLERANCE, ExplorerState, pathway_options, product_label
 from ecatlab.explorer.view import FIGURE_HEIGHT_PX, DiagramView, render_mode
 from ecatlab.pathways import REACTION_FAMILIES
 
@@ -93,8 +94,36 @@ def step_table_html(state: ExplorerState) -> str:
     )
 
 
+def route_html(state: ExplorerState) -> str:
+    """HTML lines on the best-route choice: route of the focus surface with its U_L, the runner-up's
+    U_L, ties, and the surfaces that lack an adsorbate of the route (empty for other pathways)."""
+    route = state.route
+    if route is None:
+        return ""
+    best = route.ranked[0]
+    lines = [
+        f"<b>{html.escape(route.describe())}</b> (network search {html.escape(route.reactant)} → "
+        f"{html.escape(route.product)}), drawn for every selected surface: U<sub>L</sub> = {_num(best.limiting_potential)} V vs "
+        f"{html.escape(route.scale)} on {html.escape(route.focus)}, determining step {html.escape(best.determining_step)}"
+        + (f"; {route.tied} other route(s) reach the same U<sub>L</sub>" if route.tied else "")
+        + ".<br>route: " + html.escape("; ".join(s.equation for s in best.pathway.steps))
+    ]
+    if len(route.ranked) > 1:
+        second = route.ranked[1]
+        lines.append(f"runner-up on {html.escape(route.focus)}: U<sub>L</sub> = {_num(second.limiting_potential)} V vs "
+                     f"{html.escape(route.scale)} ({html.escape(second.pathway.name)})")
+    missing = state.readout()["missing_species"]
+    lacking = [f"{s} (missing {m})" for s, m in missing.items() if m]
+    if lacking:
+        lines.append("no value on this route for: " + html.escape(", ".join(lacking))
+                     + "; choose one of them as focus to see its own best route")
+    return '<div class="ecatlab-route" style="font-size:12px;margin-top:2px">' + "<br>".join(lines) + "</div>"
+
+
 def readout_html(state: ExplorerState, focus: str | None = None) -> str:
-    """HTML read-out per surface: U_L (V vs scale), overpotential (V), determining step, uphill now."""
+    """HTML read-out per surface: U_L (V vs scale), overpotential (V), determining step, uphill now
+    (and, for a best-route choice, the route, its runner-up and surfaces lacking data)."""
+    focus = state.focus if focus is None else focus
     r = state.readout()
     u_eq = state.equilibrium_potential()
     rows = []
@@ -116,7 +145,7 @@ def readout_html(state: ExplorerState, focus: str | None = None) -> str:
         f"U<sub>eq</sub> = {_num(u_eq)} V vs {state.scale} at pH {state.pH:g}, {state.temperature:g} K</caption>"
         f"<thead><tr><th>surface</th><th>U<sub>L</sub> (V vs {state.scale})</th><th>\N{GREEK SMALL LETTER ETA} (V)</th>"
         "<th>potential-determining step</th><th>uphill now</th></tr></thead>"
-        f'<tbody>{"".join(rows)}</tbody></table></div>'
+        f'<tbody>{"".join(rows)}</tbody></table>{route_html(state)}</div>'
     )
 
 
@@ -125,7 +154,11 @@ def readout_html(state: ExplorerState, focus: str | None = None) -> str:
 # ------------------------------------------------------------------------------------------------
 def _stem(state: ExplorerState) -> str:
     u = f"{state.potential:+.3f}".replace(".", "p").replace("+", "plus").replace("-", "minus")
-    return f"explorer_{state.pathway.name}_U{u}V{state.scale}_pH{state.pH:g}".replace(".", "p")
+    name = state.pathway.name
+    if state.route is not None:  # route names hold "->", "*", ">" and spaces: not for file names
+        name = f"best-route-{product_label(state.route.product)}-{state.route.focus}"
+    name = re.sub(r"[^A-Za-z0-9_-]+", "_", name)[:60]
+    return f"explorer_{name}_U{u}V{state.scale}_pH{state.pH:g}".replace(".", "p")
 
 
 def export_snapshot(state: ExplorerState, figure, folder: str | os.PathLike) -> list[pathlib.Path]:
@@ -147,7 +180,8 @@ def export_snapshot(state: ExplorerState, figure, folder: str | os.PathLike) -> 
     stem = _stem(state)
     paths = save_figure(figure, folder / stem, formats=("png", "svg"), dpi=200)
     header = [
-        f"# ecatlab explorer export: pathway {state.pathway.name}",
+        f"# ecatlab explorer export: pathway {state.pathway.name}"
+        + (f" ({state.route.describe()}, network search)" if state.route is not None else ""),
         f"# conditions: {state.conditions.describe()}",
         f"# references: {state.table.scheme.describe()}",
         f"# energy source: {state.table.source}",
@@ -258,11 +292,11 @@ class Explorer:
         self.temperature = w.FloatText(value=s.temperature, description="T (K)", step=1.0, style=wide, layout=w.Layout(width="150px"))
         self.reaction = w.ToggleButtons(options=list(REACTION_FAMILIES), value=s.reaction, description="reaction",
                                         style={"button_width": "64px", **wide})
-        self.pathway = w.Dropdown(options=self._pathway_choices(s.reaction), value=s.pathway.name, description="product / pathway",
+        self.pathway = w.Dropdown(options=self._pathway_choices(s.reaction), value=s.selection, description="product / pathway",
                                   style=wide, layout=w.Layout(width="420px"))
         self.surfaces = w.SelectMultiple(options=s.table.surfaces, value=tuple(s.surfaces), description="surfaces",
                                          rows=min(8, len(s.table.surfaces)), style=wide, layout=w.Layout(width="230px"))
-        self.focus = w.Dropdown(options=s.surfaces, value=s.surfaces[0], description="focus", style=wide, layout=w.Layout(width="200px"))
+        self.focus = w.Dropdown(options=s.surfaces, value=s.focus, description="focus", style=wide, layout=w.Layout(width="200px"))
         self.snap_limiting_button = w.Button(description="snap to limiting potential", icon="crosshairs", layout=w.Layout(width="220px"),
                                              tooltip="set U to the focus surface's limiting potential")
         self.snap_equilibrium_button = w.Button(description="snap to equilibrium potential", icon="balance-scale",
@@ -275,10 +309,14 @@ class Explorer:
         self.error = w.HTML()
 
         self.view = DiagramView(render_mode(render), footnote=self._footnote())
+        from ecatlab.explorer.volcano_tab import VolcanoPanel
+
+        self.volcano = VolcanoPanel(error_line=self.error)
+        self.volcano.sync_options(s.reaction, s.pathway)
         self._wire()
-        self.view.rebuild(s, self._heading())
-        self._refresh()
-        self.widget = w.VBox(
+        self._shown_heading = self._heading()
+        self.view.rebuild(s, self._shown_heading)
+        self.main = w.VBox(
             [
                 w.HBox([self.reaction, self.pathway]),
                 w.HBox([self.potential, self.potential_entry, self.scale]),
@@ -291,6 +329,11 @@ class Explorer:
                 self.status,
             ]
         )
+        # the diagram tab comes first and is the one shown; the volcano tab is drawn when opened
+        self.tabs = w.Tab(children=[self.main, self.volcano.widget], titles=("diagram", "volcano"), selected_index=0)
+        self.tabs.observe(self._guard(self._on_tab), names="selected_index")
+        self.widget = self.tabs
+        self._refresh()
 
     # -- presentation -----------------------------------------------------------------------------
     def _repr_mimebundle_(self, **kwargs):
@@ -302,6 +345,8 @@ class Explorer:
 
     def _heading(self) -> str:
         s = self.state
+        if s.route is not None:
+            return f"{s.reaction}: {s.route.describe()}, drawn for every selected surface"
         label = dict((k, lab) for lab, k in pathway_options(s.reaction)).get(s.pathway.name, s.pathway.name) if s.reaction in REACTION_FAMILIES else s.pathway.name
         return f"{s.reaction}: {label}  [{s.pathway.name}]"
 
@@ -309,9 +354,8 @@ class Explorer:
         refs = self.state.table.scheme.describe().split(";")[1].strip()
         return f"energies: {self.state.table.source}; {refs}.\n{CAUTION}"
 
-    @staticmethod
-    def _pathway_choices(family: str) -> list[tuple[str, str]]:
-        return pathway_options(family)
+    def _pathway_choices(self, family: str) -> list[tuple[str, str]]:
+        return self.state.pathway_choices(family)
 
     # -- wiring -------------------------------------------------------------------------------------
     def _guard(self, func: Callable) -> Callable:
@@ -319,13 +363,12 @@ class Explorer:
         def wrapper(*args, **kwargs):
             if self._quiet:
                 return None
+            self.error.value = ""  # cleared first: a callback may report a problem of its own (volcano)
             try:
-                result = func(*args, **kwargs)
+                return func(*args, **kwargs)
             except Exception as exc:  # shown to the user, never swallowed silently
                 self._show_error(exc, func.__name__)
                 return None
-            self.error.value = ""
-            return result
 
         return wrapper
 
@@ -339,6 +382,7 @@ class Explorer:
         self.pathway.observe(self._guard(self._on_pathway), names="value")
         self.surfaces.observe(self._guard(self._on_surfaces), names="value")
         self.focus.observe(self._guard(self._on_focus), names="value")
+        self.volcano.descriptor.observe(self._guard(self._on_descriptor), names="value")
         self.snap_limiting_button.on_click(self._guard(lambda _b: self.snap_to_limiting()))
         self.snap_equilibrium_button.on_click(self._guard(lambda _b: self.snap_to_equilibrium()))
         self.export_button.on_click(self._guard(lambda _b: self.export()))
@@ -350,6 +394,17 @@ class Explorer:
             '<div style="color:#9B1C1C;background:#FDECEC;padding:3px 6px;border-left:4px solid #9B1C1C">'
             f"<b>{html.escape(type(exc).__name__)}</b>: {html.escape(str(exc))}<br>"
             f"<small>Not applied; the outputs still show {html.escape(self.state.describe())}.</small></div>"
+        )
+
+    def _show_volcano_error(self, exc: Exception) -> None:
+        """A volcano that cannot be drawn (e.g. an adsorbate without a scaling relation): the
+        diagram tab's inputs were applied; only the volcano tab is empty."""
+        self.errors.append(exc)
+        self.error.value = (
+            '<div style="color:#9B1C1C;background:#FDECEC;padding:3px 6px;border-left:4px solid #9B1C1C">'
+            f"<b>{html.escape(type(exc).__name__)}</b> (volcano tab): {html.escape(str(exc))}<br>"
+            "<small>The volcano tab shows no volcano for these inputs; choose another descriptor or pathway. "
+            f"The diagram tab is unaffected and shows {html.escape(self.state.describe())}.</small></div>"
         )
 
     def _note_clamp(self, name: str, requested: float, value: float) -> None:
@@ -376,13 +431,13 @@ class Explorer:
             choices = self._pathway_choices(s.reaction)
             if list(self.pathway.options) != choices:
                 self.pathway.options = choices
-            if s.pathway.name in [k for _, k in choices]:
-                self.pathway.value = s.pathway.name
+            if s.selection in [k for _, k in choices]:
+                self.pathway.value = s.selection
             self.surfaces.value = tuple(s.surfaces)
             if list(self.focus.options) != s.surfaces:
-                keep = self.focus.value if self.focus.value in s.surfaces else s.surfaces[0]
                 self.focus.options = s.surfaces
-                self.focus.value = keep
+            self.focus.value = s.focus
+            self.volcano.sync_options(s.reaction, s.pathway)
         finally:
             self._quiet -= 1
 
@@ -402,14 +457,25 @@ class Explorer:
     def _refresh(self, structure: bool = False) -> None:
         """Bring every output to the state: figure (artists moved), step table, read-out, status."""
         s = self.state
-        if structure:
-            self.view.rebuild(s, self._heading())
+        heading = self._heading()
+        # a best-route search may have changed the route (focus, pH, scale, T): rebuild then too
+        if structure or heading != self._shown_heading or self.view.data is None or self.view.data.pathway != s.pathway:
+            self._shown_heading = heading
+            self.view.rebuild(s, heading)
         self.view.update(s)
         self.view.present()
         self.table.value = step_table_html(s)
         self.readout.value = readout_html(s, self.focus.value)
         notes = list(s.notices) + self._messages[-3:]
         self.status.value = "".join(f'<div style="color:#7A5A00">\N{WARNING SIGN} {html.escape(n)}</div>' for n in notes)
+        self._refresh_volcano()
+
+    def _refresh_volcano(self) -> None:
+        """Redraw the volcano if its tab is visible and its inputs changed (never for a potential move)."""
+        try:
+            self.volcano.refresh(self.state, self.volcano.descriptor.value, visible=self.tabs.selected_index == 1)
+        except Exception as exc:  # the volcano tab shows a placeholder; the reason goes to the error line
+            self._show_volcano_error(exc)
 
     # -- callbacks (thin) ------------------------------------------------------------------------------
     def _on_potential(self, change) -> None:
@@ -456,6 +522,7 @@ class Explorer:
         if change["new"] is None:
             return
         self.state.set_pathway(change["new"])
+        self._sync_controls()
         self._refresh(structure=True)
 
     def _on_surfaces(self, change) -> None:
@@ -464,12 +531,25 @@ class Explorer:
         self._refresh(structure=True)
 
     def _on_focus(self, change) -> None:
-        self.readout.value = readout_html(self.state, change["new"])
+        if change["new"] is None:
+            return
+        self.state.set_focus(change["new"])
+        if self.state.route is not None:  # the best route of the new focus surface is drawn for all
+            self._sync_controls()
+            self._refresh()
+        else:
+            self.readout.value = readout_html(self.state, self.state.focus)
+
+    def _on_tab(self, change) -> None:
+        self._refresh_volcano()
+
+    def _on_descriptor(self, change) -> None:
+        self._refresh_volcano()
 
     # -- actions behind the buttons -------------------------------------------------------------------
     def snap_to_limiting(self, surface: str | None = None) -> float:
         """Set U to the engine's limiting potential of ``surface`` (default: the focus surface); returns it (V)."""
-        target = self.state.limiting_potential_of(surface or self.focus.value)
+        target = self.state.limiting_potential_of(surface or self.state.focus)
         self._set_potential_control(target)
         return target
 

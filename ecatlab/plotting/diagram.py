@@ -34,8 +34,10 @@ removed, so it is cheap enough for a slider. ``levels`` must have the same numbe
 drawing; ``highlight_index`` is the **0-based step index** (``determining_step_index - 1`` of
 :func:`ecatlab.che.limiting_potentials`), ``None`` hides the highlight; ``title`` replaces the
 Axes title when given; ``rescale`` refits the y-limits to the new levels. The handle's attributes
-(``level_lines``, ``connector_lines``, ``state_texts``, ``value_texts``, ``highlight_line``,
-``highlight_text``) are public for tests and custom styling.
+(``level_line``, ``connector_line``, ``state_texts``, ``value_texts``, ``highlight_line``,
+``highlight_text``) are public for tests and custom styling; a series is three Line2D artists
+(all its level bars in one, NaN-separated; all its connectors in one; the highlight), read one
+bar or connector back with ``level_xy(k)`` / ``connector_xy(i)``.
 
 All plotting functions take an optional ``ax=`` and return the Axes (single panel) or Figure
 (several panels); ``style=`` picks a preset of :mod:`ecatlab.plotting.style`.
@@ -407,13 +409,20 @@ def _wrap_phrases(parts: Sequence[str], width_pt: float, font_pt: float, sep: st
 class LevelDrawing:
     """Artists of one drawn series, updatable in place (see the module docstring).
 
+    Every series is drawn with three Line2D artists whatever its number of states (a slider
+    redraw of ten surfaces paints ~30 lines instead of ~180): all level bars in one Line2D, all
+    connectors in another (segments separated by NaN, so the dash pattern restarts on every
+    segment in Agg, SVG and PDF), and the highlight stroke.
+
     Attributes
     ----------
     ax : Axes
-    level_lines : list of Line2D
-        One flat bar per state; ``get_ydata()[0]`` is the state's free energy (eV).
-    connector_lines : list of Line2D
-        One dotted connector per step.
+    level_line : Line2D
+        All flat bars of the series: state *k* is the segment ``x = k - h .. k + h`` at its free
+        energy (eV); use :meth:`level_xy` or :attr:`levels` to read one back.
+    connector_line : Line2D
+        All dotted connectors: step *i* joins the right end of level *i* to the left end of level
+        *i + 1*; see :meth:`connector_xy`.
     state_texts : list of Text
         State labels riding on the levels (empty when the labels are on the x axis).
     value_texts : list of Text
@@ -424,32 +433,48 @@ class LevelDrawing:
         The determining step's free energy (single-series drawings).
     highlight_index : int or None
         0-based index of the highlighted step, ``None`` if hidden.
+    n_states : int
     """
 
     ax: object
-    level_lines: list
-    connector_lines: list
+    level_line: object
+    connector_line: object
     state_texts: list
     value_texts: list
     highlight_line: object
     highlight_text: object | None
     highlight_index: int | None = None
+    n_states: int = 0
+
+    @property
+    def artists(self) -> list:
+        """The artists that :meth:`update` moves (highlight, connectors, levels, texts)."""
+        return [self.highlight_line, self.connector_line, self.level_line, *self.state_texts, *self.value_texts]
 
     @property
     def levels(self) -> np.ndarray:
-        """Current drawn levels (eV), read back from the artists."""
-        return np.array([line.get_ydata()[0] for line in self.level_lines], dtype=float)
+        """Current drawn levels (eV), read back from the level artist (one value per state)."""
+        return np.asarray(self.level_line.get_ydata(), dtype=float)[0::3].copy()
+
+    def level_xy(self, k: int) -> tuple[np.ndarray, np.ndarray]:
+        """x and y (data units) of the bar of state ``k`` (0-based) as drawn."""
+        x, y = (np.asarray(v, dtype=float) for v in self.level_line.get_data())
+        return x[3 * k : 3 * k + 2], y[3 * k : 3 * k + 2]
+
+    def connector_xy(self, i: int) -> tuple[np.ndarray, np.ndarray]:
+        """x and y (data units) of the connector of step ``i`` (0-based) as drawn."""
+        if not 0 <= i < self.n_states - 1:
+            raise IndexError(f"step index {i} out of range 0..{self.n_states - 2}")
+        x, y = (np.asarray(v, dtype=float) for v in self.connector_line.get_data())
+        return x[3 * i : 3 * i + 2], y[3 * i : 3 * i + 2]
 
     def update(self, levels, highlight_index: int | None = None, title: str | None = None, rescale: bool = True) -> None:
         """Move the artists to new levels (eV) and highlight step ``highlight_index`` (0-based)."""
         y = np.asarray(levels, dtype=float)
-        if y.shape != (len(self.level_lines),):
-            raise ValueError(f"update needs {len(self.level_lines)} levels (one per state), got shape {y.shape}")
-        h = LEVEL_HALF_WIDTH
-        for k, line in enumerate(self.level_lines):
-            line.set_data([k - h, k + h], [y[k], y[k]])
-        for i, line in enumerate(self.connector_lines):
-            line.set_data([i + h, i + 1 - h], [y[i], y[i + 1]])
+        if y.shape != (self.n_states,):
+            raise ValueError(f"update needs {self.n_states} levels (one per state), got shape {y.shape}")
+        self.level_line.set_data(*_level_segments(y))
+        self.connector_line.set_data(*_connector_segments(y))
         for k, text in enumerate(self.state_texts):
             text.set_position((k, y[k]))
         for k, text in enumerate(self.value_texts):
@@ -463,7 +488,7 @@ class LevelDrawing:
 
     def _place_highlight(self, y: np.ndarray, index: int | None) -> None:
         h = LEVEL_HALF_WIDTH
-        valid = index is not None and 0 <= int(index) < len(self.connector_lines)
+        valid = index is not None and 0 <= int(index) < self.n_states - 1
         self.highlight_index = int(index) if valid else None
         if not valid:
             self.highlight_line.set_visible(False)
@@ -476,6 +501,26 @@ class LevelDrawing:
         if self.highlight_text is not None:
             self.highlight_text.set_text(_highlight_caption(i, y[i + 1] - y[i]))
             self.highlight_text.set_visible(True)
+
+
+def _level_segments(y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """x, y of all level bars in one polyline: (k - h, k + h, NaN) per state."""
+    n = len(y)
+    k = np.arange(n, dtype=float)
+    h = LEVEL_HALF_WIDTH
+    xs = np.column_stack([k - h, k + h, np.full(n, np.nan)]).ravel()
+    ys = np.column_stack([y, y, np.full(n, np.nan)]).ravel()
+    return xs, ys
+
+
+def _connector_segments(y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """x, y of all connectors in one polyline: (i + h, i + 1 - h, NaN) per step."""
+    m = max(len(y) - 1, 0)
+    i = np.arange(m, dtype=float)
+    h = LEVEL_HALF_WIDTH
+    xs = np.column_stack([i + h, i + 1 - h, np.full(m, np.nan)]).ravel()
+    ys = np.column_stack([y[:-1], y[1:], np.full(m, np.nan)]).ravel() if m else np.zeros(0)
+    return xs, ys
 
 
 def _highlight_caption(index: int, dG: float) -> str:
@@ -544,17 +589,11 @@ def draw_levels(
     n = len(y)
     highlight_line = ax.plot([0, 1], [0, 0], color=HIGHLIGHT, linewidth=p.level_width_pt * 3.2, alpha=0.75,
                              solid_capstyle="round", zorder=1, gid="ecatlab-highlight")[0]
-    connectors = [
-        ax.plot([i + h, i + 1 - h], [y[i], y[i + 1]], color=color, linewidth=p.connector_width_pt,
-                linestyle=(0, (1, 1.6)), zorder=2, gid="ecatlab-connector")[0]
-        for i in range(n - 1)
-    ]
-    level_lines = []
-    for k in range(n):
-        line = ax.plot([k - h, k + h], [y[k], y[k]], color=color, linewidth=p.level_width_pt, linestyle=linestyle,
-                       solid_capstyle="round", dash_capstyle="round", zorder=3, gid="ecatlab-level",
-                       label=label if k == 0 else None)[0]
-        level_lines.append(line)
+    connector_line = ax.plot(*_connector_segments(y), color=color, linewidth=p.connector_width_pt,
+                             linestyle=(0, (1, 1.6)), zorder=2, gid="ecatlab-connector")[0]
+    level_line = ax.plot(*_level_segments(y), color=color, linewidth=p.level_width_pt, linestyle=linestyle,
+                         solid_capstyle="round", dash_capstyle="round", zorder=3, gid="ecatlab-level",
+                         label=label)[0]
     above = offset_copy(ax.transData, fig=fig, x=0, y=2.5, units="points")
     below = offset_copy(ax.transData, fig=fig, x=0, y=-2.5, units="points")
     state_texts = []
@@ -568,7 +607,7 @@ def draw_levels(
             value_texts.append(ax.text(k, y[k], _fmt(y[k]), transform=below, ha="center", va="top",
                                        fontsize=value_fontsize or (p.font_pt - 1.5), color=color, zorder=5,
                                        gid="ecatlab-level-value"))
-    drawing = LevelDrawing(ax, level_lines, connectors, state_texts, value_texts, highlight_line, None)
+    drawing = LevelDrawing(ax, level_line, connector_line, state_texts, value_texts, highlight_line, None, None, n)
     drawing._place_highlight(y, highlight_index)
     return drawing
 
@@ -720,7 +759,8 @@ def _draw_data(data: DiagramData, *, ax, style, annotate, highlight, title, cond
             drawings.append(
                 draw_levels(
                     ax, s.levels, data.state_labels,
-                    color=PALETTE[j % len(PALETTE)], linestyle=DASHES[j % len(DASHES)],
+                    # past the palette length the dash pattern shifts, so no two series look alike
+                    color=PALETTE[j % len(PALETTE)], linestyle=DASHES[(j + j // len(PALETTE)) % len(DASHES)],
                     label=s.legend_label(show_surface, show_potential) or None,
                     highlight_index=s.determining_index if (highlight and s.determining_index >= 0) else None,
                     annotate=annotate, labels_on_levels=on_levels, value_fontsize=value_font, style=p,

@@ -165,6 +165,11 @@ def jupyterlab(tmp_path: pathlib.Path, artifacts_dir: pathlib.Path):
         IPYTHONDIR=str(home / "ipython"),
         PYTHONUNBUFFERED="1",
     )
+    # JupyterLab asks on first start whether to fetch its news feed from the internet; answer "never"
+    # in this throw-away settings folder (the toast would otherwise cover part of the notebook)
+    news = home / "lab-settings" / "@jupyterlab" / "apputils-extension" / "notification.jupyterlab-settings"
+    news.parent.mkdir(parents=True)
+    news.write_text(json.dumps({"fetchNews": "false"}), encoding="utf-8")
     port, token = _free_port(), secrets.token_hex(24)
     cmd = [
         sys.executable, "-m", "jupyter", "lab", "--no-browser",

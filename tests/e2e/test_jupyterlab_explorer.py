@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import hashlib
 import math
+import os
 import re
 import time
 
@@ -35,7 +36,9 @@ CHROMIUM_ARGS = [
     "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
     "--no-first-run", "--disable-sync", "--disable-quic", "--disable-dev-shm-usage",
 ]
-VIEWPORT = {"width": 1400, "height": 1000}
+# 1400 px wide (a laptop screen with JupyterLab's file browser open); tall, so that the whole explorer
+# fits into the notebook's scroll area and its screenshots are complete
+VIEWPORT = {"width": 1400, "height": 1900}
 # timeouts, ms
 PAGE_LOAD_MS = 60_000
 RUN_ALL_MS = 120_000
@@ -45,18 +48,24 @@ ACTION_MS = 10_000
 # regular expression and the reason it is allowed; anything not listed fails the test.
 ALLOWED_CONSOLE_ERRORS: list[tuple[str, str]] = []
 
-WIDGET_OUTPUT = '.jp-OutputArea-output[data-mime-type="application/vnd.jupyter.widget-view+json"]'
+# the output area holding the explorer as live widgets (the static fallback is a plain text/html
+# output without .jupyter-widgets)
+EXPLORER = ".jp-OutputArea-output:has(.jupyter-widgets .ecatlab-readout)"
 MINUS = "\N{MINUS SIGN}"
 
 # Everything the test reads from the explorer in one round trip (the explorer root is the argument).
 _SNAPSHOT_JS = """
 (root) => {
-  const text = (el) => (el ? el.innerText.trim() : null);
+  const text = (el) => (el ? el.textContent.trim() : null);
   const rows = Array.from(root.querySelectorAll('.ecatlab-readout tbody tr')).map(
-      (tr) => Array.from(tr.children).map((c) => c.innerText.trim()));
-  const img = root.querySelector('.widget-output img');
-  const entry = root.querySelector('.widget-text input[type="number"]');
-  const handle = root.querySelector('.noUi-handle');
+      (tr) => Array.from(tr.children).map((c) => c.textContent.trim()));
+  // controls of a hidden tab (display: none) have no boxes; take the shown ones
+  const shown = (el) => el.getClientRects().length > 0;
+  const img = Array.from(root.querySelectorAll('.widget-output img')).find(shown) || null;
+  const slider = Array.from(root.querySelectorAll('.widget-hslider')).find(
+      (s) => shown(s) && (s.querySelector('.widget-label') || {}).textContent.trim() === 'U (V)');
+  const entry = slider ? slider.parentElement.querySelector('.widget-text input[type="number"]') : null;
+  const handle = slider ? slider.querySelector('.noUi-handle') : null;
   return {
     caption: text(root.querySelector('.ecatlab-readout caption')),
     rows: rows,
@@ -65,7 +74,7 @@ _SNAPSHOT_JS = """
     entry: entry ? entry.value : null,
     aria_value: handle ? handle.getAttribute('aria-valuenow') : null,
     error_line: text(Array.from(root.querySelectorAll('.widget-html-content')).find(
-        (el) => el.innerText.includes('Not applied;')) || null),
+        (el) => el.textContent.includes('Not applied;')) || null),
   };
 }
 """
@@ -103,12 +112,17 @@ def _engine_uphill_now(pathway: str, potential: float, surfaces: list[str]) -> d
 
 
 def _check_readout(snapshot: dict, pathway: str) -> None:
-    """Every read-out row equals the engine: U_L (V vs RHE) and the potential-determining step."""
+    """No error in the explorer's error line, and every read-out row equals the engine: U_L (V vs RHE),
+    the potential-determining step and the uphill chemical steps."""
     engine = _engine_readout(pathway)
+    assert not snapshot["error_line"], f"the explorer shows an error: {snapshot['error_line']}"
     assert snapshot["rows"], "the explorer shows no read-out rows"
     for row in snapshot["rows"]:
-        surface, u_l, _eta, determining = row[0], row[1], row[2], row[3].splitlines()[0]
+        surface, u_l, _eta = row[0], row[1], row[2]
+        determining, _, chemical = (part.strip() for part in row[3].partition("chemical uphill:"))
         expected = engine.loc[surface]
+        assert chemical == (expected["uphill_chemical_steps"] or ""), (
+            f"{pathway} {surface}: page shows uphill chemical steps {chemical!r}, engine {expected['uphill_chemical_steps']!r}")
         assert u_l == _fmt(float(expected["limiting_potential"])), (
             f"{pathway} {surface}: page shows U_L {u_l}, engine {expected['limiting_potential']:+.6f} V vs RHE")
         want = f"{int(expected['determining_step_index'])}: {expected['determining_step']}"
@@ -130,6 +144,61 @@ def _pathway_in(snapshot: dict) -> str:
     match = re.match(r"\s*([a-z0-9-]+) \(", snapshot["caption"] or "")
     assert match, f"read-out caption not understood: {snapshot['caption']!r}"
     return match.group(1)
+
+
+# Boxes of the explorer's controls and outputs (CSS px, relative to the explorer), for the layout check.
+_LAYOUT_JS = """
+(root) => {
+  const r0 = root.getBoundingClientRect();
+  const box = (el) => { const r = el.getBoundingClientRect();
+    return {x: Math.round(r.left - r0.left), y: Math.round(r.top - r0.top), w: Math.round(r.width), h: Math.round(r.height)}; };
+  const items = [];
+  root.querySelectorAll('.widget-inline-hbox, .widget-output, button.jupyter-button, .widget-label, input, select').forEach((el) => {
+    if (el.closest('.widget-html-content') || el.getBoundingClientRect().width === 0) return;
+    const label = el.querySelector(':scope > .widget-label');
+    items.push({kind: el.tagName.toLowerCase() + '.' + Array.from(el.classList).filter((c) => c.startsWith('widget-')).join('.'),
+                text: ((label && label.textContent) || el.textContent || el.value || '').trim().slice(0, 40),
+                box: box(el), overflowing: el.scrollWidth > el.clientWidth + 1});
+  });
+  return {explorer: {w: Math.round(r0.width), h: Math.round(r0.height), scrollWidth: root.scrollWidth}, items: items};
+}
+"""
+
+
+def _layout_report(explorer, folder, name: str) -> list[str]:
+    """Write the explorer's control boxes to ``name`` and return readable layout problems:
+    controls reaching past the explorer's right edge, leaf controls overlapping each other,
+    and labels/buttons whose text does not fit."""
+    import json
+
+    layout = explorer.evaluate(_LAYOUT_JS)
+    (folder / name).write_text(json.dumps(layout, indent=1), encoding="utf-8")
+    width = layout["explorer"]["w"]
+    problems = []
+    leaves = [it for it in layout["items"] if it["kind"].split(".")[0] in ("button", "input", "select", "label")]
+    for it in layout["items"]:
+        b = it["box"]
+        if b["x"] + b["w"] > width + 1:
+            problems.append(f"{it['kind']} {it['text']!r} reaches {b['x'] + b['w']} px, past the explorer's {width} px")
+    for it in leaves:
+        if it["overflowing"] and it["kind"].startswith(("button", "label")):
+            problems.append(f"{it['kind']} {it['text']!r} is too narrow for its text ({it['box']['w']} px)")
+    for i, a in enumerate(leaves):
+        for b_ in leaves[i + 1:]:
+            A, B = a["box"], b_["box"]
+            if A["x"] < B["x"] + B["w"] - 1 and B["x"] < A["x"] + A["w"] - 1 and A["y"] < B["y"] + B["h"] - 1 and B["y"] < A["y"] + A["h"] - 1:
+                problems.append(f"{a['kind']} {a['text']!r} overlaps {b_['kind']} {b_['text']!r}")
+    for p in problems:
+        print(f"[e2e] layout: {p}")
+    return problems
+
+
+def _wait_for_pathway(explorer, key: str) -> None:
+    """Wait (bounded) until the read-out caption names pathway ``key``."""
+    explorer.page.wait_for_function(
+        "([root, key]) => ((root.querySelector('.ecatlab-readout caption') || {}).textContent || '').trim().startsWith(key + ' (')",
+        arg=[explorer.element_handle(), key], timeout=UPDATE_MS,
+    )
 
 
 def _pixel_hash(locator) -> str:
@@ -168,17 +237,53 @@ def _check_cell_outputs(page) -> None:
     texts = page.locator(
         '.jp-OutputArea-output[data-mime-type="application/vnd.jupyter.stderr"], '
         '.jp-OutputArea-output[data-mime-type="application/vnd.jupyter.error"]'
-    ).all_inner_texts()
+    ).all_text_contents()
     for text in texts:
         print(f"[e2e] stderr output in the notebook: {text[:500]!r}")
     bad = [t for t in texts if re.search(r"Traceback|Error|Exception", t)]
     assert not bad, "kernel error output in the notebook:\n" + "\n---\n".join(t[:3000] for t in bad)
-    tracebacks = [t for t in page.locator(".jp-RenderedText").all_inner_texts() if "Traceback" in t]
+    tracebacks = [t for t in page.locator(".jp-RenderedText").all_text_contents() if "Traceback" in t]
     assert not tracebacks, "Traceback in the notebook:\n" + "\n---\n".join(t[:3000] for t in tracebacks)
 
 
 def _wait_kernel_idle(page, timeout_ms: int) -> None:
     page.wait_for_selector('.jp-Notebook-ExecutionIndicator[data-status="idle"]', state="attached", timeout=timeout_ms)
+
+
+_KERNEL_STATE_JS = """
+() => {
+  const dialog = document.querySelector('.jp-Dialog');
+  const header = dialog ? (dialog.querySelector('.jp-Dialog-header') || {innerText: ''}).innerText.trim() : null;
+  const status = Array.from(document.querySelectorAll('.jp-StatusBar-TextItem')).map((e) => e.innerText.trim())
+      .find((t) => t.includes(' | ')) || '';
+  return {dialog: header, status: status};
+}
+"""
+
+
+def _wait_for_kernel_answering_dialogs(page, timeout_ms: int) -> None:
+    """Wait until the notebook's kernel is idle. JupyterLab may ask which kernel to start (even when the
+    notebook names one): answer it the way a user would, with the proposed "Python 3" kernel."""
+    deadline = time.monotonic() + timeout_ms / 1000
+    idle_since = None
+    while time.monotonic() < deadline:
+        state = page.evaluate(_KERNEL_STATE_JS)
+        if state["dialog"] == "Select Kernel":
+            print("[e2e] JupyterLab asks for a kernel; choosing the proposed one")
+            dialog = page.locator(".jp-Dialog")
+            assert "Python 3" in dialog.locator("select").input_value() + dialog.inner_text(), dialog.inner_text()
+            dialog.get_by_role("button", name="Select", exact=True).click()
+            idle_since = None
+        elif state["dialog"]:
+            raise AssertionError(f"unexpected JupyterLab dialog: {state['dialog']!r}")
+        elif state["status"].endswith("| Idle") and not state["status"].startswith("No Kernel"):
+            idle_since = idle_since or time.monotonic()
+            if time.monotonic() - idle_since >= 1.0:  # no late dialog
+                return
+        else:
+            idle_since = None
+        page.wait_for_timeout(200)
+    raise AssertionError(f"the kernel did not become idle within {timeout_ms} ms (last state {state})")
 
 
 def _settle(page, explorer, timeout_ms: int = UPDATE_MS, quiet_s: float = 1.2) -> dict:
@@ -234,7 +339,7 @@ def _drive(page, errors: PageErrors, lab, artifacts) -> None:
     # 1. open the notebook; wait for JupyterLab, the notebook and an idle kernel
     page.goto(lab.url(f"lab/tree/{NOTEBOOK}", reset=""), timeout=PAGE_LOAD_MS)
     page.wait_for_selector(".jp-NotebookPanel .jp-Notebook .jp-Cell", timeout=PAGE_LOAD_MS)
-    _wait_kernel_idle(page, PAGE_LOAD_MS)
+    _wait_for_kernel_answering_dialogs(page, PAGE_LOAD_MS)
 
     # 2. run all cells from the menu, as a user would
     page.locator(".lm-MenuBar-itemLabel", has_text=re.compile(r"^Run$")).click()
@@ -243,32 +348,34 @@ def _drive(page, errors: PageErrors, lab, artifacts) -> None:
     page.wait_for_function(
         """(n) => {
              const prompts = Array.from(document.querySelectorAll('.jp-Notebook .jp-CodeCell .jp-InputArea-prompt'));
-             return prompts.length === n && prompts.every((p) => /\\[\\d+\\]/.test(p.innerText));
+             return prompts.length === n && prompts.every((p) => /\\[\\d+\\]/.test(p.textContent));
            }""",
         arg=n_code, timeout=RUN_ALL_MS,
     )
     _wait_kernel_idle(page, RUN_ALL_MS)
 
     # 3. the explorer: a live widget (not the static fallback) with image, controls and read-out
-    explorer = page.locator(f"{WIDGET_OUTPUT}:has(.ecatlab-readout)")
+    explorer = page.locator(EXPLORER)
     explorer.wait_for(state="visible", timeout=UPDATE_MS)
     assert explorer.count() == 1, "expected exactly one explorer widget in the quickstart"
     assert page.locator(".ecatlab-explorer-static").count() == 0, (
         "the static fallback is shown: the JupyterLab widget front end did not render the explorer")
-    explorer.locator(".widget-output img").wait_for(state="visible", timeout=UPDATE_MS)
+    explorer.scroll_into_view_if_needed(timeout=ACTION_MS)
+    image = explorer.locator(".widget-output img").filter(visible=True).first
+    image.wait_for(state="visible", timeout=UPDATE_MS)
     before = _settle(page, explorer)
     assert before["img_size"] and before["img_size"][0] > 300, f"diagram image missing or tiny: {before['img_size']}"
     pathway = _pathway_in(before)
     assert pathway == "orr-4e", before["caption"]
     _check_readout(before, pathway)
     u_before = _check_uphill_now(before, pathway)
-    image = explorer.locator(".widget-output img")
     hash_before = _pixel_hash(image)
     _save(explorer, artifacts, "01_explorer_before.png")
+    _layout_report(explorer, artifacts, "01_explorer_layout.json")
     _check_cell_outputs(page)
 
     # 4a. drag the potential slider to the right (~ +1 V), then one arrow key step
-    slider = explorer.locator(".widget-hslider", has=page.locator("label", has_text="U (V)"))
+    slider = explorer.locator(".widget-hslider", has=page.locator("label", has_text="U (V)")).filter(visible=True)
     handle = slider.locator(".noUi-handle")
     handle.scroll_into_view_if_needed()
     box = handle.bounding_box()
@@ -280,10 +387,12 @@ def _drive(page, errors: PageErrors, lab, artifacts) -> None:
     page.mouse.down()
     page.mouse.move(x + dx, y, steps=12)
     page.mouse.up()
+    u_drag = float(_settle(page, explorer)["entry"])
     handle.focus()
-    page.keyboard.press("ArrowRight")
+    page.keyboard.press("ArrowRight")  # one slider step (0.01 V) up
     after_u = _settle(page, explorer)
     u_after = float(after_u["entry"])
+    assert abs(u_after - (u_drag + 0.01)) < 1e-6, f"ArrowRight moved U from {u_drag} to {u_after}, expected one 0.01 V step"
     print(f"[e2e] potential moved from {u_before:+.3f} to {u_after:+.3f} V vs RHE")
     assert u_after > u_before + 0.5, f"the drag did not move the potential enough: {u_before} -> {u_after}"
     assert after_u["img_src"] != before["img_src"], "the diagram image did not change after the potential moved"
@@ -296,10 +405,7 @@ def _drive(page, errors: PageErrors, lab, artifacts) -> None:
     # 4b. pick another reaction with its toggle button
     hash_u = _pixel_hash(image)
     explorer.get_by_role("button", name="OER", exact=True).click()
-    page.wait_for_function(
-        "(root) => (root.querySelector('.ecatlab-readout caption') || {innerText: ''}).innerText.startsWith('oer-')",
-        arg=explorer.element_handle(), timeout=UPDATE_MS,
-    )
+    _wait_for_pathway(explorer, "oer-4e")
     after_r = _settle(page, explorer)
     new_pathway = _pathway_in(after_r)
     assert new_pathway == "oer-4e", after_r["caption"]
@@ -310,8 +416,27 @@ def _drive(page, errors: PageErrors, lab, artifacts) -> None:
     assert _pixel_hash(image) != hash_u, "the diagram's pixels did not change after the reaction changed"
     _save(explorer, artifacts, "03_explorer_after_reaction.png")
 
+    # 4c. another reaction, then another product in the pathway drop-down (a pathway with a chemical step)
+    explorer.get_by_role("button", name="HER", exact=True).click()
+    _wait_for_pathway(explorer, "her-volmer-heyrovsky")
+    _settle(page, explorer)
+    hash_r = _pixel_hash(image)
+    dropdown = explorer.locator(".widget-dropdown", has=page.locator("label", has_text="product / pathway")).filter(visible=True).locator("select")
+    dropdown.select_option(label="Volmer-Tafel")
+    _wait_for_pathway(explorer, "her-volmer-tafel")
+    after_p = _settle(page, explorer)
+    _check_readout(after_p, "her-volmer-tafel")
+    _check_uphill_now(after_p, "her-volmer-tafel")
+    assert any("chemical uphill:" in r[3] for r in after_p["rows"]), "no uphill chemical (Tafel) step shown"
+    assert _pixel_hash(image) != hash_r, "the diagram's pixels did not change after the pathway changed"
+    _save(explorer, artifacts, "04_explorer_after_pathway.png")
+    layout_problems = _layout_report(explorer, artifacts, "04_explorer_layout.json")
+    overlaps = [p for p in layout_problems if " overlaps " in p]
+    assert not overlaps, "explorer controls overlap:\n" + "\n".join(overlaps)
+    if layout_problems and os.environ.get("ECATLAB_E2E_STRICT_LAYOUT") == "1":
+        raise AssertionError("explorer layout problems:\n" + "\n".join(layout_problems))
+
     # 5. no errors anywhere
-    assert not after_r["error_line"], f"the explorer shows an error: {after_r['error_line']}"
     _check_cell_outputs(page)
     errors.check()
     page.screenshot(path=str(artifacts / "00_jupyterlab_page.png"), timeout=ACTION_MS)
