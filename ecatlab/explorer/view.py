@@ -132,8 +132,8 @@ class DiagramView:
                     import ipywidgets as w
 
                     self.widget = w.Output(layout=w.Layout(height=f"{FIGURE_HEIGHT_PX}px", overflow="hidden"))
-            self.ax = self.figure.add_axes((0.07, 0.19, 0.70, 0.66))
-            self._footnote = self.figure.text(0.005, 0.005, footnote, fontsize=p.font_pt - 3, color="#555555", ha="left",
+            self.ax = self.figure.add_axes((0.07, 0.19, 0.67, 0.66))
+            self._footnote = self.figure.text(0.005, 0.005, footnote, fontsize=p.font_pt - 1, color="#555555", ha="left", wrap=True,
                                               va="bottom", linespacing=1.3)
         self.drawings: list = []
         self._dynamic: list = []

@@ -86,12 +86,17 @@ def step_table_html(state: ExplorerState) -> str:
         f"\N{BLACK DIAMOND} chemical step uphill (potential-independent)."
     )
     return (
-        f'<div class="ecatlab-step-table"><table style="border-collapse:collapse;font-size:12px">'
-        f'<caption style="caption-side:top;text-align:left">{caption}</caption>'
+        f'<div class="ecatlab-step-table" style="line-height:1.35"><div style="font-size:12px;margin-bottom:2px">{caption}</div>'
+        f'<table style="border-collapse:collapse;font-size:12px">'
         f'<thead><tr><th style="padding:1px 6px;text-align:left">surface</th>{head}</tr></thead>'
         f'<tbody>{"".join(rows)}</tbody></table>'
         f'<ol style="font-size:11px;margin:2px 0 0 0;padding-left:0;list-style:none">{legend}</ol></div>'
     )
+
+
+def _shown(potential: float) -> float:
+    """The potential as displayed in the exact-value box (rounded to 0.1 mV; the state keeps full precision)."""
+    return round(float(potential), 4)
 
 
 def route_html(state: ExplorerState) -> str:
@@ -140,7 +145,7 @@ def readout_html(state: ExplorerState, focus: str | None = None) -> str:
             f'<td style="padding:1px 6px">{html.escape(now)}</td></tr>'
         )
     return (
-        '<div class="ecatlab-readout"><table style="border-collapse:collapse;font-size:12px">'
+        '<div class="ecatlab-readout" style="line-height:1.35"><table style="border-collapse:collapse;font-size:12px">'
         f'<caption style="caption-side:top;text-align:left">{html.escape(state.pathway.name)} ({html.escape(state.pathway.direction)}); '
         f"U<sub>eq</sub> = {_num(u_eq)} V vs {state.scale} at pH {state.pH:g}, {state.temperature:g} K</caption>"
         f"<thead><tr><th>surface</th><th>U<sub>L</sub> (V vs {state.scale})</th><th>\N{GREEK SMALL LETTER ETA} (V)</th>"
@@ -285,13 +290,13 @@ class Explorer:
         wide = {"description_width": "initial"}
         self.potential = Slider(value=s.potential, min=lo, max=hi, step=0.01, description="U (V)", readout=False,
                                 continuous_update=True, on_clamp=self._note_clamp, style=wide, layout=w.Layout(width="340px"))
-        self.potential_entry = w.FloatText(value=s.potential, step=0.01, layout=w.Layout(width="90px"), tooltip="exact potential, V")
+        self.potential_entry = w.FloatText(value=_shown(s.potential), step=0.01, layout=w.Layout(width="110px"), tooltip="exact potential, V")
         self.scale = w.ToggleButtons(options=["RHE", "SHE"], value=s.scale, description="vs", style={"button_width": "52px", **wide})
         self.pH = Slider(value=s.pH, min=0.0, max=14.0, step=0.1, description="pH", readout=True, readout_format=".1f",
                          continuous_update=True, on_clamp=self._note_clamp, style=wide, layout=w.Layout(width="300px"))
         self.temperature = w.FloatText(value=s.temperature, description="T (K)", step=1.0, style=wide, layout=w.Layout(width="150px"))
         self.reaction = w.ToggleButtons(options=list(REACTION_FAMILIES), value=s.reaction, description="reaction",
-                                        style={"button_width": "64px", **wide})
+                                        style={"button_width": "76px", **wide})
         self.pathway = w.Dropdown(options=self._pathway_choices(s.reaction), value=s.selection, description="product / pathway",
                                   style=wide, layout=w.Layout(width="420px"))
         self.surfaces = w.SelectMultiple(options=s.table.surfaces, value=tuple(s.surfaces), description="surfaces",
@@ -322,7 +327,7 @@ class Explorer:
                 w.HBox([self.potential, self.potential_entry, self.scale]),
                 w.HBox([self.pH, self.temperature, self.snap_limiting_button, self.snap_equilibrium_button]),
                 self.error,
-                w.HBox([self.view.widget, w.VBox([self.surfaces, self.focus])]),
+                w.HBox([self.view.widget, w.VBox([self.surfaces, self.focus])], layout=w.Layout(flex_flow="row wrap")),
                 self.readout,
                 self.table,
                 w.HBox([self.export_folder, self.export_button]),
@@ -422,7 +427,7 @@ class Explorer:
         try:
             self._ensure_range(s.potential)
             self.potential.value = s.potential
-            self.potential_entry.value = s.potential
+            self.potential_entry.value = _shown(s.potential)
             self.pH.value = s.pH
             self.scale.value = s.scale
             self.temperature.value = s.temperature
@@ -482,7 +487,7 @@ class Explorer:
         self.state.set_potential(change["new"])
         self._quiet += 1
         try:
-            self.potential_entry.value = self.state.potential
+            self.potential_entry.value = _shown(self.state.potential)
         finally:
             self._quiet -= 1
         self._refresh()

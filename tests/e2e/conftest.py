@@ -105,6 +105,8 @@ def artifacts_dir() -> pathlib.Path:
     """Folder for screenshots and the server log: $ECATLAB_E2E_ARTIFACTS or <repo>/test-artifacts/e2e."""
     folder = pathlib.Path(os.environ.get("ECATLAB_E2E_ARTIFACTS") or ROOT / "test-artifacts" / "e2e").resolve()
     folder.mkdir(parents=True, exist_ok=True)
+    for stale in ("failure_page.png", "failure_page.html"):  # from an earlier failed run
+        (folder / stale).unlink(missing_ok=True)
     _log(f"artifacts (screenshots, JupyterLab log): {folder}")
     return folder
 
