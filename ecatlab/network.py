@@ -889,6 +889,31 @@ class NetworkAnalysis:
         routes, cost, *_ = self._route_arrays(product)
         return pd.DataFrame(cost, index=pd.Index(self.surfaces, name="surface"), columns=[self.network.route_name(r) for r in routes])
 
+    def best_route_arrays(self, product: str) -> tuple[np.ndarray, np.ndarray, np.ndarray, tuple[str, ...]]:
+        """Best route to ``product`` on every surface as arrays (vectorised, no tables).
+
+        Returns
+        -------
+        onset : ndarray (n_surfaces,)
+            Limiting potential of the best route, V on the scale; NaN where no route has data.
+        max_chemical_dG : ndarray (n_surfaces,)
+            Largest chemical-step dG of the best route, eV; NaN if it has none (or no route).
+        route : ndarray of int (n_surfaces,)
+            Index of the best route into ``names``; -1 where no route has data.
+        names : tuple of str
+            Route names (:meth:`ReactionNetwork.route_name`) in enumeration order.
+
+        Same ordering and tie-breaking as :meth:`best_routes` (rank 1).
+        """
+        key = self.network.resolve_product(product)
+        routes, cost, _det, chem, order, _ = self._route_arrays(key)
+        rows = np.arange(len(self.surfaces))
+        r = order[:, 0]
+        c = cost[rows, r]
+        ok = np.isfinite(c)
+        names = tuple(self.network.route_name(x) for x in routes)
+        return np.where(ok, -c, np.nan), np.where(ok, chem[rows, r], np.nan), np.where(ok, r, -1), names
+
     def best_routes(self, product: str, top: int = 1) -> pd.DataFrame:
         """Best route (and ``top - 1`` runners-up) to ``product`` on every surface.
 

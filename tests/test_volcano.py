@@ -153,7 +153,7 @@ def test_apex_at_range_edge_is_flagged():
 
 
 def test_selectivity_map_matches_engine(demo):
-    s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 31))
+    s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 31), basis="pathways")
     assert s.onset.shape == (5, 31, 41)
     assert s.product_labels == ("CO", "HCOOH", "CH4", "CH3OH", "H2")
     assert s.area_fractions().sum() == pytest.approx(1.0)

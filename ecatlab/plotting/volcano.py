@@ -132,10 +132,14 @@ def plot_volcano(curve: VolcanoCurve, ax=None, style: str = "notebook", show_ste
     return ax
 
 
-def _region_labels(ax, X, Y, regions: np.ndarray, labels, fontsize, points=None):
-    """Label each region near its centroid, preferring cells away from surface points and the frame.
+def _region_labels(ax, X, Y, regions: np.ndarray, labels, fontsize, points=None, min_share: float = 0.015):
+    """Label each connected region near its centroid, preferring cells away from surface points and the frame.
 
-    Returns the label boxes (display coordinates) so point labels can avoid them."""
+    Every connected patch holding at least ``min_share`` of the cells gets a label (a product
+    winning in two separate places is labelled twice). Returns the label boxes (display
+    coordinates) so point labels can avoid them."""
+    from scipy import ndimage
+
     sx = (X - X.min()) / (np.ptp(X) or 1.0)
     sy = (Y - Y.min()) / (np.ptp(Y) or 1.0)
     ok = (sx > 0.15) & (sx < 0.85) & (sy > 0.07) & (sy < 0.93)
@@ -147,15 +151,19 @@ def _region_labels(ax, X, Y, regions: np.ndarray, labels, fontsize, points=None)
     boxes = []
     renderer = ax.figure.canvas.get_renderer()
     for k in np.unique(regions):
-        mask = regions == k
-        cx, cy = sx[mask].mean(), sy[mask].mean()
-        d = (sx - cx) ** 2 + (sy - cy) ** 2
-        pref = mask & ok
-        d = np.where(pref if pref.any() else mask, d, np.inf)
-        i = np.unravel_index(np.argmin(d), d.shape)
-        t = ax.text(X[i], Y[i], labels[k], ha="center", va="center", fontsize=fontsize, color="#111111",
-                    bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.75), zorder=4)
-        boxes.append(t.get_window_extent(renderer))
+        parts, count = ndimage.label(regions == k)
+        sizes = np.bincount(parts.ravel(), minlength=count + 1)[1:]
+        keep = [j + 1 for j in np.argsort(-sizes) if sizes[j] >= min_share * regions.size] or [int(np.argmax(sizes)) + 1]
+        for part in keep:
+            mask = parts == part
+            cx, cy = sx[mask].mean(), sy[mask].mean()
+            d = (sx - cx) ** 2 + (sy - cy) ** 2
+            pref = mask & ok
+            d = np.where(pref if pref.any() else mask, d, np.inf)
+            i = np.unravel_index(np.argmin(d), d.shape)
+            t = ax.text(X[i], Y[i], labels[k], ha="center", va="center", fontsize=fontsize, color="#111111",
+                        bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.75), zorder=4)
+            boxes.append(t.get_window_extent(renderer))
     return boxes
 
 
@@ -216,11 +224,25 @@ def _region_edges(ax, x, y, regions):
         ax.contour(x, y, (regions == k).astype(float), levels=[0.5], colors="#333333", linewidths=0.6, zorder=2)
 
 
-def _region_colors(n):
+def _region_colors(n, names=None):
+    """Pale region colours; with ``names`` (product labels) each product keeps its colour in every map."""
     from matplotlib.colors import ListedColormap, to_rgba
 
-    cols = [to_rgba(PALETTE[k % len(PALETTE)], 0.45) for k in range(n)]
-    return ListedColormap(cols)
+    if names is None:
+        idx = list(range(n))
+    else:
+        idx, used = [], set(_PRODUCT_COLOUR.values())
+        spare = [k for k in range(len(PALETTE)) if k not in used]
+        for name in names:
+            if name in _PRODUCT_COLOUR:
+                idx.append(_PRODUCT_COLOUR[name])
+            else:
+                idx.append(spare.pop(0) if spare else len(idx))
+    return ListedColormap([to_rgba(PALETTE[k % len(PALETTE)], 0.45) for k in idx])
+
+
+#: Fixed palette slot per product label, so a product has one colour in every selectivity map.
+_PRODUCT_COLOUR = {"CO": 0, "HCOOH": 1, "CH4": 2, "CH3OH": 3, "H2": 4, "CH2O": 5}
 
 
 def plot_determining_steps(amap: ActivityMap, ax=None, style: str = "notebook", label_surfaces: bool = True, caption: bool = True):
@@ -259,7 +281,7 @@ def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook",
             _, ax = figure(p)
         n = len(smap.products)
         X, Y = np.meshgrid(smap.x, smap.y)
-        ax.pcolormesh(smap.x, smap.y, smap.winner, cmap=_region_colors(n), vmin=-0.5, vmax=n - 0.5, shading="nearest", zorder=1, rasterized=True)
+        ax.pcolormesh(smap.x, smap.y, smap.winner, cmap=_region_colors(n, smap.product_labels), vmin=-0.5, vmax=n - 0.5, shading="nearest", zorder=1, rasterized=True)
         _region_edges(ax, smap.x, smap.y, smap.winner)
         if margin_lines and np.nanmax(smap.margin) > 0.1:
             import matplotlib as mpl
@@ -277,11 +299,39 @@ def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook",
         _surfaces_on_map(ax, smap.surfaces, p, label_surfaces, avoid=boxes)
         ax.set_xlabel(f"{smap.descriptors[0].label()} / eV")
         ax.set_ylabel(f"{smap.descriptors[1].label()} / eV")
-        ax.set_title(f"Selectivity: least negative onset potential; {_conditions_text(smap.conditions)}")
+        basis = "best network routes" if smap.basis == "network" else "built-in pathways"
+        ax.set_title(f"Selectivity: least negative onset potential ({basis})\n{_conditions_text(smap.conditions)}")
         if caption:
-            _caption(ax, p, f"Compared: {', '.join(smap.products)}. Hatched: winner leads the runner-up by less than 0.1 V.\n"
-                            f"Chemical steps (e.g. CO desorption) not included. {_short_refs(smap.conditions)}.\n{_CAUTION}")
+            width = int(ax.figure.get_figwidth() * 72 / (0.52 * (p.font_pt - 2)))
+            _caption(ax, p, _selectivity_caption(smap, width))
     return ax
+
+
+def _selectivity_caption(smap: SelectivityMap, width: int = 110) -> str:
+    """Caption: basis (and what it left out), reading aid, references, caution; lines wrapped at ``width`` characters."""
+    import textwrap
+
+    if smap.basis == "network":
+        net = smap.network
+        her = smap.conditions.get("her")
+        first = (f"Basis: best route to each product in the {net.reactant} reaction network ({len(net.states)} states, {len(net.edges)} steps), "
+                 f"searched at every grid point" + (f"; H2: {her}." if her else "."))
+        if smap.excluded:
+            first += f"\nLeft out (no scaling relation): {', '.join(smap.excluded)}."
+        ties = "exact ties go to the alphabetically first product"
+    else:
+        first = f"Basis: built-in pathways {', '.join(smap.products)}."
+        why = smap.conditions.get("network_unavailable", "")
+        if why:
+            first += f"\nNetwork routes not used: {_shorten(why, 110)}"
+        ties = "exact ties go to the product listed first"
+    text = (f"{first}\nHatched: winner leads the runner-up by less than 0.1 V ({ties}).\n"
+            f"Chemical steps (e.g. CO desorption) not in the onset. {_short_refs(smap.conditions)}.\n{_CAUTION}")
+    return "\n".join(w for line in text.split("\n") for w in textwrap.wrap(line, max(40, width)))
+
+
+def _shorten(text: str, n: int) -> str:
+    return text if len(text) <= n else text[: n - 1].rstrip() + "…"
 
 
 def volcano_figure(energies, pathway, descriptor, ax=None, style: str = "notebook", **kwargs):
