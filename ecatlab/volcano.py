@@ -436,7 +436,15 @@ class SelectivityMap:
     margin : ndarray (len(y), len(x))
         Onset of the winner minus the runner-up, V (small margins: no clear selectivity).
     max_chemical_dG : ndarray (n_products, len(y), len(x))
-        Largest chemical-step dG of each product pathway (eV; NaN if none), e.g. CO desorption.
+        Largest chemical-step dG of each product's best route or pathway (eV; NaN if it has no
+        chemical step or the product is unavailable there), e.g. CO desorption.
+    winner_max_chemical_dG : ndarray (len(y), len(x))
+        Largest chemical-step dG (eV) of the winning product's route (network basis: the best
+        route of :meth:`ecatlab.network.NetworkAnalysis.best_route_arrays`; pathways basis: the
+        engine's ``max_chemical_dG`` of the winning pathway); NaN if that route has no chemical
+        step. A positive value is an uphill, potential-independent step the onset ignores: e.g.
+        CO* -> * + CO(g) uphill by 0.8 eV means CO stays bound (poisons the surface) rather than
+        being released, whatever the potential. Computed from ``max_chemical_dG`` and ``winner``.
     surfaces : DataFrame
         ``surface``, ``x``, ``y`` and the exact onset of every product (V), ``winner``, ``margin``
         (network basis: the network search on the surface's own energies; pathways basis:
@@ -481,13 +489,19 @@ class SelectivityMap:
     routes: np.ndarray | None = field(default=None, repr=False)
     network: object = field(default=None, repr=False)
     excluded: tuple[str, ...] = ()
+    winner_max_chemical_dG: np.ndarray = field(init=False, repr=False)
+
+    def __post_init__(self):
+        chem = np.take_along_axis(np.asarray(self.max_chemical_dG, dtype=float), np.asarray(self.winner)[None], axis=0)[0]
+        object.__setattr__(self, "winner_max_chemical_dG", chem)
 
     def winner_route(self) -> np.ndarray:
         """Name of the best route (or pathway) to the winning product at each point, (len(y), len(x))."""
         return np.take_along_axis(self.routes, self.winner[None], axis=0)[0]
 
     def to_frame(self) -> pd.DataFrame:
-        """Long table: x, y (eV), onset per product (V), winner (product label), margin (V), winner_route."""
+        """Long table: x, y (eV), onset per product (V), winner (product label), margin (V), winner_route,
+        winner_max_chemical_dG (eV, largest chemical-step dG of the winner's route; NaN if none)."""
         X, Y = np.meshgrid(self.x, self.y)
         frame = pd.DataFrame({"x": X.ravel(), "y": Y.ravel()})
         for k, lab in enumerate(self.product_labels):
@@ -496,6 +510,7 @@ class SelectivityMap:
         frame["margin"] = self.margin.ravel()
         if self.routes is not None:
             frame["winner_route"] = self.winner_route().ravel()
+        frame["winner_max_chemical_dG"] = self.winner_max_chemical_dG.ravel()
         frame.attrs.update(self.conditions)
         return frame
 
@@ -812,6 +827,7 @@ class VolcanoAnalysis:
         basis: str = "auto",
         reactant: str = "CO2",
         network_options: Mapping | None = None,
+        chemical_limit: float | None = None,
     ) -> SelectivityMap:
         """Product with the least negative onset potential over two descriptors (see :class:`SelectivityMap`).
 
@@ -841,17 +857,26 @@ class VolcanoAnalysis:
         network_options : mapping, optional
             Passed to :func:`ecatlab.network.build_network`: ``allow``, ``forbid``, ``molecules``,
             ``sites``, ``coupling``.
+        chemical_limit : float, optional
+            eV. Routes (network basis: passed to
+            :class:`ecatlab.network.NetworkAnalysis` ``chemical_limit``) or pathways (pathways
+            basis; also the HER pathway on either basis) with a chemical step whose dG exceeds
+            this are unavailable: at such a point that route/pathway does not compete (its onset,
+            ``max_chemical_dG`` and route are NaN/NaN/"" when no other route to the product is
+            left). ``None`` (default) keeps every route; chemical steps then never enter the
+            onset and are only reported (:attr:`SelectivityMap.winner_max_chemical_dG`).
         """
         descs = self._two(descriptors)
+        chemical_limit = _check_chemical_limit(chemical_limit)
         basis = str(basis).lower()
         if basis not in SELECTIVITY_BASES:
             raise ScalingError(f"basis must be one of {', '.join(SELECTIVITY_BASES)}; got {basis!r}")
         if network_options and basis == "pathways":
             raise ScalingError("network_options apply to basis='network' or 'auto' only")
         if basis == "pathways":
-            return self._selectivity_pathways(descs, products, x, y, points, "built-in pathways (chosen with basis='pathways')")
+            return self._selectivity_pathways(descs, products, x, y, points, "built-in pathways (chosen with basis='pathways')", chemical_limit)
         if basis == "auto" and products is not None and any(_is_pathway_spec(p) for p in products):
-            return self._selectivity_pathways(descs, products, x, y, points, "built-in pathways (products given as pathways)")
+            return self._selectivity_pathways(descs, products, x, y, points, "built-in pathways (products given as pathways)", chemical_limit)
         plan = self._network_plan(descs, products, reactant, network_options)
         if basis == "network" and plan["excluded"] and not plan["problem"]:
             why = "; ".join(f"{a}: {w}" for a, w in plan["excluded_why"].items())
@@ -864,12 +889,12 @@ class VolcanoAnalysis:
             if basis == "network":
                 raise ScalingError(f"selectivity map on network routes: {plan['problem']}")
             try:
-                smap = self._selectivity_pathways(descs, None, x, y, points, f"built-in pathways (network routes not possible: {plan['problem']})")
+                smap = self._selectivity_pathways(descs, None, x, y, points, f"built-in pathways (network routes not possible: {plan['problem']})", chemical_limit)
             except ScalingError as exc:
                 raise ScalingError(f"selectivity map: network routes not possible ({plan['problem']}); built-in pathways not possible either ({exc})") from None
             smap.conditions["network_unavailable"] = plan["problem"]
             return smap
-        return self._selectivity_network(descs, plan, x, y, points)
+        return self._selectivity_network(descs, plan, x, y, points, chemical_limit)
 
     # -- selectivity: built-in pathways ---------------------------------------------------------------
     def _grid_points_for(self, descs, x, y, points, default):
@@ -881,7 +906,7 @@ class VolcanoAnalysis:
         X, Y = np.meshgrid(gx, gy)
         return gx, gy, X, np.column_stack([X.ravel(), Y.ravel()]), points_frames
 
-    def _selectivity_pathways(self, descs, products, x, y, points, note: str) -> SelectivityMap:
+    def _selectivity_pathways(self, descs, products, x, y, points, note: str, chemical_limit: float | None = None) -> SelectivityMap:
         paths = [resolve(p) for p in (DEFAULT_PRODUCTS if products is None else products)]
         if len(paths) < 2:
             raise ScalingError("a selectivity map compares at least two product pathways")
@@ -894,6 +919,7 @@ class VolcanoAnalysis:
         onsets, chems = [], []
         for p in paths:
             _, u_l, _, mc = self._evaluate(p, space, D)
+            u_l, mc = _apply_chemical_limit(u_l, mc, chemical_limit)
             onsets.append(u_l.reshape(X.shape))
             chems.append(mc.reshape(X.shape))
         onset = np.stack(onsets)
@@ -904,16 +930,27 @@ class VolcanoAnalysis:
             names = list(points_frames.index)
             lp = che.limiting_potentials(self.table, paths, self.pH, self.scale, self.temperature, surfaces=names, on_missing="report")
             wide = lp.pivot(index="surface", columns="pathway", values="limiting_potential").reindex(index=names, columns=[p.name for p in paths])
-            surf = self._surface_winners(names, points_frames, labels, wide.to_numpy(dtype=float), None)
+            values = wide.to_numpy(dtype=float)
+            blocked = np.zeros(values.shape, dtype=bool)
+            if chemical_limit is not None:
+                chem = lp.pivot(index="surface", columns="pathway", values="max_chemical_dG").reindex(index=names, columns=[p.name for p in paths])
+                blocked = np.isfinite(values) & (chem.to_numpy(dtype=float) > chemical_limit)
+            surf = self._surface_winners(names, points_frames, labels, np.where(blocked, np.nan, values), None, blocked)
         routes = np.broadcast_to(np.array([p.name for p in paths], dtype=object)[:, None, None], onset.shape).copy()
+        routes[np.isnan(onset)] = ""
         cond = self._selectivity_conditions([p.name for p in paths], "pathways", note,
-                                            "winner = least negative limiting (onset) potential of each pathway; ties to the product listed first; chemical steps not included")
+                                            "winner = least negative limiting (onset) potential of each pathway; ties to the product listed first; chemical steps not included"
+                                            + _limit_rule(chemical_limit), chemical_limit)
         return SelectivityMap(descs, gx, gy, tuple(p.name for p in paths), labels, onset, winner, margin, np.stack(chems), surf, space.relations, cond,
                               space=space, basis="pathways", basis_note=note, routes=routes)
 
-    def _surface_winners(self, names, points_frames, labels, values: np.ndarray, tie_keys) -> pd.DataFrame:
-        """Computed surfaces with every product's exact onset (columns ``onset <label>``), winner and margin."""
-        complete = np.isfinite(values).all(axis=1)
+    def _surface_winners(self, names, points_frames, labels, values: np.ndarray, tie_keys, blocked=None) -> pd.DataFrame:
+        """Computed surfaces with every product's exact onset (columns ``onset <label>``), winner and margin.
+
+        Surfaces missing data for a product are dropped; ``blocked`` (bool, like ``values``) marks
+        onsets that are NaN because of ``chemical_limit`` (kept: that product just does not compete).
+        """
+        complete = (np.isfinite(values) | (False if blocked is None else blocked)).all(axis=1)
         surf = pd.DataFrame({"surface": names, "x": points_frames.iloc[:, 0].to_numpy(dtype=float), "y": points_frames.iloc[:, 1].to_numpy(dtype=float)})
         for k, lab in enumerate(labels):
             surf[f"onset {lab}"] = values[:, k]
@@ -924,8 +961,9 @@ class VolcanoAnalysis:
             surf["margin"] = mg
         return surf
 
-    def _selectivity_conditions(self, products, basis, note, rule) -> dict:
+    def _selectivity_conditions(self, products, basis, note, rule, chemical_limit=None) -> dict:
         return {
+            "chemical_limit": chemical_limit,
             "products": list(products),
             "basis": basis,
             "basis_note": note,
@@ -1006,7 +1044,7 @@ class VolcanoAnalysis:
         return {"network": net, "full": full, "carbon": carbon, "her": her, "excluded": tuple(excluded), "excluded_why": excluded,
                 "notes": notes, "problem": problem, "strict_problem": bool(excluded)}
 
-    def _selectivity_network(self, descs, plan, x, y, points) -> SelectivityMap:
+    def _selectivity_network(self, descs, plan, x, y, points, chemical_limit: float | None = None) -> SelectivityMap:
         from ecatlab.network import NetworkAnalysis
 
         net = plan["network"]
@@ -1016,7 +1054,7 @@ class VolcanoAnalysis:
         gx, gy, X, D, points_frames = self._grid_points_for(descs, x, y, points, 101)
         wide = space.frame(D, index=[f"grid-{i}" for i in range(len(D))])
         synthetic = EnergyTable.from_matrix(wide, scheme=self.scheme, source="synthetic surfaces on the descriptor grid (scaling relations)")
-        an = NetworkAnalysis(net, synthetic, pH=self.pH, scale=self.scale, temperature=self.temperature)
+        an = NetworkAnalysis(net, synthetic, pH=self.pH, scale=self.scale, temperature=self.temperature, chemical_limit=chemical_limit)
         onsets, chems, routes = [], [], []
         for p in carbon:
             u, mc, r, names = an.best_route_arrays(p)
@@ -1027,9 +1065,10 @@ class VolcanoAnalysis:
         if her:
             hp = resolve(her)
             _, u, _, mc = self._evaluate(hp, space, D)
+            u, mc = _apply_chemical_limit(u, mc, chemical_limit)
             onsets.append(u)
             chems.append(mc)
-            routes.append(np.full(len(D), hp.name, dtype=object))
+            routes.append(np.where(np.isnan(u), "", hp.name).astype(object))
             keys.append("H2(g)")
         shape = (len(keys),) + X.shape
         onset = np.stack(onsets).reshape(shape)
@@ -1038,18 +1077,29 @@ class VolcanoAnalysis:
         surf = pd.DataFrame(columns=["surface", "x", "y"])
         if self.table is not None and len(points_frames):
             names = list(points_frames.index)
-            real = NetworkAnalysis(net, self.table, pH=self.pH, scale=self.scale, temperature=self.temperature, surfaces=names)
+            real = NetworkAnalysis(net, self.table, pH=self.pH, scale=self.scale, temperature=self.temperature, surfaces=names,
+                                   chemical_limit=chemical_limit)
             cols = [real.best_route_arrays(p)[0] for p in carbon]
+            if chemical_limit is not None:  # which NaNs come from the limit, not from missing data
+                free = NetworkAnalysis(net, self.table, pH=self.pH, scale=self.scale, temperature=self.temperature, surfaces=names)
+                had = [np.isfinite(free.best_route_arrays(p)[0]) for p in carbon]
             if her:
-                lp = che.limiting_potentials(self.table, her, self.pH, self.scale, self.temperature, surfaces=names, on_missing="report")
-                cols.append(lp.set_index("surface").loc[names, "limiting_potential"].to_numpy(dtype=float))
-            surf = self._surface_winners(names, points_frames, labels, np.column_stack(cols), keys)
+                lp = che.limiting_potentials(self.table, her, self.pH, self.scale, self.temperature, surfaces=names, on_missing="report").set_index("surface")
+                u_h, _ = _apply_chemical_limit(lp.loc[names, "limiting_potential"].to_numpy(dtype=float),
+                                               lp.loc[names, "max_chemical_dG"].to_numpy(dtype=float), chemical_limit)
+                cols.append(u_h)
+                if chemical_limit is not None:
+                    had.append(np.isfinite(lp.loc[names, "limiting_potential"].to_numpy(dtype=float)))
+            values = np.column_stack(cols)
+            blocked = None if chemical_limit is None else (np.column_stack(had) & np.isnan(values))
+            surf = self._surface_winners(names, points_frames, labels, values, keys, blocked)
         desc = (f"best network routes from {net.reactant} ({len(net.states)} states, {len(net.edges)} steps, "
                 f"{len(net.adsorbates)} adsorbates through scaling relations)" + (f"; HER: {her}" if her else ""))
         note = "; ".join([desc] + plan["notes"])
         cond = self._selectivity_conditions(keys, "network", note,
                                             "winner = least negative onset potential (limiting potential of the best network route; HER from its pathway); "
-                                            "ties to the alphabetically first product, as in product_ranking; chemical steps not in the onset")
+                                            "ties to the alphabetically first product, as in product_ranking; chemical steps not in the onset"
+                                            + _limit_rule(chemical_limit), chemical_limit)
         cond["network"] = repr(net)
         cond["her"] = her
         return SelectivityMap(descs, gx, gy, tuple(keys), labels, onset, winner, margin, np.stack(chems).reshape(shape), surf, space.relations, cond,
@@ -1077,6 +1127,32 @@ def _winner(onset: np.ndarray, tie_keys: Sequence[str] | None = None) -> tuple[n
     with np.errstate(invalid="ignore"):
         margin = srt[-1] - srt[-2]
     return winner, margin
+
+
+def _check_chemical_limit(limit) -> float | None:
+    """``chemical_limit`` as a finite float (eV) or None; a clear error otherwise."""
+    if limit is None:
+        return None
+    try:
+        value = float(limit)
+    except (TypeError, ValueError):
+        value = float("nan")
+    if not np.isfinite(value) or isinstance(limit, bool):
+        raise ScalingError(f"chemical_limit must be a finite number in eV (e.g. 0.5) or None; got {limit!r}")
+    return value
+
+
+def _apply_chemical_limit(onset: np.ndarray, max_chem: np.ndarray, limit: float | None) -> tuple[np.ndarray, np.ndarray]:
+    """Onset and max chemical dG set to NaN where a chemical step exceeds ``limit`` (eV): pathway unavailable there."""
+    if limit is None:
+        return onset, max_chem
+    with np.errstate(invalid="ignore"):
+        blocked = np.asarray(max_chem) > limit
+    return np.where(blocked, np.nan, onset), np.where(blocked, np.nan, max_chem)
+
+
+def _limit_rule(limit: float | None) -> str:
+    return "" if limit is None else f"; routes/pathways with a chemical step above chemical_limit = {limit:g} eV excluded"
 
 
 def _is_pathway_spec(spec) -> bool:
@@ -1241,12 +1317,15 @@ def selectivity_map(
     basis: str = "auto",
     reactant: str = "CO2",
     network_options: Mapping | None = None,
+    chemical_limit: float | None = None,
 ) -> SelectivityMap:
     """Winning product over two descriptors; see :meth:`VolcanoAnalysis.selectivity_map`.
 
     ``basis="auto"`` (default) compares the best routes of the reaction network when the scaling
     relations cover its adsorbates, else the built-in pathways; ``smap.basis`` and
-    ``smap.basis_note`` say which was used and what was left out.
+    ``smap.basis_note`` say which was used and what was left out. ``chemical_limit`` (eV, default
+    None) drops routes/pathways with a chemical step uphill by more than that;
+    ``smap.winner_max_chemical_dG`` (eV) shows the largest chemical step of the winner's route.
 
     Examples
     --------
@@ -1256,7 +1335,7 @@ def selectivity_map(
     ('network', 'H2')
     """
     return _analysis(energies, relations, fixed_slopes, pH, scale, temperature, references, fit_against).selectivity_map(
-        descriptors, products, x, y, points, basis, reactant, network_options
+        descriptors, products, x, y, points, basis, reactant, network_options, chemical_limit
     )
 
 

@@ -195,3 +195,97 @@ def test_plot_caption_names_basis(demo, smap, tmp_path):
     ax = plot_selectivity_map(p)
     assert "built-in pathways" in ax.get_title()
     assert "Basis: built-in pathways co2rr-co" in " ".join(t.get_text() for t in ax.texts)
+
+
+# -- chemical steps of the winner's route, chemical_limit, overlay -------------------------------------
+def test_winner_chemical_dG_equals_direct_network_and_engine(demo, smap):
+    w = smap.winner_max_chemical_dG
+    assert w.shape == smap.winner.shape
+    # the demo's strong-CO-binding corner: CO wins there, but CO* -> * + CO(g) is uphill
+    strong = smap.x < -1.0
+    assert np.all(smap.winner[:, strong] == smap.products.index("CO(g)")) and np.all(w[:, strong] > 0.5)
+    rng = np.random.default_rng(11)
+    for _ in range(8):
+        i, j = int(rng.integers(len(smap.y))), int(rng.integers(len(smap.x)))
+        table = _one_surface(smap, i, j)
+        product = smap.products[smap.winner[i, j]]
+        if product == "H2(g)":
+            expect = che.limiting_potentials(table, "her-volmer-heyrovsky")["max_chemical_dG"].iloc[0]
+        else:
+            expect = NetworkAnalysis(build_network(table, "CO2"), table).best_routes(product).iloc[0]["max_chemical_dG"]
+        if np.isnan(expect):
+            assert np.isnan(w[i, j])
+        else:
+            assert w[i, j] == pytest.approx(expect, abs=1e-12)
+    frame = smap.to_frame()
+    np.testing.assert_array_equal(frame["winner_max_chemical_dG"].to_numpy(), w.ravel())
+    # pathways basis: the engine's max_chemical_dG of the winning pathway
+    p = selectivity_map(demo, ("CO*", "OH*"), basis="pathways", points=(23, 19))
+    for _ in range(6):
+        i, j = int(rng.integers(len(p.y))), int(rng.integers(len(p.x)))
+        table = _one_surface(p, i, j)
+        lp = che.limiting_potentials(table, p.products[p.winner[i, j]])
+        expect = lp["max_chemical_dG"].iloc[0]
+        assert (np.isnan(p.winner_max_chemical_dG[i, j]) and np.isnan(expect)) or p.winner_max_chemical_dG[i, j] == pytest.approx(expect, abs=1e-12)
+
+
+def test_chemical_limit_excludes_uphill_routes(demo, smap):
+    limit = 0.3
+    assert np.nanmax(smap.winner_max_chemical_dG) > limit  # without the limit some winners have such a step
+    s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=limit)
+    assert s.conditions["chemical_limit"] == limit and "chemical_limit = 0.3 eV" in s.conditions["rule"]
+    assert not np.any(s.winner_max_chemical_dG > limit)  # NaN: no chemical step at all
+    assert not np.any(s.max_chemical_dG > limit)
+    assert not np.array_equal(s.winner, smap.winner)
+    rng = np.random.default_rng(5)
+    carbon_won = np.argwhere(s.winner != s.products.index("H2(g)"))
+    assert len(carbon_won)  # CO still wins somewhere, by a route without a large chemical step
+    points = [tuple(carbon_won[k]) for k in rng.choice(len(carbon_won), 4, replace=False)]
+    points += [(int(rng.integers(len(s.y))), int(rng.integers(len(s.x)))) for _ in range(3)]
+    checked_routes = 0
+    for i, j in points:
+        table = _one_surface(s, i, j)
+        an = NetworkAnalysis(build_network(table, "CO2"), table, chemical_limit=limit)
+        top = an.product_ranking().iloc[0]
+        assert s.products[s.winner[i, j]] == top["product"]
+        assert s.onset[s.winner[i, j], i, j] == pytest.approx(top["onset_potential"], abs=1e-12)
+        assert s.winner_route()[i, j] == top["route"]
+        if top["product"] != "H2(g)":  # the route's chemical steps, from the engine step by step
+            route = an.best_route("point", top["product"])
+            dG = che.step_free_energies(table, route).iloc[0].to_numpy()
+            chemical = [g for g, st in zip(dG, route.steps) if not st.is_electrochemical]
+            assert all(g <= limit + 1e-12 for g in chemical)
+            checked_routes += 1
+    assert checked_routes >= 4
+    # the computed surfaces stay on the map (blocked routes do not count as missing data)
+    assert len(s.surfaces) == len(smap.surfaces) == 12
+    # pathways basis: a pathway with a chemical step above the limit does not compete there
+    p = selectivity_map(demo, ("CO*", "OH*"), basis="pathways", points=(23, 19), chemical_limit=limit)
+    assert not np.any(p.winner_max_chemical_dG > limit)
+    for _ in range(6):
+        i, j = int(rng.integers(len(p.y))), int(rng.integers(len(p.x)))
+        lp = che.limiting_potentials(_one_surface(p, i, j), list(p.products)).set_index("pathway").loc[list(p.products)]
+        ok = ~(lp["max_chemical_dG"].to_numpy() > limit)
+        u = np.where(ok, lp["limiting_potential"].to_numpy(), -np.inf)
+        assert p.winner[i, j] == int(np.argmax(u))
+        np.testing.assert_allclose(p.onset[:, i, j], np.where(ok, u, np.nan), atol=1e-12)
+    with pytest.raises(ScalingError, match="chemical_limit must be a finite number"):
+        selectivity_map(demo, ("CO*", "OH*"), points=5, chemical_limit="high")
+
+
+def test_plot_marks_uphill_chemical_step(demo, smap, tmp_path):
+    from ecatlab.plotting.volcano import CHEMICAL_OVERLAY_GID, plot_selectivity_map
+
+    def overlay(ax):
+        return [a for a in ax.get_children() if a.get_gid() == CHEMICAL_OVERLAY_GID]
+
+    ax = plot_selectivity_map(smap)
+    assert np.any(smap.winner_max_chemical_dG > 0.5) and len(overlay(ax)) == 3  # stipple, dotted outline, legend
+    texts = " ".join(t.get_text() for t in ax.texts).replace("\n", " ")
+    assert "chemical step uphill by more than 0.5 eV" in texts
+    assert "0.5 eV" in ax.get_legend().get_texts()[0].get_text()
+    ax.figure.savefig(tmp_path / "chem.png", bbox_inches="tight")
+    assert overlay(plot_selectivity_map(smap, chemical_threshold=None)) == []
+    s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=0.3)
+    ax = plot_selectivity_map(s)  # no winner above 0.5 eV: no overlay, the caption names the limit
+    assert overlay(ax) == [] and "above 0.3 eV excluded" in " ".join(t.get_text() for t in ax.texts).replace("\n", " ")

@@ -267,11 +267,23 @@ def plot_determining_steps(amap: ActivityMap, ax=None, style: str = "notebook", 
     return ax
 
 
-def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook", label_surfaces: bool = True, caption: bool = True, margin_lines: bool = True):
+#: gid of the overlay marking an uphill chemical step in the winner's route (tests and post-processing find it by this).
+CHEMICAL_OVERLAY_GID = "uphill-chemical-step"
+
+
+def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook", label_surfaces: bool = True, caption: bool = True, margin_lines: bool = True,
+                         chemical_threshold: float | None = 0.5):
     """Regions by winning product (least negative onset potential), labelled; surfaces on top.
 
     Hatching (``margin_lines``) marks where the winner leads the runner-up by less than 0.1 V
     (weak preference).
+
+    Dots inside a dotted outline mark where the winner's route has a chemical step uphill by more
+    than ``chemical_threshold`` (eV, :attr:`~ecatlab.volcano.SelectivityMap.winner_max_chemical_dG`;
+    default 0.5 eV: common practice, no source; ``None`` = no overlay). The onset ignores such a
+    step, so there the product is not released at any potential (e.g. CO stays bound and
+    poisons the surface). The overlay artists carry ``gid`` :data:`CHEMICAL_OVERLAY_GID`; a
+    legend entry outside the axes and a caption line explain it.
     """
     from ecatlab.notation import Species
 
@@ -288,6 +300,7 @@ def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook",
 
             with mpl.rc_context({"hatch.color": "#8A8A8A", "hatch.linewidth": 0.4}):
                 ax.contourf(smap.x, smap.y, smap.margin, levels=[-1e-12, 0.1], colors="none", hatches=["//"], zorder=2)
+        uphill = _chemical_overlay(ax, p, smap, chemical_threshold)
         labels = []
         for lab in smap.product_labels:
             try:
@@ -303,11 +316,38 @@ def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook",
         ax.set_title(f"Selectivity: least negative onset potential ({basis})\n{_conditions_text(smap.conditions)}")
         if caption:
             width = int(ax.figure.get_figwidth() * 72 / (0.52 * (p.font_pt - 2)))
-            _caption(ax, p, _selectivity_caption(smap, width))
+            _caption(ax, p, _selectivity_caption(smap, width, chemical_threshold if uphill else None))
     return ax
 
 
-def _selectivity_caption(smap: SelectivityMap, width: int = 110) -> str:
+def _chemical_overlay(ax, p, smap: SelectivityMap, threshold: float | None) -> bool:
+    """Dotted outline and light stipple where the winner's route has a chemical step above ``threshold`` (eV)."""
+    if threshold is None:
+        return False
+    with np.errstate(invalid="ignore"):
+        mask = (smap.winner_max_chemical_dG > float(threshold)).astype(float)  # NaN (no chemical step) -> 0
+    if not mask.any():
+        return False
+    import matplotlib as mpl
+    from matplotlib.patches import Patch
+
+    ink = "#3A3A3A"
+    with mpl.rc_context({"hatch.color": "#4A4A4A", "hatch.linewidth": 0.5}):
+        fill = ax.contourf(smap.x, smap.y, mask, levels=[0.5, 1.5], colors="none", hatches=["."], zorder=2.5)
+    edge = ax.contour(smap.x, smap.y, mask, levels=[0.5], colors=ink, linewidths=1.3, linestyles=[(0, (1, 2))], zorder=3)
+    fill.set_gid(CHEMICAL_OVERLAY_GID)
+    edge.set_gid(CHEMICAL_OVERLAY_GID)
+    handle = Patch(facecolor="none", edgecolor=ink, hatch=".", linestyle=(0, (1, 2)), linewidth=1.3,
+                   label=f"winner's route has a chemical\nstep uphill by > {float(threshold):g} eV")
+    if p.name != "single":  # a column-wide figure keeps its width: the caption explains the overlay there
+        with mpl.rc_context({"hatch.color": ink, "hatch.linewidth": 0.5}):
+            leg = ax.legend(handles=[handle], loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, fontsize=p.font_pt - 2,
+                            borderaxespad=0.3, handlelength=2.2, handleheight=1.4)
+        leg.set_gid(CHEMICAL_OVERLAY_GID)
+    return True
+
+
+def _selectivity_caption(smap: SelectivityMap, width: int = 110, chemical_threshold: float | None = None) -> str:
     """Caption: basis (and what it left out), reading aid, references, caution; lines wrapped at ``width`` characters."""
     import textwrap
 
@@ -325,8 +365,15 @@ def _selectivity_caption(smap: SelectivityMap, width: int = 110) -> str:
         if why:
             first += f"\nNetwork routes not used: {_shorten(why, 110)}"
         ties = "exact ties go to the product listed first"
+    limit = smap.conditions.get("chemical_limit")
+    chem = "Chemical steps (e.g. CO desorption) not in the onset"
+    if limit is not None:
+        chem += f"; routes with a chemical step above {limit:g} eV excluded"
+    if chemical_threshold is not None:
+        chem += (f".\nDotted outline, dots: the winner's route has a chemical step uphill by more than {chemical_threshold:g} eV "
+                 "(product not released at any potential, e.g. CO poisons the surface)")
     text = (f"{first}\nHatched: winner leads the runner-up by less than 0.1 V ({ties}).\n"
-            f"Chemical steps (e.g. CO desorption) not in the onset. {_short_refs(smap.conditions)}.\n{_CAUTION}")
+            f"{chem}. {_short_refs(smap.conditions)}.\n{_CAUTION}")
     return "\n".join(w for line in text.split("\n") for w in textwrap.wrap(line, max(40, width)))
 
 
