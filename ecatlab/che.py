@@ -58,7 +58,7 @@ from typing import Iterable, Sequence
 import numpy as np
 import pandas as pd
 
-from ecatlab.constants import BOLTZMANN_EV, LN10, STANDARD_TEMPERATURE
+from ecatlab.constants import STANDARD_TEMPERATURE, thermal_voltage_per_pH
 from ecatlab.energies import EnergyTable, read_energies
 from ecatlab.errors import ConditionError, ConditionsWarning, MissingDataWarning, MissingSpeciesError, PathwayError
 from ecatlab.notation import ELECTRON, HYDROXIDE, PROTON, Pathway, Species, Step
@@ -118,7 +118,7 @@ def nernst_shift(pH, temperature: float = STANDARD_TEMPERATURE):
     -------
     float or ndarray in eV (numerically V per elementary charge).
     """
-    return BOLTZMANN_EV * temperature * LN10 * np.asarray(pH, dtype=float)
+    return thermal_voltage_per_pH(temperature) * np.asarray(pH, dtype=float)
 
 
 def _check_conditions(scale: str, pH, temperature: float) -> str:
@@ -550,11 +550,6 @@ def _uphill_text(chem_a: np.ndarray, equations: np.ndarray) -> np.ndarray:
         joined = np.where(out[up] == "", piece, out[up] + "; " + piece)
         out[up] = joined
     return out
-
-
-def u_eq_value(path: Pathway, scheme: ReferenceScheme, pH, scale, temperature) -> float:
-    """Equilibrium potential (V on ``scale``) of a pathway's overall reaction."""
-    return equilibrium_potential(path, scale=scale, pH=pH, temperature=temperature, references=scheme)
 
 
 def equilibrium_potential(

@@ -255,21 +255,6 @@ class _Locations:
         return [self._fmt(v.item() if hasattr(v, "item") else v) for v in picked]
 
 
-class _FirstRow(list):
-    """Location of the first row holding a value, computed only when an error message needs it."""
-
-    def __init__(self, column: pd.Series, value: str, loc: np.ndarray):
-        super().__init__()
-        self._args = (column, value, loc)
-
-    def __iter__(self):
-        column, value, loc = self._args
-        return iter([loc[int(np.flatnonzero(column.to_numpy() == value)[0])]])  # noqa: B023
-
-    def __len__(self) -> int:
-        return 1
-
-
 def _scheme(references, temperature) -> ReferenceScheme:
     if isinstance(references, ReferenceScheme):
         if temperature is not None and abs(temperature - references.temperature) > 1e-9:
@@ -344,10 +329,6 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
         remap[order] = np.arange(len(order))
         return remap[row_codes], np.asarray(distinct, dtype=object)[order]
 
-    def text_col(name: str) -> pd.Series:
-        codes, distinct = text_codes(name)
-        return pd.Series(distinct[codes], index=frame.index, dtype=object)
-
     # -- surfaces and species -----------------------------------------------------------------
     surface_codes, surface_names = text_codes("surface")
     bad_names = np.array([t == "" or t.lower() in ("nan", "none") for t in surface_names], dtype=bool)
@@ -355,10 +336,9 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
     if bad.any():
         raise EnergyTableError(label, "empty surface name; give every row a surface", rows=loc[bad], column="surface")
     species_codes, species_texts = text_codes("species")
-    species_raw = pd.Series(species_texts[species_codes], dtype=object)  # only read on error paths
     parsed_cache: dict[str, Species] = {}
-    for text in species_texts:
-        first = _FirstRow(species_raw, text, loc)
+    for j, text in enumerate(species_texts):
+        first = [loc[int(np.argmax(species_codes == j))]]  # the first row with this species (codes are dense)
         try:
             sp = Species.parse(text)
         except NotationError as exc:
@@ -378,12 +358,11 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
     species_codes = key_codes[species_codes]
     key_names = np.asarray(key_names, dtype=object)
     # reachability from references
-    for text, sp in parsed_cache.items():
+    for k, key in enumerate(key_names):
         try:
-            scheme.balance(sp.elements)
+            scheme.balance(Species.parse(key).elements)
         except ReferenceSchemeError as exc:
-            rows = loc[(species_raw == text).to_numpy()]
-            raise EnergyTableError(label, f"species {sp.key}: {exc}", rows=rows, column="species") from None
+            raise EnergyTableError(label, f"species {key}: {exc}", rows=loc[species_codes == k], column="species") from None
 
     # -- numbers --------------------------------------------------------------------------------
     numeric: dict[str, np.ndarray] = {}

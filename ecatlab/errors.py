@@ -149,6 +149,14 @@ class IngestError(EcatlabError, ValueError):
         super().__init__(f"{self.path}: {problem}")
 
 
+class TableInputError(EcatlabError, ValueError):
+    """The frame given to a table function is not a limiting-potential frame."""
+
+
+class OutputFolderError(EcatlabError, FileExistsError):
+    """An output folder exists with files ecatlab did not write (they are never overwritten)."""
+
+
 class EcatlabWarning(UserWarning):
     """Base class of ecatlab warnings."""
 

@@ -32,7 +32,7 @@ from typing import Iterable, Sequence
 import numpy as np
 import pandas as pd
 
-from ecatlab.errors import EcatlabError
+from ecatlab.errors import TableInputError
 
 __all__ = [
     "TABLE_COLUMNS",
@@ -69,10 +69,6 @@ TABLE_COLUMNS: dict[str, str] = {
 }
 
 _DEFAULT_COLUMNS = ("surface", "pathway", "limiting_potential", "equilibrium_potential", "overpotential", "determining_step")
-
-
-class TableInputError(EcatlabError, ValueError):
-    """The frame given to a table function is not a limiting-potential frame."""
 
 
 def _check_frame(lp: pd.DataFrame) -> None:

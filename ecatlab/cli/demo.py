@@ -20,16 +20,12 @@ import json
 import pathlib
 import time
 
-from ecatlab.errors import EcatlabError
+from ecatlab.errors import OutputFolderError
 
 MARKER = ".ecatlab-output"
 DEMO_VOLCANO = ("orr-4e", "OH*")  # (pathway, descriptor) of the report's volcano section
 DEMO_ROUTES = ("CO2", "CH4")  # (reactant, product) of the report's best-route section
 DEFAULT_DIR = "ecatlab-demo-output"
-
-
-class OutputFolderError(EcatlabError, FileExistsError):
-    """The output folder exists with files ecatlab did not write."""
 
 
 def register(subparsers) -> None:
