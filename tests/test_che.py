@@ -132,8 +132,10 @@ def test_condition_errors(oxygen):
         limiting_potentials(oxygen, "orr-4e", pH=20)
     with pytest.raises(ConditionError, match="kelvin"):
         limiting_potentials(oxygen, "orr-4e", temperature=-5)
-    with pytest.warns(ConditionsWarning, match="298.15 K"):
-        limiting_potentials(oxygen, "orr-4e", temperature=350)
+    with pytest.raises(ConditionError, match="outside 200-1000 K"):
+        limiting_potentials(oxygen, "orr-4e", temperature=5000)
+    with pytest.warns(ConditionsWarning, match="liquid range of water"):
+        limiting_potentials(oxygen, "orr-4e", temperature=380)
 
 
 def test_lowercase_scale_and_no_warning_at_room_temperature(oxygen):

@@ -58,6 +58,8 @@ from typing import Iterable, Sequence
 import numpy as np
 import pandas as pd
 
+from ecatlab.che import kernel
+from ecatlab.che.conditions import SCALES, check_pH, check_scale, check_temperature
 from ecatlab.constants import STANDARD_TEMPERATURE, thermal_voltage_per_pH
 from ecatlab.energies import EnergyTable, read_energies
 from ecatlab.errors import ConditionError, ConditionsWarning, MissingDataWarning, MissingSpeciesError, PathwayError
@@ -78,8 +80,6 @@ __all__ = [
     "SCALES",
 ]
 
-SCALES = ("RHE", "SHE")
-
 #: Column documentation of :func:`limiting_potentials` (units in brackets).
 LIMITING_POTENTIAL_COLUMNS: dict[str, str] = {
     "surface": "surface name",
@@ -95,6 +95,13 @@ LIMITING_POTENTIAL_COLUMNS: dict[str, str] = {
     ),
     "determining_step": "potential-determining step (equation)",
     "determining_step_index": "1-based index of the potential-determining step [-]",
+    "G_max": (
+        "largest step free energy at the equilibrium potential over all steps, electrochemical and chemical "
+        "(G_max at zero overpotential, Exner, ACS Catal. 10, 12607 (2020)); equals e*overpotential for one-electron "
+        "steps without an uphill chemical step; the ranking key, lower is better [eV]"
+    ),
+    "G_max_step": "the step that carries G_max (equation)",
+    "blocked": "True when a chemical step is uphill (max_chemical_dG > 0): the pathway is blocked at every potential",
     "max_chemical_dG": "largest free energy of a chemical (potential-independent) step; NaN if the pathway has none [eV]",
     "uphill_chemical_steps": "chemical steps with dG > 0 (potential-independent barriers); empty if none",
     "missing_species": "adsorbates the surface lacks for this pathway; empty if complete (then the numbers are NaN)",
@@ -122,24 +129,10 @@ def nernst_shift(pH, temperature: float = STANDARD_TEMPERATURE):
 
 
 def _check_conditions(scale: str, pH, temperature: float) -> str:
-    sc = str(scale).upper()
-    if sc not in SCALES:
-        raise ConditionError(f"unknown potential scale {scale!r}; use 'RHE' or 'SHE'")
-    t = np.asarray(temperature, dtype=float)
-    if t.ndim != 0 or not np.isfinite(t) or t <= 0:
-        raise ConditionError(f"temperature must be one positive number of kelvin, got {temperature!r}")
-    p = np.asarray(pH, dtype=float)
-    if np.any(~np.isfinite(p)):
-        raise ConditionError(f"pH must be finite, got {pH!r}")
-    if np.any((p < -2) | (p > 16)):
-        raise ConditionError(f"pH {pH!r} is outside the aqueous range (-2 to 16)")
-    if abs(float(t) - STANDARD_TEMPERATURE) > 1.0:
-        warnings.warn(
-            f"T = {float(t):g} K: molecular free energies come from tables at 298.15 K; only the k_B T ln(10) pH "
-            "term and the reference corrections follow T",
-            ConditionsWarning,
-            stacklevel=3,
-        )
+    """Validate the condition triplet with :mod:`ecatlab.che.conditions`; returns the canonical scale."""
+    sc = check_scale(scale)
+    check_temperature(temperature)
+    check_pH(pH)
     return sc
 
 
@@ -371,19 +364,6 @@ def _attrs(path: Pathway, table: EnergyTable, potential, pH, scale, temperature,
     }
 
 
-def _limiting(a: np.ndarray, n: np.ndarray, direction: str):
-    """Vectorised U_L and determining-step index from dG_i(U) = a_i + n_i U; ``a`` is (S, N).
-
-    Returns (U_L in V, index into the steps); U_L = min_i(-a_i/n_i) for reduction, max for oxidation,
-    over electrochemical steps only.
-    """
-    ec = np.flatnonzero(np.abs(n) > 1e-12)
-    onset = a[:, ec] / (-n[ec])
-    local = np.argmin(onset, axis=1) if direction == "reduction" else np.argmax(onset, axis=1)
-    u_l = np.take_along_axis(onset, local[:, None], axis=1)[:, 0]
-    return u_l, ec[local]
-
-
 def limiting_potentials(
     energies,
     pathways,
@@ -441,26 +421,27 @@ def limiting_potentials(
         values, missing = _adsorbate_values(table, compiled, names)
         keep = _handle_missing(path, missing, names, on_missing, allow=("report", "raise", "drop"))
         a, n = compiled.affine(values, pH, sc, temperature)
-        u_l, idx = _limiting(a, n, path.direction)
-        u_eq = np.full(n_s, equilibrium_potential(path, sc, pH, temperature, table.scheme))
-        eta = (u_eq - u_l) if path.direction == "reduction" else (u_l - u_eq)
+        u_l, idx = kernel.envelope(a, n, path.direction)
+        u_eq_value = equilibrium_potential(path, sc, pH, temperature, table.scheme)
+        u_eq = np.full(n_s, u_eq_value)
+        eta = kernel.signed_overpotential(u_l, u_eq, path.direction)
+        g_max, g_idx = kernel.gmax(a, n, u_eq_value)
+        max_chem, _ = kernel.chemical_obstacle(a, n)
+        blocked = kernel.is_blocked(max_chem)
         chem = ~compiled.electrochemical
         equations = np.array([s.equation for s in path.steps], dtype=object)
-        if chem.any():
-            chem_a = a[:, chem]
-            max_chem = chem_a.max(axis=1)
-            uphill = _uphill_text(chem_a, equations[chem])
-        else:
-            max_chem = np.full(n_s, np.nan)
-            uphill = np.full(n_s, "", dtype=object)
+        uphill = _uphill_text(a[:, chem], equations[chem]) if chem.any() else np.full(n_s, "", dtype=object)
         determining = equations[idx]
+        g_step = equations[g_idx]
         index = idx + 1
         bad = ~keep
         if bad.any():
-            u_l, eta, max_chem = (np.where(bad, np.nan, x) for x in (u_l, eta, max_chem))
+            u_l, eta, max_chem, g_max = (np.where(bad, np.nan, x) for x in (u_l, eta, max_chem, g_max))
             determining = np.where(bad, "", determining)
+            g_step = np.where(bad, "", g_step)
             uphill = np.where(bad, "", uphill)
             index = np.where(bad, 0, index)
+            blocked = np.where(bad, False, blocked)
         rows = keep if on_missing == "drop" else slice(None)
         m = int(keep.sum()) if on_missing == "drop" else n_s
         const = lambda value: _Constant(value, m)  # noqa: E731
@@ -474,6 +455,9 @@ def limiting_potentials(
         columns["overpotential"].append(eta[rows])
         columns["determining_step"].append(np.asarray(determining, dtype=object)[rows])
         columns["determining_step_index"].append(np.asarray(index)[rows])
+        columns["G_max"].append(g_max[rows])
+        columns["G_max_step"].append(np.asarray(g_step, dtype=object)[rows])
+        columns["blocked"].append(np.asarray(blocked, dtype=bool)[rows])
         columns["max_chemical_dG"].append(max_chem[rows])
         columns["uphill_chemical_steps"].append(np.asarray(uphill, dtype=object)[rows])
         columns["missing_species"].append(_missing_text(names, missing)[rows])
@@ -494,7 +478,7 @@ def limiting_potentials(
     result.attrs.update(
         {
             "quantity": "limiting potentials",
-            "units": {"limiting_potential": f"V vs {sc}", "equilibrium_potential": f"V vs {sc}", "overpotential": "V", "max_chemical_dG": "eV"},
+            "units": {"limiting_potential": f"V vs {sc}", "equilibrium_potential": f"V vs {sc}", "overpotential": "V", "G_max": "eV", "max_chemical_dG": "eV"},
             "columns": LIMITING_POTENTIAL_COLUMNS,
             "scale": sc,
             "pH": float(pH),
@@ -598,4 +582,4 @@ def equilibrium_potential(
     if not compiled.electrochemical.any():
         raise PathwayError(f"reaction {step.equation!r} transfers no electrons; it has no equilibrium potential")
     a, n = compiled.affine(np.zeros((1, 0)), pH, sc, temperature)
-    return float(-a[0, 0] / n[0]) + 0.0
+    return float(kernel.equilibrium_potential_from_affine(a, n)[0]) + 0.0

@@ -1,0 +1,248 @@
+r"""The CHE kernel: the only place where free energies become potentials.
+
+Every other module of ecatlab (engine tables, explorer, networks, volcanoes, uncertainty,
+kinetics, Pourbaix, plotting) calls these functions; none re-derives them. All functions are pure
+numpy and broadcast over any leading axes (surfaces, samples, grid points); the last axis is the
+step axis.
+
+The affine form
+---------------
+On a chosen potential scale (RHE or SHE, at a fixed pH and T) the free energy of step *i* is
+
+.. math::
+
+    \Delta G_i(U) = a_i + n_i\,e\,U
+
+with :math:`a_i` in eV (the step free energy at U = 0 V on that scale, pH and temperature terms
+included; see :meth:`ecatlab.che.CompiledPathway.affine`) and :math:`n_i` the electrons *consumed*
+by the step (positive for a reduction step, negative for an oxidation step, zero for a chemical
+step). Potentials are in V, so :math:`n_i e U` is :math:`n_i U` in eV.
+
+Primitives
+----------
+* :func:`step_free_energy` -- :math:`a_i + n_i U` (eV).
+* :func:`onset_potentials` -- :math:`U_i = -a_i / n_i` (V), the potential at which an
+  electrochemical step turns downhill; NaN for chemical steps.
+* :func:`envelope` -- the limiting potential :math:`U_L = \min_i U_i` (reduction) or
+  :math:`\max_i U_i` (oxidation) over electrochemical steps, and the potential-determining step.
+* :func:`equilibrium_potential_from_affine` -- :math:`U_\mathrm{eq} = -\sum_i a_i / \sum_i n_i`.
+* :func:`signed_overpotential` -- :math:`\eta = U_\mathrm{eq} - U_L` (reduction) or
+  :math:`U_L - U_\mathrm{eq}` (oxidation), V; positive is a loss.
+* :func:`chemical_obstacle` -- the largest free energy of a chemical (potential-independent) step
+  and which step it is; a positive value blocks the pathway at every potential.
+* :func:`gmax` -- the largest step free energy at the equilibrium potential over *all* steps,
+  electrochemical and chemical alike,
+
+  .. math:: G_\mathrm{max} = \max_i \Delta G_i(U_\mathrm{eq}) \quad [\mathrm{eV}],
+
+  the :math:`G_\mathrm{max}(\eta)` descriptor evaluated at zero overpotential (Exner, ACS Catal. 10,
+  12607 (2020)). For a pathway of one-electron electrochemical steps it equals :math:`e\eta`; a
+  chemical step that is uphill by :math:`\Delta G_c` makes it at least :math:`\Delta G_c`. It is the
+  default ranking key of ecatlab (lower is better).
+* :func:`ranking_order` -- the one ordering rule: surfaces blocked by an uphill chemical step come
+  after every unblocked surface; within each group, lower :math:`G_\mathrm{max}` first.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = [
+    "ELECTROCHEMICAL_TOLERANCE",
+    "electrochemical_mask",
+    "step_free_energy",
+    "onset_potentials",
+    "envelope",
+    "equilibrium_potential_from_affine",
+    "signed_overpotential",
+    "chemical_obstacle",
+    "gmax",
+    "is_blocked",
+    "ranking_order",
+    "effective_limiting_potential",
+]
+
+#: Steps with |n_i| at or below this many electrons are chemical (potential-independent).
+ELECTROCHEMICAL_TOLERANCE = 1e-12
+
+
+def electrochemical_mask(n) -> np.ndarray:
+    """Boolean mask of the electrochemical steps (|n_i| > 1e-12 electrons)."""
+    return np.abs(np.asarray(n, dtype=float)) > ELECTROCHEMICAL_TOLERANCE
+
+
+def step_free_energy(a, n, potential) -> np.ndarray:
+    """Step free energies at a potential: :math:`\\Delta G_i(U) = a_i + n_i U`.
+
+    Parameters
+    ----------
+    a : array_like (..., n_steps)
+        Step free energies at U = 0 V on the scale in question, eV.
+    n : array_like (n_steps,) or (..., n_steps)
+        Electrons consumed per step.
+    potential : float or array_like
+        U in V on the same scale; an array broadcasts against the leading axes of ``a``
+        (give it shape (..., 1) or (...,); a 1-D array of one value per row is expanded).
+
+    Returns
+    -------
+    ndarray (..., n_steps), eV.
+    """
+    a = np.asarray(a, dtype=float)
+    u = np.asarray(potential, dtype=float)
+    if u.ndim and u.shape[-1:] != (1,):
+        u = u[..., None]
+    return a + np.asarray(n, dtype=float) * u
+
+
+def onset_potentials(a, n) -> np.ndarray:
+    """Onset potential of every step, :math:`U_i = -a_i/n_i` in V; NaN for chemical steps."""
+    a = np.asarray(a, dtype=float)
+    n = np.asarray(n, dtype=float)
+    ec = electrochemical_mask(n)
+    safe = np.where(ec, n, 1.0)
+    return np.where(ec, -a / safe, np.nan)
+
+
+def envelope(a, n, direction: str) -> tuple[np.ndarray, np.ndarray]:
+    """Limiting potential and potential-determining step.
+
+    Parameters
+    ----------
+    a : array_like (..., n_steps)
+        Step free energies at U = 0 V, eV.
+    n : array_like (n_steps,)
+        Electrons consumed per step (one set for all rows).
+    direction : {"reduction", "oxidation"}
+
+    Returns
+    -------
+    (U_L, index)
+        ``U_L`` in V (shape ``a.shape[:-1]``): :math:`\\min_i(-a_i/n_i)` for reduction,
+        :math:`\\max_i(-a_i/n_i)` for oxidation, over electrochemical steps only; ``index`` is the
+        position of the determining step among *all* steps (int). Rows whose ``a`` is NaN give NaN.
+    """
+    a = np.asarray(a, dtype=float)
+    n = np.asarray(n, dtype=float)
+    if n.ndim != 1:
+        raise ValueError("envelope takes one electron vector n (n_steps,) for all rows")
+    ec = np.flatnonzero(electrochemical_mask(n))
+    if ec.size == 0:
+        raise ValueError("a pathway without electrochemical steps has no limiting potential")
+    onset = a[..., ec] / (-n[ec])
+    if direction == "reduction":
+        local = np.argmin(np.where(np.isnan(onset), np.inf, onset), axis=-1)
+    elif direction == "oxidation":
+        local = np.argmax(np.where(np.isnan(onset), -np.inf, onset), axis=-1)
+    else:
+        raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+    u_l = np.take_along_axis(onset, local[..., None], axis=-1)[..., 0]
+    u_l = np.where(np.isnan(onset).any(axis=-1), np.nan, u_l)
+    return u_l, ec[local]
+
+
+def equilibrium_potential_from_affine(a, n) -> np.ndarray:
+    """:math:`U_\\mathrm{eq} = -\\sum_i a_i / \\sum_i n_i` in V (the overall reaction's potential)."""
+    a = np.asarray(a, dtype=float)
+    total_n = float(np.sum(n))
+    if abs(total_n) <= ELECTROCHEMICAL_TOLERANCE:
+        raise ValueError("the overall reaction transfers no electrons; it has no equilibrium potential")
+    return -a.sum(axis=-1) / total_n
+
+
+def signed_overpotential(limiting_potential, equilibrium_potential, direction: str) -> np.ndarray:
+    """Theoretical overpotential in V, positive for a loss.
+
+    :math:`\\eta = U_\\mathrm{eq} - U_L` for a reduction, :math:`U_L - U_\\mathrm{eq}` for an oxidation.
+    It can be negative when an uphill chemical step, not an electrochemical one, is the obstacle.
+    """
+    u_l = np.asarray(limiting_potential, dtype=float)
+    u_eq = np.asarray(equilibrium_potential, dtype=float)
+    if direction == "reduction":
+        return u_eq - u_l
+    if direction == "oxidation":
+        return u_l - u_eq
+    raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+
+
+def chemical_obstacle(a, n) -> tuple[np.ndarray, np.ndarray]:
+    """Largest free energy of a chemical step and its index.
+
+    Returns
+    -------
+    (max_dG, index)
+        ``max_dG`` in eV (NaN where the pathway has no chemical step), ``index`` into all steps
+        (-1 where there is none). Chemical steps do not move with the potential: ``max_dG > 0``
+        means the pathway is uphill at every potential.
+    """
+    a = np.asarray(a, dtype=float)
+    chem = np.flatnonzero(~electrochemical_mask(n))
+    shape = a.shape[:-1]
+    if chem.size == 0:
+        return np.full(shape, np.nan), np.full(shape, -1, dtype=np.int64)
+    part = a[..., chem]
+    local = np.argmax(np.where(np.isnan(part), -np.inf, part), axis=-1)
+    value = np.take_along_axis(part, local[..., None], axis=-1)[..., 0]
+    value = np.where(np.isnan(part).any(axis=-1), np.nan, value)
+    return value, chem[local]
+
+
+def gmax(a, n, equilibrium_potential) -> tuple[np.ndarray, np.ndarray]:
+    """:math:`G_\\mathrm{max}` at zero overpotential and the step that carries it.
+
+    Parameters
+    ----------
+    a : array_like (..., n_steps)
+        Step free energies at U = 0 V, eV.
+    n : array_like (n_steps,)
+        Electrons consumed per step.
+    equilibrium_potential : float or array_like
+        U_eq in V on the same scale (broadcast over the leading axes).
+
+    Returns
+    -------
+    (G_max, index)
+        ``G_max = max_i (a_i + n_i U_eq)`` in eV over all steps, and its step index.
+
+    Notes
+    -----
+    Exner, ACS Catal. 10, 12607 (2020): the descriptor :math:`G_\\mathrm{max}(\\eta)` at
+    :math:`\\eta = 0`. For one-electron steps only, :math:`G_\\mathrm{max} = e\\eta`.
+    """
+    dG = step_free_energy(a, n, equilibrium_potential)
+    local = np.argmax(np.where(np.isnan(dG), -np.inf, dG), axis=-1)
+    value = np.take_along_axis(dG, local[..., None], axis=-1)[..., 0]
+    value = np.where(np.isnan(dG).any(axis=-1), np.nan, value)
+    return value, local
+
+
+def is_blocked(max_chemical_dG) -> np.ndarray:
+    """True where a chemical step is uphill (> 0 eV): blocked at every potential (NaN: False)."""
+    m = np.asarray(max_chemical_dG, dtype=float)
+    return np.nan_to_num(m, nan=-np.inf) > 0.0
+
+
+def ranking_order(g_max, blocked) -> np.ndarray:
+    """Positions that sort surfaces best first: unblocked before blocked, then lower G_max.
+
+    NaN (missing data) goes last. Ties keep their input order (stable).
+    """
+    g = np.asarray(g_max, dtype=float)
+    b = np.asarray(blocked, dtype=bool)
+    missing = np.isnan(g)
+    return np.lexsort((np.where(missing, np.inf, g), b.astype(np.int8), missing.astype(np.int8)))
+
+
+def effective_limiting_potential(g_max, equilibrium_potential, direction: str) -> np.ndarray:
+    """The potential that G_max corresponds to: U_eq - G_max/e (reduction) or U_eq + G_max/e (oxidation), V.
+
+    Equal to U_L for pathways of one-electron electrochemical steps without an uphill chemical
+    step; used as the y-axis of volcanoes that include chemical steps.
+    """
+    g = np.asarray(g_max, dtype=float)
+    u_eq = np.asarray(equilibrium_potential, dtype=float)
+    if direction == "reduction":
+        return u_eq - g
+    if direction == "oxidation":
+        return u_eq + g
+    raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
