@@ -32,7 +32,7 @@ from ecatlab.errors import EnergyTableError, NotationError, ReferenceSchemeError
 from ecatlab.notation import Species
 from ecatlab.references import ReferenceScheme
 
-__all__ = ["EnergyTable", "read_energies", "ENERGY_COLUMNS"]
+__all__ = ["EnergyTable", "read_energies", "as_energy_table", "ENERGY_COLUMNS"]
 
 #: Recognised columns (lower-case) and their meaning; units eV.
 ENERGY_COLUMNS: dict[str, str] = {
@@ -149,6 +149,45 @@ class EnergyTable:
                 wide.loc[str(surf), key] = float(val)
         return EnergyTable.from_matrix(wide, self.scheme, self.source)
 
+    @property
+    def temperature(self) -> float:
+        """Temperature (K) at which the table's free energies and its scheme's molecules apply."""
+        return float(self.scheme.temperature)
+
+    def at_temperature(self, temperature: float) -> "EnergyTable":
+        """The same table evaluated at another temperature, K.
+
+        Rows given as ``E`` + corrections are converted again with the reference corrections and
+        molecule free energies at ``temperature``; the adsorbates' own ZPE, CpdT, TS and solvation
+        are used as given (they must be the ones for ``temperature``; a note says so). Rows given
+        as ``G`` are taken as given at ``temperature`` (a note says so).
+
+        Raises
+        ------
+        ReferenceSchemeError
+            When the scheme carries a user-given reference-correction table (valid at one
+            temperature only).
+        """
+        from ecatlab.che.conditions import check_temperature
+
+        t = check_temperature(temperature)
+        if abs(t - self.temperature) < 1e-9:
+            return self
+        scheme = self.scheme.at_temperature(t)
+        cols = [c for c in ("surface", "species", "G", "E", "ZPE", "CpdT", "TS", "solvation") if c in self.frame.columns]
+        raw = self.frame[cols].copy()
+        if "E" in raw.columns:
+            from_e = raw["E"].notna().to_numpy()
+            raw.loc[from_e, "G"] = np.nan
+        loc_kind = "line" if "line" in self.frame.columns else "row"
+        locations = _Locations(self.frame[loc_kind].to_numpy(), loc_kind) if loc_kind in self.frame.columns else _Locations(np.arange(len(raw)), "row")
+        table = _validate(raw.reset_index(drop=True), locations, self.source, scheme)
+        note = (
+            f"re-evaluated at {t:g} K (read at {self.temperature:g} K): reference corrections and molecule free energies "
+            f"at {t:g} K; adsorbate corrections and G values used as given, so they must be the ones for {t:g} K"
+        )
+        return EnergyTable(table.frame, scheme, self.source, tuple(table.notes) + (note,))
+
     def to_dict(self) -> dict:
         """Plain-data form with schema version (round-trips through :meth:`from_dict`)."""
         cols = ["surface", "species", "G"]
@@ -224,6 +263,41 @@ def read_energies(
     return _validate(raw, locations, label, scheme)
 
 
+def as_energy_table(
+    energies,
+    temperature: float | None = None,
+    references: ReferenceScheme | Iterable[str] | None = None,
+) -> EnergyTable:
+    """The one way every analysis turns its ``energies`` argument into an :class:`EnergyTable`.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path
+    temperature : float, optional
+        Temperature (K) of the analysis. A file or frame is read at it; an :class:`EnergyTable`
+        read at another temperature is re-evaluated with :meth:`EnergyTable.at_temperature` and a
+        :class:`~ecatlab.errors.ConditionsWarning` says so. ``None``: as read (files at the scheme's
+        default, 298.15 K).
+    references : ReferenceScheme or list of str, optional
+        Only for files and frames (an EnergyTable keeps its own scheme).
+    """
+    if isinstance(energies, EnergyTable):
+        if temperature is None or abs(float(temperature) - energies.temperature) < 1e-9:
+            return energies
+        import warnings
+
+        from ecatlab.errors import ConditionsWarning
+
+        warnings.warn(
+            f"energy table {energies.source!r} was read at {energies.temperature:g} K and is re-evaluated at "
+            f"{float(temperature):g} K (reference corrections and molecules recomputed; adsorbate corrections used as given)",
+            ConditionsWarning,
+            stacklevel=3,
+        )
+        return energies.at_temperature(temperature)
+    return read_energies(energies, references=references, temperature=temperature)
+
+
 def _codes(column: pd.Series) -> tuple[np.ndarray, list]:
     """Integer codes and distinct values of a column, in order of first appearance."""
     if isinstance(column.dtype, pd.CategoricalDtype):
@@ -257,8 +331,8 @@ class _Locations:
 
 def _scheme(references, temperature) -> ReferenceScheme:
     if isinstance(references, ReferenceScheme):
-        if temperature is not None and abs(temperature - references.temperature) > 1e-9:
-            return ReferenceScheme(references.references, temperature, references.overrides)
+        if temperature is not None and abs(float(temperature) - references.temperature) > 1e-9:
+            return references.at_temperature(float(temperature))  # keeps overrides; refuses user corrections
         return references
     kwargs = {}
     if references is not None:

@@ -243,6 +243,20 @@ class ReferenceScheme:
         t = self.corrections.loc[list(self.references)]
         return (t["ZPE"] + t["CpdT"] - t["TS"]).astype(float)
 
+    def at_temperature(self, temperature: float) -> "ReferenceScheme":
+        """The same scheme at another temperature (K): same references and overrides, default
+        reference corrections recomputed. A user-given correction table is valid at one temperature
+        only and is refused (give one for the new temperature)."""
+        t = float(temperature)
+        if abs(t - self.temperature) < 1e-9:
+            return self
+        if self.correction_source == "user-supplied table" or getattr(self, "_user_corrections", False):
+            raise ReferenceSchemeError(
+                f"the reference scheme carries a user-given reference-correction table for {self.temperature:g} K; "
+                f"it cannot be used at {t:g} K. Build ReferenceScheme(corrections=...) with corrections for {t:g} K"
+            )
+        return ReferenceScheme(self.references, t, dict(self.overrides))
+
     def describe(self) -> str:
         """One line naming the scheme, for table captions and figure notes."""
         refs = ", ".join(self.references)

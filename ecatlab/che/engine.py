@@ -61,7 +61,7 @@ import pandas as pd
 from ecatlab.che import kernel
 from ecatlab.che.conditions import SCALES, check_pH, check_scale, check_temperature
 from ecatlab.constants import STANDARD_TEMPERATURE, thermal_voltage_per_pH
-from ecatlab.energies import EnergyTable, read_energies
+from ecatlab.energies import EnergyTable, as_energy_table
 from ecatlab.errors import ConditionError, ConditionsWarning, MissingDataWarning, MissingSpeciesError, PathwayError
 from ecatlab.notation import ELECTRON, HYDROXIDE, PROTON, Pathway, Species, Step
 from ecatlab.pathways import resolve
@@ -230,10 +230,9 @@ def _adsorbate_values(table: EnergyTable, compiled: CompiledPathway, surfaces: S
     return values, missing
 
 
-def _as_table(energies, scheme: ReferenceScheme | None) -> EnergyTable:
-    if isinstance(energies, EnergyTable):
-        return energies
-    return read_energies(energies, references=scheme)
+def _as_table(energies, temperature: float) -> EnergyTable:
+    """The energy table at the analysis temperature (read at T, or re-evaluated; see as_energy_table)."""
+    return as_energy_table(energies, temperature)
 
 
 def _select_surfaces(table: EnergyTable, surfaces) -> list[str]:
@@ -288,7 +287,7 @@ def step_free_energies(
         ``.attrs`` holds the conditions, the pathway steps and the reference scheme.
     """
     sc = _check_conditions(scale, pH, temperature)
-    table = _as_table(energies, None)
+    table = _as_table(energies, temperature)
     path = resolve(pathway)
     compiled = compile_pathway(path, table.scheme)
     names = _select_surfaces(table, surfaces)
@@ -408,7 +407,7 @@ def limiting_potentials(
     sc = _check_conditions(scale, pH, temperature)
     if np.ndim(pH) != 0:
         raise ConditionError("limiting_potentials takes one pH value; loop over pH or use the engine arrays")
-    table = _as_table(energies, None)
+    table = _as_table(energies, temperature)
     if isinstance(pathways, (str, Pathway)):
         pathways = [pathways]
     names = _select_surfaces(table, surfaces)
