@@ -515,7 +515,7 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
         notes.append(
             f"G computed from E for {int(has_e.sum())} rows: G = E + ZPE + CpdT - TS + solvation - "
             f"sum n_i (ZPE + CpdT - TS)_ref_i with reference corrections (eV) {corr_text} "
-            f"[{scheme.correction_source}] at {scheme.temperature:g} K"
+            f"[{scheme.correction_provenance}] at {scheme.temperature:g} K"
         )
         if "solvation" in numeric:
             empty_solv = int((has_e & ~np.isfinite(numeric["solvation"])).sum())

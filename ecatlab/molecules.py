@@ -46,6 +46,7 @@ __all__ = [
     "available_gases",
     "DEFAULT_WATER_VAPOUR_PRESSURE_BAR",
     "water_vapour_pressure_bar",
+    "water_pressure_convention_bar",
     "reference_corrections",
 ]
 
@@ -297,10 +298,25 @@ def water_vapour_pressure_bar(temperature) -> float | np.ndarray:
         K, 255.9 to 373 K.
     """
     t = np.asarray(temperature, dtype=float)
-    if np.any(~np.isfinite(t)) or np.any(t < 255.9) or np.any(t > 373.0):
-        raise ThermochemistryError(f"water Antoine equation valid for 255.9-373 K only, got {temperature!r}")
+    if np.any(~np.isfinite(t)) or np.any(t < 255.9) or np.any(t > 373.2):
+        raise ThermochemistryError(f"water Antoine equation valid for 255.9-373.15 K only (liquid water at 1 bar), got {temperature!r}")
     p = 10.0 ** (4.6543 - 1435.264 / (t - 64.848))
     return float(p) if p.ndim == 0 else p
+
+
+def water_pressure_convention_bar(temperature) -> float:
+    """Pressure of water vapour that stands for H2O(l) in the CHE convention, bar.
+
+    0.035 bar at 298.15 K (common practice in CHE work, e.g. Norskov et al., J. Phys. Chem. B 108,
+    17886 (2004)), scaled at other temperatures with the ratio of Antoine vapour pressures,
+    ``0.035 bar * p_sat(T) / p_sat(298.15 K)`` (:func:`water_vapour_pressure_bar`), so that the
+    liquid's temperature dependence (its entropy, via the vapour-pressure curve) enters and the
+    value is continuous in T.
+    """
+    t = float(temperature)
+    if abs(t - STANDARD_TEMPERATURE) < 1e-9:
+        return DEFAULT_WATER_VAPOUR_PRESSURE_BAR
+    return float(DEFAULT_WATER_VAPOUR_PRESSURE_BAR * water_vapour_pressure_bar(t) / water_vapour_pressure_bar(STANDARD_TEMPERATURE))
 
 
 def reference_corrections(
@@ -308,7 +324,7 @@ def reference_corrections(
     temperature: float = STANDARD_TEMPERATURE,
     *,
     pressure_bar: float | Mapping[str, float] = 1.0,
-    water_vapour_pressure_bar: float | None = DEFAULT_WATER_VAPOUR_PRESSURE_BAR,
+    water_vapour_pressure_bar: float | str | None = "convention",
     symmetry_numbers: Mapping[str, int] | None = None,
 ):
     """ZPE, CpdT and TS (eV) of reference molecules at a temperature and pressure.
@@ -324,10 +340,11 @@ def reference_corrections(
         K.
     pressure_bar : float or mapping
         Partial pressure of gases in bar (default 1 bar = standard state), or per key.
-    water_vapour_pressure_bar : float or None
-        Pressure at which H2O(l) is evaluated, bar. Default 0.035 bar (common practice, valid near
-        298.15 K; a :class:`~ecatlab.errors.CorrectionWarning` is issued if it is used more than
-        1 K away). ``None`` uses :func:`water_vapour_pressure_bar` at ``temperature``.
+    water_vapour_pressure_bar : "convention", float or None
+        Pressure at which H2O(l) is evaluated, bar. ``"convention"`` (default):
+        :func:`water_pressure_convention_bar` (0.035 bar at 298.15 K, following the vapour pressure
+        at other T). A number: that pressure (a :class:`~ecatlab.errors.CorrectionWarning` is issued if
+        it is used more than 1 K from 298.15 K). ``None``: the Antoine vapour pressure at ``temperature``.
     symmetry_numbers : mapping, optional
         Overrides of detected rotational symmetry numbers, by formula.
 
@@ -354,6 +371,13 @@ def reference_corrections(
             if water_vapour_pressure_bar is None:
                 p = water_vapour_pressure_bar_at(t)
                 treatment = f"liquid as vapour at {p:.4g} bar (Antoine, {t:g} K)"
+            elif isinstance(water_vapour_pressure_bar, str):
+                if water_vapour_pressure_bar != "convention":
+                    raise ThermochemistryError(
+                        f"water_vapour_pressure_bar must be 'convention', a number of bar or None, got {water_vapour_pressure_bar!r}"
+                    )
+                p = water_pressure_convention_bar(t)
+                treatment = f"liquid as vapour at {p:.4g} bar (CHE convention, {t:g} K)"
             else:
                 p = float(water_vapour_pressure_bar)
                 if not (math.isfinite(p) and p > 0):

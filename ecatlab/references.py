@@ -19,6 +19,7 @@ The proton-electron pair follows the computational hydrogen electrode; see :mod:
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Iterable, Mapping
 
 import numpy as np
@@ -31,49 +32,49 @@ from ecatlab.notation import Species
 __all__ = [
     "ReferenceScheme",
     "FORMATION_GIBBS_KJ_PER_MOL",
+    "formation_data",
+    "standard_free_energy_shift",
+    "compute_reference_corrections",
     "FORMATION_TABLE_SOURCE",
     "DEFAULT_REFERENCES",
     "default_reference_corrections",
 ]
 
-#: Standard Gibbs energies of formation, kJ/mol, at 298.15 K and 1 bar (aqueous: 1 mol/kg).
-#: Source: The NBS Tables of Chemical Thermodynamic Properties (Wagman et al., J. Phys. Chem. Ref.
-#: Data 11, Suppl. 2, 1982), as reproduced in the CRC Handbook of Chemistry and Physics
-#: ("Standard thermodynamic properties of chemical substances"). Values transcribed from memory of
-#: those tables; the tests cross-check the gas-phase entries against the `chemicals` package.
-FORMATION_GIBBS_KJ_PER_MOL: dict[str, float] = {
-    "H2(g)": 0.0,
-    "O2(g)": 0.0,
-    "N2(g)": 0.0,
-    "H2O(l)": -237.129,
-    "H2O(g)": -228.572,
-    "H2O2(l)": -120.35,
-    "H2O2(aq)": -134.03,
-    "CO(g)": -137.168,
-    "CO2(g)": -394.359,
-    "CH4(g)": -50.72,
-    "CH3OH(l)": -166.27,
-    "CH3OH(g)": -161.96,
-    "CH3OH(aq)": -175.31,
-    "HCOOH(l)": -361.35,
-    "HCOOH(aq)": -372.3,
-    "CH2O(g)": -102.53,
-    "C2H4(g)": 68.15,
-    "C2H6(g)": -32.82,
-    "C2H5OH(l)": -174.78,
-    "C2H5OH(aq)": -181.64,
-    "CH3COOH(l)": -389.9,
-    "CH3COOH(aq)": -396.46,
-    "NH3(g)": -16.45,
-    "NH3(aq)": -26.50,
-    "N2H4(l)": 149.34,
-    "N2H4(g)": 159.35,
-}
+_FORMATION_FILE = "formation_thermo.json"
+
+
+@lru_cache(maxsize=None)
+def formation_data() -> pd.DataFrame:
+    """The shipped formation data (``ecatlab/data/formation_thermo.json``), indexed by species key.
+
+    Columns ``dfG`` and ``dfH`` (kJ/mol, 298.15 K, 1 bar; aqueous solutes at 1 mol/kg), ``S``
+    (J/(mol K)) and ``source`` (the citation of each row). The file carries a schema version.
+    """
+    import json
+    from importlib import resources
+
+    raw = json.loads(resources.files("ecatlab.data").joinpath(_FORMATION_FILE).read_text(encoding="utf-8"))
+    if raw.get("schema") != "ecatlab.formation-data/1":
+        raise ReferenceSchemeError(f"{_FORMATION_FILE}: unknown schema {raw.get('schema')!r}; expected 'ecatlab.formation-data/1'")
+    frame = pd.DataFrame(raw["rows"]).set_index("species")
+    return frame
+
+
+def __getattr__(name: str):
+    # FORMATION_GIBBS_KJ_PER_MOL is read from the data file on first use (kept for compatibility).
+    if name == "FORMATION_GIBBS_KJ_PER_MOL":
+        return {k: float(v) for k, v in formation_data()["dfG"].items() if not k.endswith("(s)")}
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
 FORMATION_TABLE_SOURCE = (
-    "standard Gibbs energies of formation at 298.15 K (NBS tables, Wagman et al. 1982, via the CRC Handbook)"
+    "standard Gibbs energies of formation at 298.15 K (NBS tables, Wagman et al. 1982, via the CRC Handbook), "
+    "carried to T with the gas library's ideal-gas thermochemistry (aqueous and other condensed species: "
+    "tabulated entropy, constant enthalpy and entropy)"
 )
 
 DEFAULT_REFERENCES: tuple[str, ...] = ("H2(g)", "H2O(l)", "CO2(g)", "N2(g)")
+
 
 def default_reference_corrections(temperature: float) -> tuple[pd.DataFrame, str]:
     """ZPE, integral of Cp dT and T*S of the reference molecules at ``temperature``.
@@ -86,47 +87,130 @@ def default_reference_corrections(temperature: float) -> tuple[pd.DataFrame, str
     Returns
     -------
     (DataFrame, str)
-        Table indexed by reference species key with columns ``ZPE``, ``CpdT``, ``TS`` in eV, and a
+        Table indexed by species key with columns ``ZPE``, ``CpdT``, ``TS`` in eV (a copy), and a
         sentence saying where the numbers come from.
+
+    Notes
+    -----
+    Computed from the built-in gas library (ideal gas, rigid rotor, harmonic oscillator, gases at
+    1 bar, H2O(l) as its vapour at the CHE convention pressure, see
+    :func:`ecatlab.molecules.water_pressure_convention_bar`). At 298.15 K the table shipped in
+    ``ecatlab/data/reference_corrections_298K.csv`` is used (a test recomputes it).
     """
-    # Computed from the built-in gas library (ecatlab.molecules / ecatlab.thermochemistry): ideal
-    # gas, rigid rotor, harmonic oscillator at `temperature`, gases at 1 bar, H2O(l) as vapour at
-    # 0.035 bar (common practice). Rows for every library molecule as gas, so that any choice of
-    # reference molecules finds its corrections. Imported lazily to keep `import ecatlab` light.
-    from ecatlab.molecules import DEFAULT_WATER_VAPOUR_PRESSURE_BAR, available_gases, reference_corrections
+    table, source = _default_corrections_cached(round(float(temperature), 9))
+    return table.copy(), source
+
+
+@lru_cache(maxsize=64)
+def _default_corrections_cached(temperature: float) -> tuple[pd.DataFrame, str]:
+    from ecatlab.molecules import DEFAULT_WATER_VAPOUR_PRESSURE_BAR
+
+    source = (
+        f"computed at {temperature:g} K from the built-in gas library (ideal gas, rigid rotor, harmonic "
+        f"fundamentals; gases at 1 bar, H2O(l) as vapour at {DEFAULT_WATER_VAPOUR_PRESSURE_BAR:g} bar at 298.15 K, "
+        "scaled with the vapour-pressure ratio at other temperatures)"
+    )
+    if abs(temperature - STANDARD_TEMPERATURE) < 1e-9:
+        from importlib import resources
+
+        text = resources.files("ecatlab.data").joinpath("reference_corrections_298K.csv").read_text(encoding="utf-8")
+        import io
+
+        table = pd.read_csv(io.StringIO(text), comment="#", index_col=0)
+        return table[["ZPE", "CpdT", "TS"]].astype(float).rename_axis(None), source
+    return compute_reference_corrections(temperature), source
+
+
+def compute_reference_corrections(temperature: float) -> pd.DataFrame:
+    """ZPE, CpdT, TS (eV) of every library gas at 1 bar and of H2O(l), computed at ``temperature`` (K)."""
+    from ecatlab.molecules import available_gases, reference_corrections
 
     keys = [f"{formula}(g)" for formula in available_gases()] + ["H2O(l)"]
     table = reference_corrections(keys, float(temperature))
-    source = (
-        f"computed at {float(temperature):g} K from the built-in gas library (ideal gas, rigid rotor, harmonic "
-        f"fundamentals; gases at 1 bar, H2O(l) as vapour at {DEFAULT_WATER_VAPOUR_PRESSURE_BAR:g} bar)"
-    )
-    return table[["ZPE", "CpdT", "TS"]].astype(float).rename_axis(None), source
+    return table[["ZPE", "CpdT", "TS"]].astype(float).rename_axis(None)
 
 
-@dataclass(frozen=True)
+@lru_cache(maxsize=4096)
+def standard_free_energy_shift(key: str, temperature: float) -> float:
+    """G°(X, T) - G°(X, 298.15 K) of one species in its standard state, kJ/mol.
+
+    * Gases of the built-in library: ideal-gas statistical thermodynamics at 1 bar
+      (:meth:`ecatlab.thermochemistry.IdealGasMolecule.free_energy_correction`).
+    * H2O(l): its vapour at the CHE convention pressure, which follows the vapour pressure, so the
+      liquid's own entropy and heat capacity enter (phase equilibrium, G_l(T) = G_g(T, p_sat(T))).
+    * Other species (aqueous solutes, other liquids, gases outside the library): constant enthalpy
+      and entropy, ``-(T - 298.15 K) S°`` with the tabulated S° (the heat-capacity term is neglected;
+      about 1 meV per 10 K for typical solutes).
+    """
+    t = float(temperature)
+    if abs(t - STANDARD_TEMPERATURE) < 1e-9:
+        return 0.0
+    from ecatlab.constants import EV_IN_KJ_PER_MOL
+    from ecatlab.molecules import GAS_LIBRARY, gas_molecule, water_pressure_convention_bar
+
+    sp = Species.parse(key)
+    formula = key.split("(")[0]
+    if sp.phase == "g" and formula in GAS_LIBRARY:
+        model = gas_molecule(formula)
+        shift = model.free_energy_correction(t, 1.0) - model.free_energy_correction(STANDARD_TEMPERATURE, 1.0)
+        return float(shift) * EV_IN_KJ_PER_MOL
+    if key == "H2O(l)":
+        model = gas_molecule("H2O")
+        p_t, p_0 = water_pressure_convention_bar(t), water_pressure_convention_bar(STANDARD_TEMPERATURE)
+        shift = model.free_energy_correction(t, p_t) - model.free_energy_correction(STANDARD_TEMPERATURE, p_0)
+        return float(shift) * EV_IN_KJ_PER_MOL
+    data = formation_data()
+    if key not in data.index:
+        raise ReferenceSchemeError(f"no standard entropy for {key}: it cannot be carried to {t:g} K; override its free energy")
+    return -(t - STANDARD_TEMPERATURE) * float(data.loc[key, "S"]) / 1000.0
+
+
+class _FrozenMapping(dict):
+    """A read-only, hashable dict (for :attr:`ReferenceScheme.overrides`)."""
+
+    def _refuse(self, *args, **kwargs):
+        raise TypeError("ReferenceScheme.overrides is read-only; build a new scheme with other overrides")
+
+    __setitem__ = __delitem__ = clear = pop = popitem = setdefault = update = _refuse  # type: ignore[assignment]
+
+    def __hash__(self) -> int:  # type: ignore[override]
+        return hash(tuple(sorted(self.items())))
+
+    def __reduce__(self):
+        return (_FrozenMapping, (dict(self),))
+
+
+@dataclass(frozen=True, eq=False)
 class ReferenceScheme:
     """The reference molecules and the free energies of molecular species relative to them.
+
+    Immutable and hashable; :func:`dataclasses.replace` keeps every field.
 
     Parameters
     ----------
     references : tuple of str
         Reference molecules, one per element they introduce (default H2(g), H2O(l), CO2(g), N2(g)).
-        Their element-count matrix must have full column rank.
+        Their element-count matrix must have full column rank. Any independent set works: the
+        proton-electron pair costs 1/2 G(H2(g)) relative to the set (0 when H2(g) is a reference).
     temperature : float
-        Temperature in K at which corrections apply (formation energies are tabulated at 298.15 K).
+        Temperature in K of every free energy the scheme gives: molecules (carried from the
+        298.15 K formation data to T, see :func:`standard_free_energy_shift`) and the default
+        reference corrections.
     overrides : mapping of str to float
-        User free energies (eV, relative to the references) that replace tabulated ones, e.g. a DFT
-        value for O2(g) or CO(g).
+        User free energies (eV, relative to the references, at ``temperature``) that replace
+        tabulated ones, e.g. a DFT value for O2(g) or CO(g). Stored read-only.
     corrections : DataFrame, optional
-        ZPE/CpdT/TS (eV) of the reference molecules; default from
-        :func:`default_reference_corrections` at ``temperature``.
+        User ZPE/CpdT/TS (eV) of the reference molecules, valid at ``temperature``; ``None`` (default)
+        computes them from the gas library at ``temperature`` (:func:`default_reference_corrections`).
+        The table in force is :attr:`correction_table`.
+    correction_source : str
+        Description of user corrections (default: "user-supplied table").
     """
 
     references: tuple[str, ...] = DEFAULT_REFERENCES
     temperature: float = STANDARD_TEMPERATURE
     overrides: Mapping[str, float] = field(default_factory=dict)
-    corrections: pd.DataFrame | None = field(default=None, compare=False, repr=False)
+    corrections: pd.DataFrame | None = field(default=None, repr=False)
     correction_source: str = ""
 
     def __post_init__(self) -> None:
@@ -135,6 +219,9 @@ class ReferenceScheme:
             if not Species.parse(key).is_molecule:
                 raise ReferenceSchemeError(f"reference {key!r} must be a molecule with a phase, e.g. 'H2O(l)'")
         object.__setattr__(self, "references", refs)
+        from ecatlab.che.conditions import check_temperature
+
+        object.__setattr__(self, "temperature", check_temperature(self.temperature))
         elements = sorted({el for r in refs for el in Species.parse(r).elements})
         matrix = np.array([[Species.parse(r).elements.get(el, 0.0) for r in refs] for el in elements])
         if matrix.shape[0] != matrix.shape[1] or np.linalg.matrix_rank(matrix) < len(refs):
@@ -149,16 +236,15 @@ class ReferenceScheme:
             sp = Species.parse(key)
             if not sp.is_molecule:
                 raise ReferenceSchemeError(f"override {key!r}: only molecules (g/l/aq) can be overridden here")
+            try:
+                value = float(value)
+            except (TypeError, ValueError):
+                raise ReferenceSchemeError(f"override {key!r}: free energy must be a number of eV, got {value!r}") from None
             if not np.isfinite(value):
                 raise ReferenceSchemeError(f"override {key!r}: free energy must be a finite number of eV, got {value!r}")
-            clean[sp.key] = float(value)
-        object.__setattr__(self, "overrides", clean)
-        if self.corrections is None:
-            table, source = default_reference_corrections(self.temperature)
-            object.__setattr__(self, "corrections", table)
-            if not self.correction_source:
-                object.__setattr__(self, "correction_source", source)
-        else:
+            clean[sp.key] = value
+        object.__setattr__(self, "overrides", _FrozenMapping(clean))
+        if self.corrections is not None:
             table = pd.DataFrame(self.corrections).copy()
             missing = [r for r in refs if r not in table.index]
             cols = [c for c in ("ZPE", "CpdT", "TS") if c not in table.columns]
@@ -167,9 +253,27 @@ class ReferenceScheme:
                     f"reference corrections table lacks rows {missing} or columns {cols}; "
                     "give ZPE, CpdT and TS in eV for every reference molecule"
                 )
+            values = table[["ZPE", "CpdT", "TS"]].apply(pd.to_numeric, errors="coerce")
+            if not np.isfinite(values.loc[list(refs)].to_numpy(dtype=float)).all():
+                raise ReferenceSchemeError("reference corrections must be finite numbers of eV for every reference molecule")
             object.__setattr__(self, "corrections", table)
-            if not self.correction_source:
-                object.__setattr__(self, "correction_source", "user-supplied table")
+        object.__setattr__(self, "_molecule_cache", {})
+
+    # -- identity --------------------------------------------------------------------------------
+    def _key(self) -> tuple:
+        user = None
+        if self.corrections is not None:
+            t = self.corrections.loc[list(self.references), ["ZPE", "CpdT", "TS"]].astype(float)
+            user = tuple(map(tuple, np.round(t.to_numpy(), 12)))
+        return (self.references, self.temperature, tuple(sorted(self.overrides.items())), user, self.correction_source)
+
+    def __eq__(self, other) -> bool:
+        if not isinstance(other, ReferenceScheme):
+            return NotImplemented
+        return self._key() == other._key()
+
+    def __hash__(self) -> int:
+        return hash(self._key())
 
     # -- composition balance --------------------------------------------------------------------
     @property
@@ -207,84 +311,140 @@ class ReferenceScheme:
 
     # -- molecular free energies ------------------------------------------------------------------
     def molecule_free_energy(self, species: Species | str) -> float:
-        """Free energy of a gas, liquid or aqueous species relative to the references, eV.
+        r"""Free energy of a gas, liquid or aqueous species relative to the references, eV, at :attr:`temperature`.
 
-        ``G_rel = [Delta_f G(X) - sum_i n_i Delta_f G(ref_i)] / (N_A e)`` from the formation table
-        (298.15 K), unless overridden. The reference molecules themselves are 0 by definition.
+        Notes
+        -----
+        For a species X with reference coefficients n_i (``balance``):
+
+        .. math::
+
+            G_\mathrm{rel}(X, T) = \frac{1}{N_A}\Big[\Delta_f G^\circ(X) - \sum_i n_i \Delta_f G^\circ(\mathrm{ref}_i)
+            + \delta(X, T) - \sum_i n_i\,\delta(\mathrm{ref}_i, T)\Big]
+
+        with the 298.15 K formation data and :math:`\delta = G^\circ(T) - G^\circ(298.15\,\mathrm{K})`
+        from :func:`standard_free_energy_shift`. Overrides win; reference molecules are 0.
         """
         sp = Species.parse(species) if isinstance(species, str) else species
         if sp.key in self.references:
             return 0.0
         if sp.key in self.overrides:
             return self.overrides[sp.key]
+        cache = self._molecule_cache  # type: ignore[attr-defined]
+        if sp.key in cache:
+            return cache[sp.key]
         if not sp.is_molecule:
             raise ReferenceSchemeError(f"{sp.key} is not a molecule; adsorbate energies come from the energy table")
-        if sp.key not in FORMATION_GIBBS_KJ_PER_MOL:
+        data = formation_data()
+        if sp.key not in data.index:
             raise ReferenceSchemeError(
                 f"no standard Gibbs energy of formation for {sp.key} in the built-in table; give its free energy "
                 "relative to the references with ReferenceScheme(overrides={...}) (eV)"
             )
         coefs = self.balance(sp.elements)
-        missing_refs = [r for r in self.references if r not in FORMATION_GIBBS_KJ_PER_MOL and abs(coefs[r]) > 0]
+        missing_refs = [r for r in self.references if r not in data.index and abs(coefs[r]) > 0]
         if missing_refs:
             raise ReferenceSchemeError(f"no formation energy for reference(s) {missing_refs} to reference {sp.key}")
-        g = FORMATION_GIBBS_KJ_PER_MOL[sp.key] - sum(
-            c * FORMATION_GIBBS_KJ_PER_MOL[r] for r, c in coefs.items() if abs(c) > 0
-        )
-        return float(g * KJ_PER_MOL_IN_EV)
+        t = self.temperature
+
+        def g_t(key: str) -> float:
+            return float(data.loc[key, "dfG"]) + standard_free_energy_shift(key, t)
+
+        g = g_t(sp.key) - sum(c * g_t(r) for r, c in coefs.items() if abs(c) > 0)
+        value = float(g * KJ_PER_MOL_IN_EV)
+        cache[sp.key] = value
+        return value
+
+    def proton_electron_free_energy(self) -> float:
+        """G_rel(H+ + e-) at U_RHE = 0 V: 1/2 G_rel(H2(g)) in this scheme, eV (0 when H2(g) is a reference)."""
+        return 0.5 * self.molecule_free_energy("H2(g)")
 
     def known_molecules(self) -> list[str]:
         """Molecules whose free energy the scheme can give."""
-        return sorted(set(FORMATION_GIBBS_KJ_PER_MOL) | set(self.overrides) | set(self.references))
+        data = formation_data()
+        tabulated = [k for k in data.index if not k.endswith("(s)")]
+        return sorted(set(tabulated) | set(self.overrides) | set(self.references))
 
     # -- corrections --------------------------------------------------------------------------------
+    @property
+    def correction_table(self) -> pd.DataFrame:
+        """The ZPE/CpdT/TS table in force (eV; a copy): the user's, or the default at :attr:`temperature`."""
+        if self.corrections is not None:
+            return self.corrections.copy()
+        return default_reference_corrections(self.temperature)[0]
+
+    @property
+    def correction_provenance(self) -> str:
+        """Where the reference corrections come from (one sentence)."""
+        if self.corrections is not None:
+            return self.correction_source or f"user-supplied table (for {self.temperature:g} K)"
+        return default_reference_corrections(self.temperature)[1]
+
     def reference_correction(self) -> pd.Series:
         """ZPE + CpdT - TS of each reference molecule (eV), indexed by reference key."""
-        t = self.corrections.loc[list(self.references)]
+        t = self.correction_table.loc[list(self.references)]
         return (t["ZPE"] + t["CpdT"] - t["TS"]).astype(float)
 
     def at_temperature(self, temperature: float) -> "ReferenceScheme":
         """The same scheme at another temperature (K): same references and overrides, default
-        reference corrections recomputed. A user-given correction table is valid at one temperature
-        only and is refused (give one for the new temperature)."""
-        t = float(temperature)
+        reference corrections recomputed.
+
+        Raises
+        ------
+        ReferenceSchemeError
+            When the scheme carries user reference corrections (valid at one temperature) or
+            overrides (free energies at one temperature): build a scheme for the new temperature.
+        """
+        from ecatlab.che.conditions import check_temperature
+
+        t = check_temperature(temperature)
         if abs(t - self.temperature) < 1e-9:
             return self
-        if self.correction_source == "user-supplied table" or getattr(self, "_user_corrections", False):
+        if self.corrections is not None:
             raise ReferenceSchemeError(
                 f"the reference scheme carries a user-given reference-correction table for {self.temperature:g} K; "
                 f"it cannot be used at {t:g} K. Build ReferenceScheme(corrections=...) with corrections for {t:g} K"
             )
-        return ReferenceScheme(self.references, t, dict(self.overrides))
+        if self.overrides:
+            raise ReferenceSchemeError(
+                f"the reference scheme overrides {', '.join(sorted(self.overrides))} with free energies for "
+                f"{self.temperature:g} K; build ReferenceScheme(temperature={t:g}, overrides=...) with values for {t:g} K"
+            )
+        return ReferenceScheme(self.references, t)
 
     def describe(self) -> str:
         """One line naming the scheme, for table captions and figure notes."""
         refs = ", ".join(self.references)
         return (
-            f"CHE model; references {refs}; molecules from {FORMATION_TABLE_SOURCE}"
+            f"CHE model; references {refs} at {self.temperature:g} K; molecules from {FORMATION_TABLE_SOURCE}"
             + (f"; overridden: {', '.join(sorted(self.overrides))}" if self.overrides else "")
-            + f"; reference corrections: {self.correction_source}"
+            + f"; reference corrections: {self.correction_provenance}"
         )
 
     def to_dict(self) -> dict:
-        """Plain-data form with a schema version."""
+        """Plain-data form with a schema version (round-trips through :meth:`from_dict`)."""
         return {
-            "schema": "ecatlab.references/1",
+            "schema": "ecatlab.references/2",
             "references": list(self.references),
             "temperature": self.temperature,
             "overrides": dict(self.overrides),
-            "corrections": self.corrections.to_dict(),
+            "corrections": None if self.corrections is None else self.corrections[["ZPE", "CpdT", "TS"]].to_dict(),
             "correction_source": self.correction_source,
         }
 
     @classmethod
     def from_dict(cls, data: Mapping) -> "ReferenceScheme":
-        if data.get("schema") != "ecatlab.references/1":
-            raise ReferenceSchemeError(f"unknown reference-scheme schema {data.get('schema')!r}")
+        schema = data.get("schema")
+        if schema not in ("ecatlab.references/1", "ecatlab.references/2"):
+            raise ReferenceSchemeError(f"unknown reference-scheme schema {schema!r}; expected 'ecatlab.references/2'")
+        corrections = data.get("corrections")
+        source = data.get("correction_source", "")
+        if schema == "ecatlab.references/1" and str(source).startswith("computed at"):
+            corrections, source = None, ""  # version 1 stored the default table; recompute it
         return cls(
             tuple(data["references"]),
             float(data["temperature"]),
             dict(data.get("overrides", {})),
-            pd.DataFrame(data["corrections"]),
-            data.get("correction_source", ""),
+            None if corrections is None else pd.DataFrame(corrections),
+            source,
         )

@@ -135,7 +135,7 @@ def test_condition_errors(oxygen):
     with pytest.raises(ConditionError, match="outside 200-1000 K"):
         limiting_potentials(oxygen, "orr-4e", temperature=5000)
     with pytest.warns(ConditionsWarning, match="liquid range of water"):
-        limiting_potentials(oxygen, "orr-4e", temperature=380)
+        limiting_potentials(oxygen, "orr-4e", temperature=270)
 
 
 def test_lowercase_scale_and_no_warning_at_room_temperature(oxygen):

@@ -38,7 +38,7 @@ def test_reference_corrections_close_to_common_values():
     # commonly used reference corrections at 298.15 K (ZPE, TS in eV; common practice, from memory):
     # H2 0.27 / 0.40, H2O(l at 0.035 bar) 0.56 / 0.67, CO2 0.31 / 0.66, N2 0.15 / 0.59
     common = {"H2(g)": (0.27, 0.40), "H2O(l)": (0.56, 0.67), "CO2(g)": (0.31, 0.66), "N2(g)": (0.15, 0.59)}
-    corr = ReferenceScheme().corrections
+    corr = ReferenceScheme().correction_table
     for key, (zpe, ts) in common.items():
         assert corr.loc[key, "ZPE"] == pytest.approx(zpe, abs=0.015), key
         assert corr.loc[key, "TS"] == pytest.approx(ts, abs=0.015), key

@@ -120,8 +120,14 @@ def test_water_liquid_through_vapour_pressure():
 
 
 def test_water_pressure_warning_away_from_298():
+    # a fixed 0.035 bar (a 298.15 K value) used at 350 K warns; the default convention follows p_sat(T)
     with pytest.warns(CorrectionWarning, match="298.15 K value"):
-        reference_corrections(["H2O(l)"], 350.0)
+        reference_corrections(["H2O(l)"], 350.0, water_vapour_pressure_bar=0.035)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        conv = reference_corrections(["H2O(l)"], 350.0)
+    ratio = water_vapour_pressure_bar(350.0) / water_vapour_pressure_bar(298.15)
+    assert conv.loc["H2O(l)", "pressure_bar"] == pytest.approx(0.035 * ratio)
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         t = reference_corrections(["H2O(l)"], 350.0, water_vapour_pressure_bar=None)
@@ -162,7 +168,8 @@ def test_engine_hook_uses_computed_corrections():
             assert table.loc[key, col] == pytest.approx(ours.loc[key, col], abs=1e-15)
     assert "computed at 298.15 K" in source and "0.035 bar" in source
     scheme = ReferenceScheme(temperature=298.15)
-    assert scheme.corrections.loc["H2(g)", "TS"] == pytest.approx(ours.loc["H2(g)", "TS"])
-    with pytest.warns(CorrectionWarning):
+    assert scheme.correction_table.loc["H2(g)", "TS"] == pytest.approx(ours.loc["H2(g)", "TS"])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # the default water pressure follows T: nothing to warn about
         hot = ReferenceScheme(temperature=320.0)
-    assert hot.corrections.loc["H2(g)", "TS"] > scheme.corrections.loc["H2(g)", "TS"]
+    assert hot.correction_table.loc["H2(g)", "TS"] > scheme.correction_table.loc["H2(g)", "TS"]

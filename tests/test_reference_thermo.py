@@ -113,7 +113,7 @@ def test_moving_a_constant_between_adsorbate_and_reference_keeps_step_energies(s
         "E": [0.6, 1.9, 3.9, 1.1, 2.6, 4.3],
         "ZPE": [0.35, 0.07, 0.41] * 2, "CpdT": [0.05, 0.03, 0.08] * 2, "TS": [0.08, 0.04, 0.15] * 2,
     })
-    moved_corr = base.corrections.copy()
+    moved_corr = base.correction_table
     moved_corr.loc[ref, "ZPE"] += shift
     moved = ReferenceScheme(corrections=moved_corr)
     rows2 = rows.copy()

@@ -55,7 +55,7 @@ def test_unknown_molecule_message():
 
 def test_corrections_table_validation_and_roundtrip():
     scheme = ReferenceScheme()
-    assert set(scheme.corrections.columns) >= {"ZPE", "CpdT", "TS"}
+    assert set(scheme.correction_table.columns) >= {"ZPE", "CpdT", "TS"}
     again = ReferenceScheme.from_dict(scheme.to_dict())
     assert again.references == scheme.references
     pd.testing.assert_series_equal(again.reference_correction(), scheme.reference_correction())

@@ -204,6 +204,9 @@ def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: Referen
     electrons = np.zeros(n)
     protons = np.zeros(n)
     water = scheme.molecule_free_energy("H2O(l)")
+    # G_rel(H+) at pH 0 is 1/2 G_rel(H2(g)) of the scheme (0 when H2(g) is a reference); the pH and
+    # potential terms are added in CompiledPathway.affine.
+    half_h2 = scheme.proton_electron_free_energy()
     for i, step in enumerate(steps):
         for sp, c in step.net().items():
             if sp.is_adsorbate:
@@ -214,9 +217,10 @@ def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: Referen
                 electrons[i] -= c
             elif sp == PROTON:
                 protons[i] -= c
+                mol[i] += c * half_h2
             elif sp == HYDROXIDE:
                 protons[i] += c
-                mol[i] += c * water
+                mol[i] += c * (water - half_h2)
     return CompiledPathway(pathway, adsorbates, stoich, mol, electrons, protons)
 
 
@@ -552,8 +556,11 @@ def equilibrium_potential(
     scale : {"RHE", "SHE"}
     pH : float
     temperature : float
-        K; the tabulated molecular free energies are at 298.15 K.
+        K; molecules' free energies are evaluated at this temperature (see
+        :meth:`ecatlab.references.ReferenceScheme.molecule_free_energy`).
     references : ReferenceScheme, optional
+        Default: H2(g), H2O(l), CO2(g), N2(g) at ``temperature``; a scheme at another temperature is
+        carried to ``temperature`` (:meth:`~ecatlab.references.ReferenceScheme.at_temperature`).
 
     Returns
     -------
@@ -566,7 +573,7 @@ def equilibrium_potential(
     1.229
     """
     sc = _check_conditions(scale, pH, temperature)
-    scheme = references or ReferenceScheme()
+    scheme = ReferenceScheme(temperature=temperature) if references is None else references.at_temperature(temperature)
     if isinstance(pathway_or_reaction, Step):
         step = pathway_or_reaction
     elif isinstance(pathway_or_reaction, str) and "->" in pathway_or_reaction and "\n" not in pathway_or_reaction.strip():
