@@ -133,9 +133,12 @@ class ReportAnalysis:
 
 
 def _complete_surfaces(lp: pd.DataFrame, key: str) -> list[str]:
+    """Surfaces with complete data for ``key``, best first by the kernel's ranking rule."""
+    from ecatlab.tables import sort_by_ranking
+
     rows = lp[(lp["pathway"] == key) & (lp["missing_species"].astype(str) == "")]
-    rows = rows.assign(_eta=rows["overpotential"]).sort_values("_eta", kind="stable", na_position="last")
-    return list(rows["surface"])
+    rows.attrs = dict(lp.attrs)
+    return list(sort_by_ranking(rows)["surface"]) if len(rows) else []
 
 
 def analyse(
@@ -161,7 +164,7 @@ def analyse(
     surfaces : list of str, optional
         Surfaces to include (default all).
     top : int
-        Number of best surfaces (lowest overpotential) overlaid in each pathway's diagram.
+        Number of best-ranked surfaces (unblocked first, then lowest G_max) overlaid in each pathway's diagram.
     style : str
         Figure preset (``"double"`` suits a report page).
     diagrams : bool
@@ -220,7 +223,7 @@ def _draw_figures(table, paths, lp, pH, scale, temperature, top, style) -> list[
                                       style=style, annotate=len(chosen) == 1)
         figures.append(ReportFigure(
             path.name, "surfaces",
-            f"{path.name}: free-energy diagram of the {len(chosen)} surface(s) with the lowest overpotential "
+            f"{path.name}: free-energy diagram of the {len(chosen)} best-ranked surface(s) (unblocked first, then lowest G_max) "
             f"({', '.join(chosen)}) at U = 0 V vs {scale}; the potential-determining step of each is underlaid in yellow.",
             ax.figure,
         ))
@@ -229,7 +232,7 @@ def _draw_figures(table, paths, lp, pH, scale, temperature, top, style) -> list[
                                         temperature=temperature, style=style)
         figures.append(ReportFigure(
             path.name, "potentials",
-            f"{path.name} on {best} (lowest overpotential) at U = 0 V, at the equilibrium potential U_eq and at its "
+            f"{path.name} on {best} (best-ranked: unblocked, lowest G_max) at U = 0 V, at the equilibrium potential U_eq and at its "
             f"limiting potential U_L (V vs {scale}); at U_L the potential-determining step is flat.",
             ax.figure,
         ))
@@ -322,11 +325,28 @@ def _ranking_html(a: ReportAnalysis) -> str:
     ranked = rank_surfaces(a.limiting)
     best = ranked[ranked["rank"] == 1].copy()
     best.attrs = dict(ranked.attrs)
-    best.attrs["caption"] = "Best surface(s) per pathway (rank 1 = lowest theoretical overpotential). " + ranked.attrs["caption"]
+    best.attrs["caption"] = "Best surface(s) per pathway (rank 1). " + ranked.attrs["caption"]
     matrix = overpotential_matrix(a.limiting)
+    blocked = ranked[ranked["blocked"].astype(bool)] if "blocked" in ranked else ranked.iloc[:0]
+    blocked_note = ""
+    if len(blocked):
+        items = "".join(
+            f"<li>{_esc(r.pathway)} on {_esc(r.surface)}: {_esc(r.why)}</li>" for r in blocked.itertuples(index=False)
+        )
+        blocked_note = (
+            f"<p>{len(blocked)} (surface, pathway) pair(s) are <b>blocked</b> by an uphill chemical step that no "
+            "potential can drive; they rank after every unblocked surface, whatever their electrochemical "
+            "overpotential says.</p><details><summary>Blocked pairs and why</summary><ul>" + items + "</ul></details>"
+        )
     return (
-        "<p>Surfaces are ranked within each pathway by the theoretical overpotential (V); lower is better. "
-        "Rankings only compare the thermodynamic descriptor; kinetics and stability are not considered.</p>"
+        "<p>Surfaces are ranked within each pathway by the chemical-step-aware measure: surfaces whose pathway "
+        "is blocked by an uphill chemical step (potential-independent: Tafel recombination, desorption, O<sub>2</sub> "
+        "splitting) come after every unblocked one; within each group, lower <i>G</i><sub>max</sub> ranks first. "
+        "<i>G</i><sub>max</sub> is the largest step free energy at the equilibrium potential over all steps, chemical "
+        "ones included (Exner, ACS Catal. 10, 12607 (2020)); for pathways of one-electron steps without an uphill "
+        "chemical step it equals e times the theoretical overpotential. Rankings compare thermodynamic descriptors "
+        "only; kinetics and stability are not considered.</p>"
+        + blocked_note
         + to_html(best)
         + "<h3>Overpotentials of every surface and pathway (V)</h3>"
         + to_html(matrix)
@@ -403,7 +423,7 @@ def render_html(
         ("inputs", "Inputs", _inputs_html(a)),
         ("limiting-potentials", "Limiting potentials",
          "<p>Limiting potential U<sub>L</sub>, equilibrium potential U<sub>eq</sub> and theoretical overpotential "
-         "&#951; per surface and pathway, sorted by overpotential within each pathway.</p>" + to_html(table)
+         "&#951; per surface and pathway, sorted within each pathway by the ranking rule (unblocked first, then lowest G<sub>max</sub>).</p>" + to_html(table)
          + "<h3>Columns</h3>" + _columns_html(table.attrs["columns"])),
         ("ranking", "Ranking of surfaces", _ranking_html(a)),
         ("diagrams", "Free-energy diagrams", _figures_html(a)),

@@ -3,7 +3,10 @@ r"""Limiting-potential tables for papers and reports: formatting, ranking and ex
 Input is the frame of :func:`ecatlab.che.limiting_potentials` (one row per surface and pathway);
 nothing here recomputes physics. :func:`limiting_potential_table` selects and renames its columns
 into a display table whose headers carry their units; :data:`TABLE_COLUMNS` documents each
-column. :func:`rank_surfaces` orders surfaces per pathway by theoretical overpotential.
+column. :func:`rank_surfaces` orders surfaces per pathway by the kernel's ranking rule
+(:func:`ecatlab.che.kernel.ranking_order`): surfaces whose pathway is blocked by an uphill chemical
+step come after every unblocked one, and within each group lower ``G_max`` (the largest step free
+energy at the equilibrium potential, chemical steps included; Exner, ACS Catal. 2020) comes first.
 
 Exports (all carry the conditions: potential scale, pH, temperature and reference scheme):
 
@@ -38,6 +41,8 @@ __all__ = [
     "TABLE_COLUMNS",
     "limiting_potential_table",
     "rank_surfaces",
+    "sort_by_ranking",
+    "blocked_reason",
     "overpotential_matrix",
     "table_caption",
     "to_markdown",
@@ -58,6 +63,9 @@ _SPEC: dict[str, tuple[str, str, str, int | None]] = {
     "overpotential": ("eta [V]", r"$\eta$ / V", "theoretical overpotential, positive = loss [V]", 2),
     "determining_step": ("potential-determining step", "potential-determining step",
                          "potential-determining step (equation)", None),
+    "G_max": ("G_max [eV]", r"$G_\mathrm{{max}}$ / eV",
+              "largest step free energy at U_eq over all steps, chemical steps included (Exner 2020); ranking key, lower is better [eV]", 2),
+    "blocked": ("blocked", "blocked", "True if an uphill chemical step blocks the pathway at every potential", None),
     "max_chemical_dG": ("max chemical dG [eV]", r"max.\ chemical $\Delta G$ / eV",
                         "largest free energy of a potential-independent (chemical) step; empty if none [eV]", 2),
     "missing_species": ("missing species", "missing species", "adsorbates lacking for this surface (then no numbers)", None),
@@ -68,7 +76,7 @@ TABLE_COLUMNS: dict[str, str] = {
     _SPEC[k][0].format(scale="RHE"): _SPEC[k][2].format(scale="RHE") for k in _SPEC
 }
 
-_DEFAULT_COLUMNS = ("surface", "pathway", "limiting_potential", "equilibrium_potential", "overpotential", "determining_step")
+_DEFAULT_COLUMNS = ("surface", "pathway", "limiting_potential", "equilibrium_potential", "overpotential", "determining_step", "G_max")
 
 
 def _check_frame(lp: pd.DataFrame) -> None:
@@ -127,7 +135,8 @@ def limiting_potential_table(lp: pd.DataFrame, columns: Sequence[str] | None = N
         overpotential, determining_step, max_chemical_dG, missing_species``. Default: the first six;
         ``max_chemical_dG`` and ``missing_species`` are added when any row has a value there.
     sort : bool
-        Sort by pathway, then overpotential (lowest first, missing last).
+        Sort by pathway, then by the ranking rule of :func:`sort_by_ranking` (unblocked first,
+        lower G_max first, missing last).
 
     Returns
     -------
@@ -140,8 +149,12 @@ def limiting_potential_table(lp: pd.DataFrame, columns: Sequence[str] | None = N
     c = _conditions(lp)
     if columns is None:
         cols = list(_DEFAULT_COLUMNS)
+        if "G_max" not in lp:
+            cols.remove("G_max")
         if "max_chemical_dG" in lp and np.isfinite(lp["max_chemical_dG"].to_numpy(dtype=float)).any():
             cols.append("max_chemical_dG")
+            if "blocked" in lp:
+                cols.append("blocked")
         if "missing_species" in lp and (lp["missing_species"].astype(str).str.len() > 0).any():
             cols.append("missing_species")
     else:
@@ -149,9 +162,7 @@ def limiting_potential_table(lp: pd.DataFrame, columns: Sequence[str] | None = N
         if unknown:
             raise ValueError(f"unknown column(s) {unknown}; choose from {list(_SPEC)}")
         cols = list(columns)
-    frame = lp
-    if sort:
-        frame = frame.assign(_eta=frame["overpotential"]).sort_values(["pathway", "_eta"], na_position="last", kind="stable")
+    frame = sort_by_ranking(lp) if sort else lp
     out = pd.DataFrame({_SPEC[k][0].format(scale=c["scale"]): frame[k].to_numpy() for k in cols})
     out.attrs["columns"] = {_SPEC[k][0].format(scale=c["scale"]): _SPEC[k][2].format(scale=c["scale"]) for k in cols}
     out.attrs["latex_headers"] = {_SPEC[k][0].format(scale=c["scale"]): _SPEC[k][1].format(scale=c["scale"]) for k in cols}
@@ -161,40 +172,113 @@ def limiting_potential_table(lp: pd.DataFrame, columns: Sequence[str] | None = N
     return out
 
 
-def rank_surfaces(lp: pd.DataFrame, pathways: str | Iterable[str] | None = None) -> pd.DataFrame:
-    """Surfaces ranked per pathway by theoretical overpotential (rank 1 = lowest eta).
+def _ranking_inputs(frame: pd.DataFrame, blocking_tolerance: float | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """(G_max, blocked) of a limiting-potential frame; older frames without them fall back to eta."""
+    from ecatlab.che import kernel
 
-    Surfaces without numbers (missing species) come last with rank ``<NA>``. Ties share the lower
-    rank (``method="min"``).
+    if "G_max" in frame:
+        g = frame["G_max"].to_numpy(dtype=float)
+        if blocking_tolerance is not None and "max_chemical_dG" in frame:
+            blocked = kernel.is_blocked(frame["max_chemical_dG"].to_numpy(dtype=float), blocking_tolerance)
+        else:
+            blocked = frame["blocked"].to_numpy(dtype=bool) if "blocked" in frame else np.zeros(len(frame), bool)
+    else:  # a frame made before G_max existed
+        g = frame["overpotential"].to_numpy(dtype=float)
+        blocked = np.zeros(len(frame), bool)
+    return g, blocked
+
+
+def sort_by_ranking(lp: pd.DataFrame, blocking_tolerance: float | None = None) -> pd.DataFrame:
+    """Rows of a limiting-potential frame, pathways in their order of appearance, each pathway's
+    surfaces best first by :func:`ecatlab.che.kernel.ranking_order` (unblocked before blocked, then
+    lower G_max; missing data last)."""
+    from ecatlab.che import kernel
+
+    _check_frame(lp)
+    codes, _ = pd.factorize(lp["pathway"])
+    g, blocked = _ranking_inputs(lp, blocking_tolerance)
+    within = kernel.ranking_order(g, blocked)
+    rank_in = np.empty(len(lp), dtype=np.int64)
+    rank_in[within] = np.arange(len(lp))
+    order = np.lexsort((rank_in, codes))
+    out = lp.iloc[order].reset_index(drop=True)
+    out.attrs = dict(lp.attrs)
+    return out
+
+
+def blocked_reason(lp: pd.DataFrame) -> pd.Series:
+    """Per row: '' or why the pathway is blocked ('blocked at every potential by <step> (+x eV)')."""
+    if "blocked" not in lp or "uphill_chemical_steps" not in lp:
+        return pd.Series([""] * len(lp), index=lp.index, dtype=object)
+    blocked = lp["blocked"].to_numpy(dtype=bool)
+    text = lp["uphill_chemical_steps"].astype(str).to_numpy()
+    out = np.where(blocked, "blocked at every potential by " + text.astype(object), "")
+    return pd.Series(out, index=lp.index, dtype=object)
+
+
+def rank_surfaces(
+    lp: pd.DataFrame, pathways: str | Iterable[str] | None = None, blocking_tolerance: float | None = None
+) -> pd.DataFrame:
+    """Surfaces ranked per pathway, rank 1 = best.
+
+    The rule is the kernel's (:func:`ecatlab.che.kernel.ranking_order`): a surface whose pathway is
+    blocked by an uphill chemical step (``blocked``; potential-independent, so no potential can
+    drive it) ranks after every unblocked surface; within each group lower ``G_max`` ranks first.
+    ``G_max`` is the largest step free energy at the equilibrium potential over all steps, chemical
+    ones included (Exner, ACS Catal. 10, 12607 (2020)); for one-electron steps without an uphill
+    chemical step it is e times the theoretical overpotential. Surfaces without numbers (missing
+    species) come last with rank ``<NA>``; ties (same blocked flag and G_max) share the lower rank.
+
+    ``blocking_tolerance`` (eV, default: the table's ``blocked`` column, i.e. any uphill chemical
+    step) lets a chemical step uphill by at most that much count as not blocking, e.g. 0.1 eV for
+    steps that are thermally surmountable at room temperature (a judgement call; say so in papers).
 
     Returns
     -------
     DataFrame
-        Columns ``pathway``, ``rank``, ``surface``, ``overpotential`` [V], ``limiting_potential``
-        [V vs scale], ``determining_step``; ``.attrs`` carries the caption and column docs.
+        Columns ``pathway``, ``rank``, ``surface``, ``G_max`` [eV], ``blocked``, ``overpotential`` [V],
+        ``limiting_potential`` [V vs scale], ``determining_step``, ``why`` (the blocking chemical
+        step, or empty); ``.attrs`` carries the caption and column docs.
     """
     _check_frame(lp)
     frame = lp
     if pathways is not None:
         keep = [pathways] if isinstance(pathways, str) else list(pathways)
         frame = frame[frame["pathway"].isin(keep)]
-    rank = frame.groupby("pathway", sort=False)["overpotential"].rank(method="min", na_option="keep").astype("Int64")
-    out = frame.assign(rank=rank)[["pathway", "rank", "surface", "overpotential", "limiting_potential", "determining_step"]]
-    order = {p: i for i, p in enumerate(pd.unique(frame["pathway"]))}
-    out = out.assign(_order=out["pathway"].map(order), _eta=out["overpotential"])
-    out = out.sort_values(["_order", "_eta"], na_position="last", kind="stable").drop(columns=["_order", "_eta"])
-    out = out.reset_index(drop=True)
+        frame.attrs = dict(lp.attrs)
+    frame = sort_by_ranking(frame, blocking_tolerance)
+    g, blocked = _ranking_inputs(frame, blocking_tolerance)
+    codes, _ = pd.factorize(frame["pathway"])
+    key_change = np.ones(len(frame), dtype=bool)
+    key_change[1:] = (codes[1:] != codes[:-1]) | (blocked[1:] != blocked[:-1]) | ~(np.isclose(g[1:], g[:-1], rtol=0, atol=1e-12))
+    position = np.zeros(len(frame), dtype=np.int64)
+    starts = np.r_[0, np.flatnonzero(codes[1:] != codes[:-1]) + 1]
+    position = np.arange(len(frame)) - np.repeat(starts, np.diff(np.r_[starts, len(frame)]))
+    first_of_tie = np.maximum.accumulate(np.where(key_change, np.arange(len(frame)), 0))
+    rank = (position - (np.arange(len(frame)) - first_of_tie) + 1).astype(float)
+    rank[np.isnan(g)] = np.nan
+    cols = ["pathway", "surface"] + [c for c in ("G_max", "blocked") if c in frame] + ["overpotential", "limiting_potential", "determining_step"]
+    out = frame[cols].copy()
+    out.insert(1, "rank", pd.array(np.where(np.isnan(rank), pd.NA, rank), dtype="Int64"))
+    if "blocked" in out:
+        out["blocked"] = blocked
+    out["why"] = np.where(blocked, blocked_reason(frame.assign(blocked=True)).to_numpy(), "")
     c = _conditions(lp)
-    out.attrs["caption"] = table_caption(lp, "Surfaces ranked by theoretical overpotential (rank 1 = lowest)")
+    out.attrs["caption"] = table_caption(
+        lp, "Surfaces ranked per pathway (rank 1 = best): unblocked before blocked by an uphill chemical step, then lowest G_max"
+    )
     out.attrs["columns"] = {
         "pathway": "pathway key",
-        "rank": "rank within the pathway by overpotential, 1 = lowest [-]",
+        "rank": "rank within the pathway, 1 = best: unblocked surfaces first, then lower G_max [-]",
         "surface": "surface name",
-        "overpotential": "theoretical overpotential [V]",
+        "G_max": "largest step free energy at U_eq over all steps, chemical steps included (Exner 2020) [eV]",
+        "blocked": "True if an uphill chemical step blocks the pathway at every potential",
+        "overpotential": "theoretical overpotential from the electrochemical steps [V]",
         "limiting_potential": f"limiting potential [V vs {c['scale']}]",
         "determining_step": "potential-determining step (equation)",
+        "why": "the uphill chemical step(s) that block the pathway; empty if not blocked",
     }
-    out.attrs["decimals"] = {"overpotential": 2, "limiting_potential": 2}
+    out.attrs["decimals"] = {"G_max": 2, "overpotential": 2, "limiting_potential": 2}
     out.attrs["conditions"] = c
     return out
 

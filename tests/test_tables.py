@@ -45,13 +45,19 @@ def test_caption_names_conditions(lp):
 
 
 def test_ranking_matches_scipy_rankdata(lp):
+    # the ranking rule: unblocked before blocked, then lower G_max; scipy.stats.rankdata on the
+    # composite key (blocked * 1000 eV + G_max) is the independent implementation
     ranked = T.rank_surfaces(lp)
-    for key, group in lp.groupby("pathway", sort=False):
+    for key, group in lp.groupby("pathway", sort=False, observed=True):
         mine = ranked[ranked["pathway"] == key]
-        expected = rankdata(group["overpotential"].to_numpy(), method="min")
+        composite = group["blocked"].to_numpy(dtype=float) * 1000.0 + group["G_max"].to_numpy()
+        expected = rankdata(composite, method="min")
         by_surface = dict(zip(group["surface"], expected))
         assert [int(r) for r in mine["rank"]] == [int(by_surface[s]) for s in mine["surface"]]
-        assert np.all(np.diff(mine["overpotential"].to_numpy()) >= 0)
+        b = mine["blocked"].to_numpy(dtype=bool)
+        assert not np.any(b[:-1] & ~b[1:]), "a blocked surface ranks ahead of an unblocked one"
+        for flag in (False, True):
+            assert np.all(np.diff(mine["G_max"].to_numpy()[b == flag]) >= 0)
     assert list(pd.unique(ranked["pathway"])) == ["orr-4e", "her-volmer-heyrovsky", "co2rr-co"]
 
 

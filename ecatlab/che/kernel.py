@@ -58,6 +58,7 @@ __all__ = [
     "chemical_obstacle",
     "gmax",
     "is_blocked",
+    "BLOCKING_TOLERANCE_EV",
     "ranking_order",
     "effective_limiting_potential",
 ]
@@ -216,10 +217,19 @@ def gmax(a, n, equilibrium_potential) -> tuple[np.ndarray, np.ndarray]:
     return value, local
 
 
-def is_blocked(max_chemical_dG) -> np.ndarray:
-    """True where a chemical step is uphill (> 0 eV): blocked at every potential (NaN: False)."""
+#: A chemical step uphill by more than this (eV) blocks a pathway at every potential. Default 0:
+#: any uphill chemical step, since no potential can drive it; functions that rank take a
+#: ``blocking_tolerance`` argument for users who accept small, thermally surmountable steps.
+BLOCKING_TOLERANCE_EV = 0.0
+
+
+def is_blocked(max_chemical_dG, tolerance: float = BLOCKING_TOLERANCE_EV) -> np.ndarray:
+    """True where a chemical step is uphill by more than ``tolerance`` eV: blocked at every potential (NaN: False)."""
     m = np.asarray(max_chemical_dG, dtype=float)
-    return np.nan_to_num(m, nan=-np.inf) > 0.0
+    tol = float(tolerance)
+    if not np.isfinite(tol) or tol < 0:
+        raise ValueError(f"blocking tolerance must be a finite number of eV >= 0, got {tolerance!r}")
+    return np.nan_to_num(m, nan=-np.inf) > tol
 
 
 def ranking_order(g_max, blocked) -> np.ndarray:
