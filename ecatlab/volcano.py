@@ -55,6 +55,7 @@ import numpy as np
 import pandas as pd
 
 from ecatlab import che
+from ecatlab.che import kernel
 from ecatlab.constants import STANDARD_TEMPERATURE
 from ecatlab.energies import EnergyTable, read_energies
 from ecatlab.errors import MissingDataWarning, PathwayError, ScalingError
@@ -206,9 +207,12 @@ class Apex:
     descriptor_range : tuple of (float, float)
         (low, high) of the optimal descriptor interval (equal for a point; 1D only).
     limiting_potential : float
-        Best U_L, V on ``scale``.
+        Best value of the curve, V on ``scale``: the electrochemical U_L, or, when the curve includes
+        chemical steps, the effective limiting potential U_eq -/+ G_max/e.
     overpotential : float
-        Minimum theoretical overpotential |U_eq - U_L|, V.
+        Minimum theoretical overpotential at the apex, signed as in the tables
+        (:func:`ecatlab.che.kernel.signed_overpotential`: U_eq - U_L for reductions, U_L - U_eq for
+        oxidations), V.
     determining_steps : tuple of str
         Steps whose lines meet at the apex.
     at_boundary : bool
@@ -224,6 +228,7 @@ class Apex:
     determining_steps: tuple[str, ...]
     at_boundary: bool
     method: str
+    G_max: float = float("nan")
 
 
 def _conditions(path: Pathway, scheme: ReferenceScheme, pH, scale, temperature, source) -> dict:
@@ -253,11 +258,14 @@ class VolcanoCurve:
         All steps; ``electrochemical`` marks which have onset lines.
     electrochemical : ndarray of bool (n_steps,)
     step_onsets : ndarray (N, n_steps)
-        Onset potential -a_i/n_i of each step, V on ``scale`` (NaN for chemical steps).
+        The step lines, V on ``scale``: onset potentials -a_i/n_i of the electrochemical steps (NaN
+        for chemical steps), or, when :attr:`includes_chemical`, every step's potential equivalent
+        U_eq -/+ dG_i(U_eq)/e (:func:`ecatlab.che.kernel.potential_equivalents`).
     line_intercepts, line_slopes : ndarray (n_steps,)
-        Exact lines U_i(x) = intercept_i + slope_i * x (V, V/eV); NaN for chemical steps.
+        Exact lines U_i(x) = intercept_i + slope_i * x (V, V/eV); NaN for steps not on the curve.
     limiting_potential : ndarray (N,)
-        Envelope U_L, V on ``scale``.
+        The curve: envelope of the step lines, V on ``scale`` (the electrochemical U_L, or with
+        chemical steps the effective limiting potential U_eq -/+ G_max/e).
     determining_step_index : ndarray of int (N,)
         1-based index of the potential-determining step.
     max_chemical_dG : ndarray (N,)
@@ -265,6 +273,13 @@ class VolcanoCurve:
     equilibrium_potential : float
         U_eq, V on ``scale``.
     apex : Apex
+    includes_chemical : bool
+        True when chemical steps are on the curve (default for pathways that have them).
+    G_max : ndarray (N,)
+        G_max along the grid, eV (:func:`ecatlab.che.kernel.gmax`).
+    electrochemical_limiting_potential : ndarray (N,)
+        Envelope of the electrochemical onsets only, V on ``scale`` (equal to ``limiting_potential``
+        when the curve has no chemical step).
     surfaces : DataFrame
         Computed surfaces: ``surface``, ``descriptor`` (eV), ``limiting_potential`` (exact, V),
         ``overpotential`` (V), ``determining_step``, ``scaling_limiting_potential`` (envelope at
@@ -292,6 +307,9 @@ class VolcanoCurve:
     relations: tuple[ScalingRelation, ...] = field(repr=False)
     conditions: dict = field(repr=False)
     space: DescriptorSpace = field(repr=False)
+    includes_chemical: bool = False
+    G_max: np.ndarray = field(default=None, repr=False)
+    electrochemical_limiting_potential: np.ndarray = field(default=None, repr=False)
 
     @property
     def direction(self) -> str:
@@ -299,28 +317,32 @@ class VolcanoCurve:
 
     @property
     def overpotential(self) -> np.ndarray:
-        """Theoretical overpotential along the grid, V."""
-        eta = self.equilibrium_potential - self.limiting_potential
-        return eta if self.direction == "reduction" else -eta
+        """Theoretical overpotential along the grid (signed as in the tables), V."""
+        return kernel.signed_overpotential(self.limiting_potential, self.equilibrium_potential, self.direction)
 
     def to_frame(self) -> pd.DataFrame:
-        """Grid table: descriptor (eV), limiting_potential (V), overpotential (V), determining_step,
-        max_chemical_dG (eV) and one onset column per electrochemical step (V)."""
+        """Grid table: descriptor (eV), limiting_potential (the curve, V), overpotential (V),
+        determining_step, G_max (eV), max_chemical_dG (eV) and one column per step line (V)."""
         frame = pd.DataFrame(
             {
                 "descriptor": self.x,
                 "limiting_potential": self.limiting_potential,
                 "overpotential": self.overpotential,
                 "determining_step": np.array(self.step_names, dtype=object)[self.determining_step_index - 1],
+                "G_max": self.G_max if self.G_max is not None else np.full(len(self.x), np.nan),
                 "max_chemical_dG": self.max_chemical_dG,
             }
         )
+        if self.electrochemical_limiting_potential is not None:
+            frame["electrochemical_limiting_potential"] = self.electrochemical_limiting_potential
         for j, name in enumerate(self.step_names):
-            if self.electrochemical[j]:
-                frame[f"onset {name}"] = self.step_onsets[:, j]
+            if np.isfinite(self.line_slopes[j]):
+                frame[f"{'line' if self.includes_chemical else 'onset'} {name}"] = self.step_onsets[:, j]
         frame.attrs.update(self.conditions)
         frame.attrs["descriptor"] = self.descriptor.text
-        frame.attrs["units"] = {"descriptor": "eV", "limiting_potential": f"V vs {self.conditions['scale']}", "overpotential": "V", "max_chemical_dG": "eV"}
+        frame.attrs["units"] = {"descriptor": "eV", "limiting_potential": f"V vs {self.conditions['scale']}", "overpotential": "V",
+                                "G_max": "eV", "max_chemical_dG": "eV"}
+        frame.attrs["includes_chemical_steps"] = bool(self.includes_chemical)
         return frame
 
     def summary(self) -> pd.DataFrame:
@@ -332,8 +354,10 @@ class VolcanoCurve:
             ("pathway", self.pathway.name, "", self.conditions["reaction"]),
             ("descriptor", self.descriptor.text, "eV", "linear combination of adsorption free energies"),
             ("optimal descriptor", a.descriptor[0], "eV", "plateau from %.3f to %.3f eV" % (lo, hi) if hi - lo > 1e-9 else "single point"),
-            ("best limiting potential", a.limiting_potential, f"V vs {sc}", a.method),
-            ("minimum overpotential", a.overpotential, "V", "scaling-imposed limit |U_eq - U_L| at the apex"),
+            ("best limiting potential", a.limiting_potential, f"V vs {sc}",
+             a.method + ("; chemical steps included (U_eq -/+ G_max/e)" if self.includes_chemical else "; electrochemical steps only")),
+            ("minimum overpotential", a.overpotential, "V", "scaling-imposed limit at the apex, signed as in the tables (U_eq - U_L reduction, U_L - U_eq oxidation)"),
+            ("G_max at the apex", a.G_max, "eV", "largest step free energy at U_eq, chemical steps included (Exner 2020)"),
             ("equilibrium potential", self.equilibrium_potential, f"V vs {sc}", "overall reaction, CHE"),
             ("steps meeting at the apex", "; ".join(a.determining_steps), "", ""),
             ("apex at range edge", a.at_boundary, "", "True: widen the descriptor range, the optimum may lie outside" if a.at_boundary else ""),
@@ -394,9 +418,8 @@ class ActivityMap:
 
     @property
     def overpotential(self) -> np.ndarray:
-        """Theoretical overpotential over the grid, V."""
-        eta = self.equilibrium_potential - self.limiting_potential
-        return eta if self.pathway.direction == "reduction" else -eta
+        """Theoretical overpotential over the grid (signed as in the tables), V."""
+        return kernel.signed_overpotential(self.limiting_potential, self.equilibrium_potential, self.pathway.direction)
 
     def to_frame(self) -> pd.DataFrame:
         """Long table: x, y (eV), limiting_potential (V), overpotential (V), determining_step, max_chemical_dG (eV)."""
@@ -529,17 +552,6 @@ def _product_label(path: Pathway) -> str:
     return ", ".join(sp.formula for sp in prods) or path.name
 
 
-def _envelope(onsets: np.ndarray, ec: np.ndarray, direction: str) -> tuple[np.ndarray, np.ndarray]:
-    """U_L and 0-based determining index over the last axis (electrochemical steps only)."""
-    if direction == "reduction":
-        masked = np.where(ec, onsets, np.inf)
-        idx = np.argmin(masked, axis=-1)
-    else:
-        masked = np.where(ec, onsets, -np.inf)
-        idx = np.argmax(masked, axis=-1)
-    return np.take_along_axis(masked, idx[..., None], axis=-1)[..., 0], idx
-
-
 class VolcanoAnalysis:
     """Compute volcanoes and maps from scaling relations and (optionally) an energy table.
 
@@ -639,7 +651,8 @@ class VolcanoAnalysis:
         return build_space(rels, descriptors, needed, who)
 
     def _surface_points(self, descriptors: Sequence[Descriptor], path: Pathway) -> pd.DataFrame:
-        cols = ["surface"] + [f"d{i}" for i in range(len(descriptors))] + ["limiting_potential", "overpotential", "determining_step"]
+        cols = ["surface"] + [f"d{i}" for i in range(len(descriptors))] + [
+            "limiting_potential", "overpotential", "determining_step", "G_max", "blocked", "effective_limiting_potential"]
         if self.table is None:
             return pd.DataFrame(columns=cols)
         vals = pd.concat([d.evaluate(self.table) for d in descriptors], axis=1)
@@ -656,19 +669,35 @@ class VolcanoAnalysis:
         frame["limiting_potential"] = lp["limiting_potential"].to_numpy(dtype=float)
         frame["overpotential"] = lp["overpotential"].to_numpy(dtype=float)
         frame["determining_step"] = lp["determining_step"].to_numpy(dtype=object)
+        frame["G_max"] = lp["G_max"].to_numpy(dtype=float)
+        frame["blocked"] = lp["blocked"].to_numpy(dtype=bool)
+        frame["effective_limiting_potential"] = kernel.effective_limiting_potential(
+            frame["G_max"].to_numpy(), lp["equilibrium_potential"].to_numpy(dtype=float), path.direction
+        )
         return frame
 
-    def _evaluate(self, path: Pathway, space: DescriptorSpace, D: np.ndarray):
-        """Engine evaluation on synthetic surfaces D (P, n_desc): onsets (P, n_steps), U_L, idx (0-based), max chem."""
+    def _evaluate(self, path: Pathway, space: DescriptorSpace, D: np.ndarray, include_chemical: bool = False):
+        """Kernel evaluation on synthetic surfaces D (P, n_desc).
+
+        Returns (lines (P, n_steps) in V, curve value (P,) in V, determining index (P,) 0-based,
+        max chemical dG (P,) eV, G_max (P,) eV). ``lines`` are the onset potentials of the
+        electrochemical steps (NaN for chemical ones) or, with ``include_chemical``, every step's
+        potential equivalent :func:`ecatlab.che.kernel.potential_equivalents`, whose envelope is
+        U_eq -/+ G_max/e.
+        """
         compiled = che.compile_pathway(path, self.scheme)
         G = space.energies(D, compiled.adsorbates)
         a, n = compiled.affine(G, self.pH, self.scale, self.temperature)
-        ec = compiled.electrochemical
-        with np.errstate(divide="ignore", invalid="ignore"):
-            onsets = np.where(ec, -a / np.where(ec, n, 1.0), np.nan)
-        u_l, idx = _envelope(onsets, ec, path.direction)
-        max_chem = a[:, ~ec].max(axis=1) if (~ec).any() else np.full(len(D), np.nan)
-        return onsets, u_l, idx, max_chem
+        u_eq = self._u_eq(path)
+        if include_chemical:
+            lines = kernel.potential_equivalents(a, n, u_eq, path.direction)
+            u_l, idx = kernel.envelope_of_lines(lines, path.direction)
+        else:
+            lines = kernel.onset_potentials(a, n)
+            u_l, idx = kernel.envelope(a, n, path.direction)
+        max_chem, _ = kernel.chemical_obstacle(a, n)
+        g_max, _ = kernel.gmax(a, n, u_eq)
+        return lines, u_l, idx, max_chem, g_max
 
     def _u_eq(self, path: Pathway) -> float:
         return che.equilibrium_potential(path, self.scale, self.pH, self.temperature, self.scheme)
@@ -677,7 +706,15 @@ class VolcanoAnalysis:
         return _conditions(path, self.scheme, self.pH, self.scale, self.temperature, self.source)
 
     # -- 1D volcano -------------------------------------------------------------------------------
-    def volcano(self, pathway, descriptor, grid: Sequence[float] | None = None, span: tuple[float, float] | None = None, points: int = 401) -> VolcanoCurve:
+    def volcano(
+        self,
+        pathway,
+        descriptor,
+        grid: Sequence[float] | None = None,
+        span: tuple[float, float] | None = None,
+        points: int = 401,
+        chemical_steps: bool = True,
+    ) -> VolcanoCurve:
         """Limiting potential vs one descriptor (see :class:`VolcanoCurve`).
 
         Parameters
@@ -689,6 +726,12 @@ class VolcanoAnalysis:
             Descriptor values (eV, increasing). Default: ``span`` with ``points`` values.
         span : (float, float), optional
             Default: the surfaces' range ± 0.5 eV, else the step-line crossings ± 1 eV.
+        chemical_steps : bool
+            True (default): a pathway's chemical steps are on the curve, which is then the effective
+            limiting potential U_eq - G_max/e (reduction) or U_eq + G_max/e (oxidation), so that an
+            uphill desorption or recombination gives its own leg (CO2 -> CO volcano; Volmer-Tafel HER
+            peaks at dG(H*) = 0). False: the purely electrochemical envelope of onset potentials.
+            For pathways of one-electron steps without chemical steps both are identical.
         """
         path = resolve(pathway)
         desc = Descriptor.parse(descriptor)
@@ -697,32 +740,38 @@ class VolcanoAnalysis:
         ec = che.compile_pathway(path, self.scheme).electrochemical
         if not ec.any():
             raise PathwayError(f"pathway {path.name!r} has no electrochemical step; it has no limiting potential")
-        # exact lines from the engine at two descriptor values (the dependence is affine)
-        on01, *_ = self._evaluate(path, space, np.array([[0.0], [1.0]]))
+        include = bool(chemical_steps) and bool((~ec).any())
+        on_curve = np.ones_like(ec) if include else ec
+        # exact lines from the kernel at two descriptor values (the dependence is affine)
+        on01, *_ = self._evaluate(path, space, np.array([[0.0], [1.0]]), include)
         alpha, beta = on01[0], on01[1] - on01[0]
         surf = self._surface_points((desc,), path)
-        x = self._grid_1d(grid, span, points, alpha, beta, ec, surf, path.direction)
-        onsets, u_l, idx, max_chem = self._evaluate(path, space, x[:, None])
-        apex = _apex_1d(alpha, beta, ec, path.direction, float(x[0]), float(x[-1]), path.step_names)
+        x = self._grid_1d(grid, span, points, alpha, beta, on_curve, surf, path.direction)
+        lines, u_l, idx, max_chem, g_max = self._evaluate(path, space, x[:, None], include)
+        ec_curve = u_l if not include else self._evaluate(path, space, x[:, None], False)[1]
+        apex = _apex_1d(alpha, beta, on_curve, path.direction, float(x[0]), float(x[-1]), path.step_names)
         u_eq = self._u_eq(path)
-        apex = Apex(apex[0], apex[1], apex[2], abs(u_eq - apex[2]), apex[3], apex[4], "exact: intersections of the step lines within the range")
+        _, _, _, _, g_apex = self._evaluate(path, space, np.array([[apex[0][0]]]), include)
+        apex = Apex(apex[0], apex[1], apex[2], float(kernel.signed_overpotential(apex[2], u_eq, path.direction)), apex[3], apex[4],
+                    "exact: intersections of the step lines within the range", float(g_apex[0]))
         if len(surf):
             d = surf["d0"].to_numpy(dtype=float)
-            _, u_pred, _, _ = self._evaluate(path, space, d[:, None])
+            _, u_pred, _, _, _ = self._evaluate(path, space, d[:, None], include)
             surf = surf.rename(columns={"d0": "descriptor"})
             surf["scaling_limiting_potential"] = u_pred
         else:
             surf = surf.rename(columns={"d0": "descriptor"}).assign(scaling_limiting_potential=pd.Series(dtype=float))
-        surf.attrs["units"] = {"descriptor": "eV", "limiting_potential": f"V vs {self.scale}", "overpotential": "V", "scaling_limiting_potential": f"V vs {self.scale}"}
+        surf.attrs["units"] = {"descriptor": "eV", "limiting_potential": f"V vs {self.scale}", "overpotential": "V", "G_max": "eV",
+                               "scaling_limiting_potential": f"V vs {self.scale}"}
         return VolcanoCurve(
             pathway=path,
             descriptor=desc,
             x=x,
             step_names=path.step_names,
             electrochemical=ec,
-            step_onsets=onsets,
-            line_intercepts=np.where(ec, alpha, np.nan),
-            line_slopes=np.where(ec, beta, np.nan),
+            step_onsets=lines,
+            line_intercepts=np.where(on_curve, alpha, np.nan),
+            line_slopes=np.where(on_curve, beta, np.nan),
             limiting_potential=u_l,
             determining_step_index=idx + 1,
             max_chemical_dG=max_chem,
@@ -730,8 +779,11 @@ class VolcanoAnalysis:
             apex=apex,
             surfaces=surf,
             relations=space.relations,
-            conditions=self._conditions(path),
+            conditions=self._conditions(path) | {"chemical_steps_on_curve": include},
             space=space,
+            includes_chemical=include,
+            G_max=g_max,
+            electrochemical_limiting_potential=ec_curve,
         )
 
     @staticmethod
@@ -791,7 +843,7 @@ class VolcanoAnalysis:
         gx, gy = self._grid_2d(descs, x, y, points, surf)
         X, Y = np.meshgrid(gx, gy)
         D = np.column_stack([X.ravel(), Y.ravel()])
-        onsets, u_l, idx, max_chem = self._evaluate(path, space, D)
+        onsets, u_l, idx, max_chem, _ = self._evaluate(path, space, D)
         shape = X.shape
         compiled = che.compile_pathway(path, self.scheme)
         ec = compiled.electrochemical
@@ -918,7 +970,7 @@ class VolcanoAnalysis:
         gx, gy, X, D, points_frames = self._grid_points_for(descs, x, y, points, 161)
         onsets, chems = [], []
         for p in paths:
-            _, u_l, _, mc = self._evaluate(p, space, D)
+            _, u_l, _, mc, _ = self._evaluate(p, space, D)
             u_l, mc = _apply_chemical_limit(u_l, mc, chemical_limit)
             onsets.append(u_l.reshape(X.shape))
             chems.append(mc.reshape(X.shape))
@@ -1064,7 +1116,7 @@ class VolcanoAnalysis:
         keys = list(carbon)
         if her:
             hp = resolve(her)
-            _, u, _, mc = self._evaluate(hp, space, D)
+            _, u, _, mc, _ = self._evaluate(hp, space, D)
             u, mc = _apply_chemical_limit(u, mc, chemical_limit)
             onsets.append(u)
             chems.append(mc)
@@ -1241,7 +1293,8 @@ def _optimum_2d(alpha, bx, by, ec, direction, xr, yr, names, u_eq) -> Apex:
     ec_names = [n for n, e in zip(names, ec) if e]
     steps = tuple(n for n, v in zip(ec_names, vals) if abs(v - t) <= 1e-6)
     edge = bool(min(abs(x - xr[0]), abs(x - xr[1]), abs(y - yr[0]), abs(y - yr[1])) <= 1e-9)
-    return Apex((x, y), ((x, x), (y, y)), t, abs(u_eq - t), steps, edge, "exact: linear programming over the map range (one optimal point; the optimum may be a line)")
+    return Apex((x, y), ((x, x), (y, y)), t, float(kernel.signed_overpotential(t, u_eq, direction)), steps, edge,
+                "exact: linear programming over the map range (one optimal point; the optimum may be a line)")
 
 
 # ------------------------------------------------------------------------------------------------
@@ -1265,8 +1318,12 @@ def volcano(
     points: int = 401,
     references: ReferenceScheme | None = None,
     fit_against: str | None = None,
+    chemical_steps: bool = True,
 ) -> VolcanoCurve:
     """1D limiting-potential volcano of ``pathway`` vs ``descriptor``; see :meth:`VolcanoAnalysis.volcano`.
+
+    ``chemical_steps=True`` (default) puts the pathway's chemical steps on the curve (effective
+    limiting potential U_eq -/+ G_max/e); ``False`` gives the purely electrochemical envelope.
 
     ``energies`` may be None when ``relations`` cover every adsorbate. ``fixed_slopes`` and
     ``fit_against`` control the relations fitted to ``energies`` (see :class:`VolcanoAnalysis`).
@@ -1278,7 +1335,9 @@ def volcano(
     >>> round(volcano(None, "orr-4e", "OH*", rels).apex.overpotential, 2)
     0.37
     """
-    return _analysis(energies, relations, fixed_slopes, pH, scale, temperature, references, fit_against).volcano(pathway, descriptor, grid, span, points)
+    return _analysis(energies, relations, fixed_slopes, pH, scale, temperature, references, fit_against).volcano(
+        pathway, descriptor, grid, span, points, chemical_steps
+    )
 
 
 def activity_map(

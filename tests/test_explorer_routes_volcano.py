@@ -35,6 +35,7 @@ def table():
 
 
 def _route_ex(table, focus="ALY-01", **kw):
+    kw.setdefault("surfaces", table.surfaces[:10])
     ex = explore(table, reaction="CO2RR", render="inline", **kw)
     ex.focus.value = focus
     ex.pathway.value = CH4

@@ -29,6 +29,7 @@ from ecatlab.demo import demo_energies  # noqa: E402
 from ecatlab.energies import EnergyTable  # noqa: E402
 from ecatlab.explorer import Explorer, ExplorerSnapshot, ExplorerState, explore, pathway_options  # noqa: E402
 from ecatlab.explorer.view import FIGURE_HEIGHT_PX  # noqa: E402
+from ecatlab.explorer.widget import readout_html  # noqa: E402
 from ecatlab.pathways import REACTION_FAMILIES  # noqa: E402
 
 
@@ -48,7 +49,7 @@ def no_logged_widget_errors(caplog):
 
 @pytest.fixture
 def ex(table):
-    explorer = explore(table, pathway="orr-4e", potential=0.5, render="inline")
+    explorer = explore(table, pathway="orr-4e", potential=0.5, surfaces=table.surfaces[:10], render="inline")
     yield explorer
     assert explorer.view.figure is not None
 
@@ -93,7 +94,7 @@ def test_limiting_potential_matches_a_brute_force_scan(table):
 
 # -- outputs equal the engine's ---------------------------------------------------------------------------
 def test_tables_and_levels_equal_the_engine(table):
-    ex = explore(table, pathway="co2rr-hcooh", potential=-0.3, pH=7.0, scale="SHE", render="inline")
+    ex = explore(table, pathway="co2rr-hcooh", potential=-0.3, pH=7.0, scale="SHE", surfaces=table.surfaces[:10], render="inline")
     engine_steps = che.step_free_energies(table, "co2rr-hcooh", potential=-0.3, pH=7.0, scale="SHE", surfaces=ex.state.surfaces)
     pd.testing.assert_frame_equal(ex.state.step_table(), engine_steps, check_exact=False, atol=1e-12, rtol=0)
     levels = che.state_free_energies(table, "co2rr-hcooh", potential=-0.3, pH=7.0, scale="SHE", surfaces=ex.state.surfaces)
@@ -224,7 +225,7 @@ def test_callback_errors_are_shown_not_raised(ex):
 def test_button_error_is_routed_to_the_error_area(caplog):
     wide = demo_energies().matrix.copy()
     wide.loc["ALY-01", "OOH*"] = np.nan  # ALY-01 cannot do associative ORR
-    ex = explore(EnergyTable.from_matrix(wide), pathway="orr-4e", render="inline")
+    ex = explore(EnergyTable.from_matrix(wide), pathway="orr-4e", surfaces=list(wide.index[:10]), render="inline")
     assert ex.state.readout().loc["ALY-01", "missing_species"] == "OOH*"
     ex.focus.value = "ALY-01"
     ex.snap_limiting_button.click()
@@ -234,7 +235,9 @@ def test_button_error_is_routed_to_the_error_area(caplog):
 def test_temperature_warning_is_shown(ex):
     ex.temperature.value = 320.0
     assert ex.state.temperature == 320.0
-    assert "298.15 K" in ex.status.value  # engine's ConditionsWarning text
+    # the table is re-evaluated at 320 K (reference corrections and molecules at that temperature)
+    assert "re-evaluated at 320 K" in ex.status.value
+    assert "at 320 K" in ex.state.scheme.describe()
 
 
 # -- snap buttons over pure functions ------------------------------------------------------------------------------
@@ -321,9 +324,24 @@ def test_without_ipywidgets_a_static_snapshot_and_a_message(table, monkeypatch):
 def test_state_rejects_bad_values_without_changing(table):
     st = ExplorerState(table, pathway="orr-4e")
     with pytest.raises(ValueError):
-        st.set_pH(15.0)
+        st.set_pH(17.0)  # outside the aqueous range -2 to 16 (ecatlab.che.conditions.PH_RANGE)
     with pytest.raises(ValueError):
         st.set_potential(float("nan"))
     with pytest.raises(ValueError):
         st.set_reaction("ORR", "nrr-distal")
     assert st.pH == 0.0 and st.pathway.name == "orr-4e"
+
+
+def test_default_selection_is_the_best_ranked_surfaces(table):
+    # with no surfaces given, the explorer shows the ten best-ranked surfaces of the first pathway by
+    # the kernel's rule (unblocked first, then lowest G_max), not the first ten of the file
+    from ecatlab.tables import rank_surfaces
+
+    st = ExplorerState(table, pathway="her-volmer-tafel")
+    ranked = rank_surfaces(che.limiting_potentials(table, "her-volmer-tafel"))
+    assert st.surfaces == list(ranked["surface"].astype(str))[:10]
+    html_rows = readout_html(st).split("<tbody>")[1]
+    order = [s for s in st.surfaces if s in html_rows]
+    positions = [html_rows.index(f">{s}<") for s in order]
+    shown = [s for _, s in sorted(zip(positions, order))]
+    assert shown == list(ranked["surface"].astype(str))[:10]  # read-out is best-ranked first

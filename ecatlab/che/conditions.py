@@ -180,9 +180,10 @@ class Conditions:
         return np.asarray(potential, dtype=float) + (self.nernst_shift if self.scale == "SHE" else 0.0)
 
     def describe(self) -> str:
-        """'pH 0, 298.15 K, V vs RHE' (plus the potential when set), for captions."""
-        text = f"pH {self.pH:g}, {self.temperature:g} K, V vs {self.scale}"
-        return text if self.potential is None else f"U = {self.potential:g} V vs {self.scale}, " + text
+        """'U = +0.800 V vs RHE, pH 0, T = 298.15 K' (without a potential: 'pH 0, T = 298.15 K, V vs RHE'), for captions."""
+        if self.potential is None:
+            return f"pH {self.pH:g}, T = {self.temperature:g} K, V vs {self.scale}"
+        return f"U = {self.potential:+.3f} V vs {self.scale}, pH {self.pH:g}, T = {self.temperature:g} K"
 
     def to_dict(self) -> dict:
         return {"schema": "ecatlab.conditions/1", "scale": self.scale, "pH": self.pH, "temperature": self.temperature, "potential": self.potential}

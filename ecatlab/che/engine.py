@@ -300,7 +300,7 @@ def step_free_energies(
     names = [s for s, k in zip(names, keep) if k]
     values = values[keep]
     a, n = compiled.affine(values, _per_surface(pH, keep), sc, temperature)
-    dG = a + n * np.asarray(_per_surface(potential, keep), dtype=float)[..., None] if np.ndim(potential) else a + n * float(potential)
+    dG = kernel.step_free_energy(a, n, _per_surface(potential, keep))
     frame = pd.DataFrame(dG, index=pd.Index(names, name="surface"), columns=list(path.step_names))
     frame.attrs.update(_attrs(path, table, potential, pH, sc, temperature, "step free energy dG_i [eV]"))
     return frame

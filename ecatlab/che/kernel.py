@@ -23,6 +23,10 @@ Primitives
 * :func:`step_free_energy` -- :math:`a_i + n_i U` (eV).
 * :func:`onset_potentials` -- :math:`U_i = -a_i / n_i` (V), the potential at which an
   electrochemical step turns downhill; NaN for chemical steps.
+* :func:`envelope_of_lines` -- min (reduction) or max (oxidation) of per-step potentials; the one
+  envelope implementation, used by :func:`envelope` and the volcanoes.
+* :func:`potential_equivalents` -- each step's free energy at U_eq as a potential
+  (:math:`U_\mathrm{eq} \mp \Delta G_i(U_\mathrm{eq})/e`), for volcanoes that include chemical steps.
 * :func:`envelope` -- the limiting potential :math:`U_L = \min_i U_i` (reduction) or
   :math:`\max_i U_i` (oxidation) over electrochemical steps, and the potential-determining step.
 * :func:`equilibrium_potential_from_affine` -- :math:`U_\mathrm{eq} = -\sum_i a_i / \sum_i n_i`.
@@ -53,6 +57,8 @@ __all__ = [
     "step_free_energy",
     "onset_potentials",
     "envelope",
+    "envelope_of_lines",
+    "potential_equivalents",
     "equilibrium_potential_from_affine",
     "signed_overpotential",
     "chemical_obstacle",
@@ -105,6 +111,59 @@ def onset_potentials(a, n) -> np.ndarray:
     return np.where(ec, -a / safe, np.nan)
 
 
+def envelope_of_lines(lines, direction: str, mask=None) -> tuple[np.ndarray, np.ndarray]:
+    """Lower (reduction) or upper (oxidation) envelope of per-step potentials over the last axis.
+
+    Parameters
+    ----------
+    lines : array_like (..., n_steps)
+        A potential per step, V (onsets, or :func:`potential_equivalents`).
+    direction : {"reduction", "oxidation"}
+    mask : array_like of bool (n_steps,), optional
+        Steps that take part (default all).
+
+    Returns
+    -------
+    (value, index)
+        ``min`` (reduction) or ``max`` (oxidation) over the masked steps, V, and the index of the
+        step attaining it among all steps. A NaN among the masked steps gives NaN.
+    """
+    lines = np.asarray(lines, dtype=float)
+    idx_all = np.arange(lines.shape[-1]) if mask is None else np.flatnonzero(np.asarray(mask, dtype=bool))
+    if idx_all.size == 0:
+        raise ValueError("no step takes part in the envelope")
+    part = lines[..., idx_all]
+    nan = np.isnan(part)
+    if direction == "reduction":
+        local = np.argmin(np.where(nan, np.inf, part), axis=-1)
+    elif direction == "oxidation":
+        local = np.argmax(np.where(nan, -np.inf, part), axis=-1)
+    else:
+        raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+    value = np.take_along_axis(part, local[..., None], axis=-1)[..., 0]
+    return np.where(nan.any(axis=-1), np.nan, value), idx_all[local]
+
+
+def potential_equivalents(a, n, equilibrium_potential, direction: str) -> np.ndarray:
+    """Each step's free energy at U_eq expressed as a potential, V.
+
+    ``U_eq - dG_i(U_eq)/e`` for a reduction, ``U_eq + dG_i(U_eq)/e`` for an oxidation, for every
+    step, chemical ones included. Their envelope (:func:`envelope_of_lines`) is
+    :func:`effective_limiting_potential` of :func:`gmax`; for a one-electron step the value equals
+    its onset potential, for a chemical step it places its potential-independent obstacle on the
+    potential axis. Used for volcanoes that include chemical steps.
+    """
+    dG = step_free_energy(a, n, equilibrium_potential)
+    u_eq = np.asarray(equilibrium_potential, dtype=float)
+    if u_eq.ndim:
+        u_eq = u_eq[..., None]
+    if direction == "reduction":
+        return u_eq - dG
+    if direction == "oxidation":
+        return u_eq + dG
+    raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+
+
 def envelope(a, n, direction: str) -> tuple[np.ndarray, np.ndarray]:
     """Limiting potential and potential-determining step.
 
@@ -127,19 +186,10 @@ def envelope(a, n, direction: str) -> tuple[np.ndarray, np.ndarray]:
     n = np.asarray(n, dtype=float)
     if n.ndim != 1:
         raise ValueError("envelope takes one electron vector n (n_steps,) for all rows")
-    ec = np.flatnonzero(electrochemical_mask(n))
-    if ec.size == 0:
+    ec = electrochemical_mask(n)
+    if not ec.any():
         raise ValueError("a pathway without electrochemical steps has no limiting potential")
-    onset = a[..., ec] / (-n[ec])
-    if direction == "reduction":
-        local = np.argmin(np.where(np.isnan(onset), np.inf, onset), axis=-1)
-    elif direction == "oxidation":
-        local = np.argmax(np.where(np.isnan(onset), -np.inf, onset), axis=-1)
-    else:
-        raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
-    u_l = np.take_along_axis(onset, local[..., None], axis=-1)[..., 0]
-    u_l = np.where(np.isnan(onset).any(axis=-1), np.nan, u_l)
-    return u_l, ec[local]
+    return envelope_of_lines(onset_potentials(a, n), direction, mask=ec)
 
 
 def equilibrium_potential_from_affine(a, n) -> np.ndarray:

@@ -34,8 +34,10 @@ import numpy as np
 import pandas as pd
 
 from ecatlab import che
+from ecatlab.che import kernel
+from ecatlab.che.conditions import Conditions, check_pH, check_potential, check_scale
 from ecatlab.constants import STANDARD_TEMPERATURE
-from ecatlab.energies import EnergyTable, read_energies
+from ecatlab.energies import EnergyTable, as_energy_table
 from ecatlab.errors import ConditionError, EcatlabWarning, PathwayError
 from ecatlab.notation import Pathway
 from ecatlab.pathways import REACTION_FAMILIES, resolve
@@ -46,6 +48,9 @@ __all__ = ["ExplorerState", "Conditions", "RouteChoice", "PATHWAY_LABELS", "ROUT
 #: Step free energies above this (eV) count as uphill; a determining step evaluated exactly at the
 #: limiting potential is 0 within floating-point rounding and is therefore not marked.
 UPHILL_TOLERANCE = 1e-9
+
+#: Number of surfaces shown when none are chosen: the best-ranked ones for the first pathway.
+DEFAULT_SURFACE_COUNT = 10
 
 #: Short names of the built-in pathways in the product/pathway selector.
 PATHWAY_LABELS: dict[str, str] = {
@@ -134,19 +139,6 @@ def pathway_options(family: str) -> list[tuple[str, str]]:
     return [(PATHWAY_LABELS.get(k, k), k) for k in keys]
 
 
-@dataclass(frozen=True)
-class Conditions:
-    """Applied conditions: potential U [V vs ``scale``], ``scale`` (RHE/SHE), pH [-], temperature [K]."""
-
-    potential: float
-    scale: str
-    pH: float
-    temperature: float
-
-    def describe(self) -> str:
-        return f"U = {self.potential:+.3f} V vs {self.scale}, pH {self.pH:g}, T = {self.temperature:g} K"
-
-
 def _family_of(key: str) -> str | None:
     for family, keys in REACTION_FAMILIES.items():
         if key in keys:
@@ -166,11 +158,12 @@ class ExplorerState:
     pathway : str or Pathway, optional
         Built-in key, Pathway or step text (default: first pathway of the family).
     surfaces : list of str, optional
-        Surfaces shown (default: the first ten of the table).
+        Surfaces shown (default: the ten best-ranked for the first pathway, by the kernel's ranking
+        rule: unblocked first, then lowest G_max).
     potential : float
         Applied potential U in V on ``scale``.
     pH : float
-        pH, 0 to 14.
+        pH (the range of :data:`ecatlab.che.conditions.PH_RANGE`).
     scale : {"RHE", "SHE"}
     temperature : float
         K.
@@ -187,8 +180,8 @@ class ExplorerState:
         scale: str = "RHE",
         temperature: float = STANDARD_TEMPERATURE,
     ):
-        self.table: EnergyTable = energies if isinstance(energies, EnergyTable) else read_energies(energies)
-        self._matrix = self.table.matrix  # pivot once; reindexed per pathway/surface change
+        self.table: EnergyTable = as_energy_table(energies, temperature)
+        self._tables: dict[float, tuple[EnergyTable, pd.DataFrame]] = {}  # temperature -> (table, wide matrix)
         self.notices: list[str] = []
         if pathway is not None and isinstance(pathway, str) and _family_of(pathway) is not None:
             reaction = _family_of(pathway)
@@ -198,12 +191,14 @@ class ExplorerState:
         self._networks: dict = {}  # reactant -> ReactionNetwork (or the error that prevented it)
         self._analyses: dict = {}  # (reactant, pH, scale, T) -> NetworkAnalysis (most recent few)
         self._route: RouteChoice | None = None
-        chosen = list(surfaces) if surfaces is not None else self.table.surfaces[:10]
+        self._conditions = Conditions(scale=scale, pH=pH, temperature=temperature, potential=potential)
+        if surfaces is not None:
+            chosen = list(surfaces)
+        else:
+            start = pathway if pathway is not None and not is_route_key(pathway) else pathway_options(reaction)[0][1]
+            chosen = self.best_surfaces(start, DEFAULT_SURFACE_COUNT)
         self._surfaces = self._check_surfaces(chosen)
         self._focus = self._surfaces[0]
-        self._conditions = Conditions(float(potential), self._check_scale(scale), float(pH), float(temperature))
-        self._check_potential(self._conditions.potential)
-        self._check_pH(self._conditions.pH)
         if is_route_key(pathway):
             if reaction not in ROUTE_REACTANTS:
                 raise PathwayError(f"{reaction} has no best-route choices; they exist for {', '.join(ROUTE_REACTANTS)}")
@@ -276,41 +271,68 @@ class ExplorerState:
         surfaces = [str(s) for s in surfaces]
         if not surfaces:
             raise EnergyTableError(self.table.source, "no surface selected; select at least one surface")
-        unknown = [s for s in surfaces if s not in set(self.table.surfaces)]
+        known = set(self.table.surfaces)
+        unknown = [s for s in surfaces if s not in known]
         if unknown:
             raise EnergyTableError(self.table.source, f"unknown surface(s) {unknown}; known: {self.table.surfaces}")
         return surfaces
 
     @staticmethod
     def _check_scale(scale: str) -> str:
-        sc = str(scale).upper()
-        if sc not in che.SCALES:
-            raise ConditionError(f"unknown potential scale {scale!r}; use 'RHE' or 'SHE'")
-        return sc
+        return check_scale(scale)
 
     @staticmethod
     def _check_potential(value: float) -> None:
-        if not math.isfinite(value):
-            raise ConditionError(f"the applied potential must be a finite number of volts, got {value!r}")
+        check_potential(value)
 
     @staticmethod
     def _check_pH(value: float) -> None:
-        if not (math.isfinite(value) and 0.0 <= value <= 14.0):
-            raise ConditionError(f"pH {value!r} is outside the explorer's range 0 to 14")
+        check_pH(value)
+
+    def _table_at(self, temperature: float) -> tuple[EnergyTable, pd.DataFrame]:
+        """The energy table (and its wide matrix) at ``temperature``: re-evaluated once per temperature."""
+        key = round(float(temperature), 9)
+        if key not in self._tables:
+            if len(self._tables) > 8:
+                self._tables.pop(next(iter(self._tables)))
+            table = self.table.at_temperature(key)
+            self._tables[key] = (table, table.matrix)
+        return self._tables[key]
+
+    @property
+    def scheme(self):
+        """The reference scheme at the current temperature (molecules and corrections at that T)."""
+        return self._table_at(self._conditions.temperature)[0].scheme
+
+    def best_surfaces(self, pathway, count: int) -> list[str]:
+        """The ``count`` best-ranked surfaces for ``pathway`` at the current conditions (the kernel's
+        ranking rule: unblocked first, then lower G_max; surfaces lacking data last)."""
+        from ecatlab.tables import sort_by_ranking
+
+        table, _ = self._table_at(self._conditions.temperature)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", EcatlabWarning)
+            lp = che.limiting_potentials(table, pathway, pH=self._conditions.pH, scale=self._conditions.scale,
+                                         temperature=self._conditions.temperature, on_missing="report")
+        return list(sort_by_ranking(lp)["surface"].astype(str))[: int(count)]
 
     # -- engine calls ------------------------------------------------------------------------------
     def _rebuild(self, path: Pathway, surfaces: list[str], cond: Conditions, route: RouteChoice | None = None) -> None:
         """Ask the engine for everything that does not depend on U; commit only if it all succeeds."""
         notices: list[str] = []
+        table, matrix = self._table_at(cond.temperature)
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", EcatlabWarning)
             limiting = che.limiting_potentials(
-                self.table, path, pH=cond.pH, scale=cond.scale, temperature=cond.temperature, surfaces=surfaces, on_missing="report"
+                table, path, pH=cond.pH, scale=cond.scale, temperature=cond.temperature, surfaces=surfaces, on_missing="report"
             )
-            u_eq = che.equilibrium_potential(path, scale=cond.scale, pH=cond.pH, temperature=cond.temperature, references=self.table.scheme)
+            u_eq = che.equilibrium_potential(path, scale=cond.scale, pH=cond.pH, temperature=cond.temperature, references=table.scheme)
         notices += [str(w.message) for w in caught if issubclass(w.category, EcatlabWarning)]
-        compiled = che.compile_pathway(path, self.table.scheme)
-        G = self._matrix.reindex(index=surfaces, columns=list(compiled.adsorbates)).to_numpy(dtype=float)
+        if abs(cond.temperature - self.table.temperature) > 1e-9:
+            notices.append(f"energies re-evaluated at {cond.temperature:g} K (reference corrections and molecules at that "
+                           "temperature; adsorbate corrections as given)")
+        compiled = che.compile_pathway(path, table.scheme)
+        G = matrix.reindex(index=surfaces, columns=list(compiled.adsorbates)).to_numpy(dtype=float)
         a, n = compiled.affine(G, cond.pH, cond.scale, cond.temperature)
         # commit
         self._pathway, self._surfaces, self._conditions = path, list(surfaces), cond
@@ -360,7 +382,7 @@ class ExplorerState:
         if key not in self._analyses:
             if len(self._analyses) >= 8:
                 self._analyses.pop(next(iter(self._analyses)))
-            self._analyses[key] = NetworkAnalysis(self._network(reactant), self.table, pH=cond.pH, scale=cond.scale,
+            self._analyses[key] = NetworkAnalysis(self._network(reactant), self._table_at(cond.temperature)[0], pH=cond.pH, scale=cond.scale,
                                                   temperature=cond.temperature)
         return self._analyses[key]
 
@@ -393,18 +415,18 @@ class ExplorerState:
         value = float(value)
         self._check_potential(value)
         c = self._conditions
-        self._conditions = Conditions(value, c.scale, c.pH, c.temperature)
+        self._conditions = Conditions(scale=c.scale, pH=c.pH, temperature=c.temperature, potential=value)
 
     def set_pH(self, value: float) -> None:
         value = float(value)
         self._check_pH(value)
         c = self._conditions
-        self._rebuild_at(Conditions(c.potential, c.scale, value, c.temperature))
+        self._rebuild_at(Conditions(scale=c.scale, pH=value, temperature=c.temperature, potential=c.potential))
 
     def set_temperature(self, value: float) -> None:
         """Temperature in K; the engine rejects non-positive values (ConditionError)."""
         c = self._conditions
-        self._rebuild_at(Conditions(c.potential, c.scale, c.pH, float(value)))
+        self._rebuild_at(Conditions(scale=c.scale, pH=c.pH, temperature=float(value), potential=c.potential))
 
     def set_scale(self, scale: str, keep_physical_potential: bool = True) -> None:
         """Switch RHE/SHE. By default the electrode stays at the same physical potential, so U is
@@ -417,7 +439,7 @@ class ExplorerState:
         if keep_physical_potential:
             shift = float(che.nernst_shift(c.pH, c.temperature))
             u = u - shift if sc == "SHE" else u + shift
-        self._rebuild_at(Conditions(u, sc, c.pH, c.temperature))
+        self._rebuild_at(Conditions(scale=sc, pH=c.pH, temperature=c.temperature, potential=u))
 
     def set_reaction(self, family: str, pathway: str | None = None) -> None:
         """Switch the reaction family; the pathway becomes ``pathway`` (a built-in key of the family or
@@ -464,7 +486,7 @@ class ExplorerState:
     # -- what is shown ------------------------------------------------------------------------------
     def step_energies(self) -> np.ndarray:
         """dG_i(U) = a_i + n_i U, eV, shape (n_surfaces, n_steps) (the engine's affine form)."""
-        return self._a + self._n * self._conditions.potential
+        return kernel.step_free_energy(self._a, self._n, self._conditions.potential)
 
     def levels(self) -> np.ndarray:
         """Free energy of each state (first state 0 eV), shape (n_surfaces, n_steps + 1), eV."""
@@ -491,7 +513,7 @@ class ExplorerState:
                 "scale": self.scale,
                 "pH": self.pH,
                 "temperature": self.temperature,
-                "references": self.table.scheme.describe(),
+                "references": self.scheme.describe(),
                 "energy_source": self.table.source,
             }
         )
@@ -507,8 +529,9 @@ class ExplorerState:
         return self._limiting.reset_index(drop=True)
 
     def readout(self) -> pd.DataFrame:
-        """Per surface: U_L [V vs scale], overpotential [V], determining step, and the electrochemical
-        steps still uphill at the current U."""
+        """Per shown surface (in the order shown): U_L [V vs scale],
+        overpotential [V], G_max [eV], blocked, determining step, and the electrochemical steps
+        still uphill at the current U."""
         lim = self._limiting
         uphill = self.uphill()
         names = np.array([f"{i + 1}" for i in range(len(self._pathway.steps))])
@@ -517,6 +540,8 @@ class ExplorerState:
             {
                 "limiting_potential": lim["limiting_potential"].to_numpy(dtype=float),
                 "overpotential": lim["overpotential"].to_numpy(dtype=float),
+                "G_max": lim["G_max"].to_numpy(dtype=float),
+                "blocked": lim["blocked"].to_numpy(dtype=bool),
                 "determining_step": lim["determining_step"].to_numpy(dtype=object),
                 "determining_step_index": lim["determining_step_index"].to_numpy(dtype=int),
                 "uphill_steps_now": still,
@@ -545,6 +570,7 @@ class ExplorerState:
 
     def describe(self) -> str:
         """One line with pathway and conditions (written into figure captions and exports)."""
+        text = self._conditions.describe()
         if self._route is not None:
-            return f"{self._route.describe()} ({self._pathway.name}): {self._conditions.describe()}"
-        return f"{self._pathway.name}: {self._conditions.describe()}"
+            return f"{self._route.describe()} ({self._pathway.name}): {text}"
+        return f"{self._pathway.name}: {text}"

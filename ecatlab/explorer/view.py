@@ -54,7 +54,7 @@ def render_mode(requested: str = "auto") -> str:
 
 def _references_line(state) -> str:
     """The reference part of the scheme description (same wording as the diagram captions)."""
-    described = state.table.scheme.describe()
+    described = state.scheme.describe()
     refs = described.split(";")[1].strip() if ";" in described else described
     return "CHE, " + refs
 
@@ -175,7 +175,7 @@ class DiagramView:
             pH=state.pH,
             temperature=state.temperature,
             equilibrium_potential=state.equilibrium_potential(),
-            references=state.table.scheme.describe(),
+            references=state.scheme.describe(),
             source=state.table.source,
         )
         self.ax.clear()

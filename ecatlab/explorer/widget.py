@@ -22,6 +22,7 @@ from typing import Callable, Iterable
 import numpy as np
 
 from ecatlab.constants import STANDARD_TEMPERATURE
+from ecatlab.che import kernel
 from ecatlab.explorer.model import UPHILL_TOLERANCE, ExplorerState, pathway_options, product_label
 from ecatlab.explorer.view import FIGURE_HEIGHT_PX, DiagramView, render_mode
 from ecatlab.pathways import REACTION_FAMILIES
@@ -126,10 +127,12 @@ def route_html(state: ExplorerState) -> str:
 
 
 def readout_html(state: ExplorerState, focus: str | None = None) -> str:
-    """HTML read-out per surface: U_L (V vs scale), overpotential (V), determining step, uphill now
+    """HTML read-out per surface, best-ranked first: U_L (V vs scale), overpotential (V), G_max (eV;
+    'blocked' when an uphill chemical step blocks the pathway), determining step, uphill now
     (and, for a best-route choice, the route, its runner-up and surfaces lacking data)."""
     focus = state.focus if focus is None else focus
     r = state.readout()
+    r = r.iloc[kernel.ranking_order(r["G_max"].to_numpy(), r["blocked"].to_numpy())]  # best-ranked first
     u_eq = state.equilibrium_potential()
     rows = []
     for surface, row in r.iterrows():
@@ -137,10 +140,12 @@ def readout_html(state: ExplorerState, focus: str | None = None) -> str:
         now = row["uphill_steps_now"] or "none"
         note = f" (missing: {html.escape(row['missing_species'])})" if row["missing_species"] else ""
         chem = f"<br><i>chemical uphill: {html.escape(row['uphill_chemical_steps'])}</i>" if row["uphill_chemical_steps"] else ""
+        blocked = ' <b title="an uphill chemical step blocks this pathway at every potential">blocked</b>' if row["blocked"] else ""
         rows.append(
             f"<tr{mark}><th style=\"text-align:left;padding:1px 6px\">{html.escape(str(surface))}</th>"
             f'<td style="{_CELL}">{_num(row["limiting_potential"], 3)}</td>'
             f'<td style="{_CELL}">{_num(row["overpotential"], 3, signed=False)}</td>'
+            f'<td style="{_CELL}">{_num(row["G_max"], 3, signed=False)}{blocked}</td>'
             f'<td style="padding:1px 6px">{int(row["determining_step_index"]) or "-"}: {html.escape(str(row["determining_step"]))}{note}{chem}</td>'
             f'<td style="padding:1px 6px">{html.escape(now)}</td></tr>'
         )
@@ -149,6 +154,7 @@ def readout_html(state: ExplorerState, focus: str | None = None) -> str:
         f'<caption style="caption-side:top;text-align:left">{html.escape(state.pathway.name)} ({html.escape(state.pathway.direction)}); '
         f"U<sub>eq</sub> = {_num(u_eq)} V vs {state.scale} at pH {state.pH:g}, {state.temperature:g} K</caption>"
         f"<thead><tr><th>surface</th><th>U<sub>L</sub> (V vs {state.scale})</th><th>\N{GREEK SMALL LETTER ETA} (V)</th>"
+        "<th>G<sub>max</sub> (eV)</th>"
         "<th>potential-determining step</th><th>uphill now</th></tr></thead>"
         f'<tbody>{"".join(rows)}</tbody></table>{route_html(state)}</div>'
     )
@@ -188,7 +194,7 @@ def export_snapshot(state: ExplorerState, figure, folder: str | os.PathLike) -> 
         f"# ecatlab explorer export: pathway {state.pathway.name}"
         + (f" ({state.route.describe()}, network search)" if state.route is not None else ""),
         f"# conditions: {state.conditions.describe()}",
-        f"# references: {state.table.scheme.describe()}",
+        f"# references: {state.scheme.describe()}",
         f"# energy source: {state.table.source}",
         f"# {CAUTION}",
     ]
@@ -356,7 +362,7 @@ class Explorer:
         return f"{s.reaction}: {label}  [{s.pathway.name}]"
 
     def _footnote(self) -> str:
-        refs = self.state.table.scheme.describe().split(";")[1].strip()
+        refs = self.state.scheme.describe().split(";")[1].strip()
         return f"energies: {self.state.table.source}; {refs}.\n{CAUTION}"
 
     def _pathway_choices(self, family: str) -> list[tuple[str, str]]:

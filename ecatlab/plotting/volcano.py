@@ -63,9 +63,10 @@ def _label_points(ax, names, xs, ys, fontsize, avoid=(), boxed=False):
 def plot_volcano(curve: VolcanoCurve, ax=None, style: str = "notebook", show_steps: bool = True, label_surfaces: bool = True, caption: bool = True, legend: str | None = None):
     """Draw a 1D volcano.
 
-    One thin line per electrochemical step (its onset potential, V), the envelope (limiting
-    potential U_L) as a thick line, the equilibrium potential as a horizontal line, the apex as a
-    star with its numbers, and the computed surfaces at their exact limiting potentials.
+    One thin line per step on the curve (electrochemical: its onset potential; with chemical steps
+    on the curve, every step's potential equivalent U_eq -/+ dG_i(U_eq)/e, computed by the kernel),
+    the envelope as a thick line, the equilibrium potential as a horizontal line, the apex as a
+    star with its numbers, and the computed surfaces at their exact values on the same measure.
     ``legend``: ``"right"`` (outside, default for notebook/double), ``"below"`` (default for the
     single-column preset) or ``"inside"``.
 
@@ -80,14 +81,20 @@ def plot_volcano(curve: VolcanoCurve, ax=None, style: str = "notebook", show_ste
             _, ax = figure(p)
         x = curve.x
         env = curve.limiting_potential
+        chem = bool(getattr(curve, "includes_chemical", False))
+        y_col = "effective_limiting_potential" if chem and "effective_limiting_potential" in curve.surfaces else "limiting_potential"
         if show_steps:
             k = 0
             for j, name in enumerate(curve.step_names):
-                if not curve.electrochemical[j]:
+                if not np.isfinite(curve.line_slopes[j]):
                     continue
-                ax.plot(x, curve.step_onsets[:, j], color=PALETTE[(k + 1) % len(PALETTE)], ls=DASHES[(k + 1) % len(DASHES)], lw=1.0, label=f"step {name}", zorder=2)
+                kind = "" if curve.electrochemical[j] else " (chemical)"
+                ax.plot(x, curve.step_onsets[:, j], color=PALETTE[(k + 1) % len(PALETTE)], ls=DASHES[(k + 1) % len(DASHES)], lw=1.0,
+                        label=f"step {name}{kind}", zorder=2)
                 k += 1
-        ax.plot(x, env, color="#222222", lw=2.4, label="limiting potential $U_L$ (envelope)", zorder=3, solid_capstyle="round")
+        env_label = ("effective $U_L$ = $U_{eq}$ ∓ $G_{max}$/e (envelope, chemical steps included)" if chem
+                     else "limiting potential $U_L$ (envelope)")
+        ax.plot(x, env, color="#222222", lw=2.4, label=env_label, zorder=3, solid_capstyle="round")
         ax.axhline(curve.equilibrium_potential, color=PALETTE[6], lw=1.0, ls=(0, (4, 2)), zorder=1)
         ax.annotate(f"$U_{{eq}}$ = {curve.equilibrium_potential:.2f} V", xy=(1.0, curve.equilibrium_potential), xycoords=("axes fraction", "data"),
                     xytext=(-2, 3), textcoords="offset points", ha="right", va="bottom", fontsize=p.font_pt - 1, color=PALETTE[6])
@@ -97,11 +104,12 @@ def plot_volcano(curve: VolcanoCurve, ax=None, style: str = "notebook", show_ste
                 + (" (at range edge)" if a.at_boundary else ""))
         s = curve.surfaces
         if len(s):
-            ax.scatter(s["descriptor"], s["limiting_potential"], s=30, marker=MARKERS[1], color=PALETTE[0], edgecolor="white", linewidth=0.5, zorder=4, label="computed surfaces (exact $U_L$)")
+            ax.scatter(s["descriptor"], s[y_col], s=30, marker=MARKERS[1], color=PALETTE[0], edgecolor="white", linewidth=0.5, zorder=4,
+                       label="computed surfaces (exact, same measure)" if chem else "computed surfaces (exact $U_L$)")
         # y range: the envelope, U_eq and the surfaces, with margins (step lines may leave the frame)
         ys = [env.min(), env.max(), curve.equilibrium_potential, a.limiting_potential]
         if len(s):
-            ys += [s["limiting_potential"].min(), s["limiting_potential"].max()]
+            ys += [s[y_col].min(), s[y_col].max()]
         lo, hi = min(ys), max(ys)
         span = hi - lo or 1.0
         ax.set_ylim(lo - 0.12 * span, hi + 0.25 * span)
@@ -120,7 +128,7 @@ def plot_volcano(curve: VolcanoCurve, ax=None, style: str = "notebook", show_ste
         if label_surfaces and len(s):
             fig = ax.figure
             avoid = [leg.get_window_extent(fig.canvas.get_renderer())] if where == "inside" else []
-            _label_points(ax, list(s["surface"]), s["descriptor"].to_numpy(float), s["limiting_potential"].to_numpy(float), p.font_pt - 2, avoid)
+            _label_points(ax, list(s["surface"]), s["descriptor"].to_numpy(float), s[y_col].to_numpy(float), p.font_pt - 2, avoid)
         if caption:
             rel = "; ".join(r.equation for r in curve.relations[:3]) + (" ..." if len(curve.relations) > 3 else "")
             text = f"Scaling: {rel}.\n{_short_refs(curve.conditions)}. {_CAUTION}"
