@@ -1,4 +1,7 @@
-"""Physical constants used by ecatlab, all derived from :mod:`scipy.constants` (CODATA 2018).
+"""Physical constants used by ecatlab, all derived from :mod:`scipy.constants`.
+
+The CODATA adjustment is the one the installed scipy provides (:data:`CODATA_VERSION`; CODATA
+2022 for scipy >= 1.15).
 
 No other module of ecatlab writes a literal physical constant: they import from here.
 Energies in ecatlab are in eV, potentials in V, temperatures in K, pressures in bar unless a
@@ -10,6 +13,11 @@ from __future__ import annotations
 import math
 
 from scipy import constants as _sc
+
+try:  # the adjustment scipy.constants uses; private in scipy, so read defensively
+    from scipy.constants._codata import _current_codata as CODATA_VERSION
+except ImportError:  # pragma: no cover
+    CODATA_VERSION = "CODATA (version not reported by scipy)"
 
 #: Boltzmann constant in eV/K.
 BOLTZMANN_EV: float = _sc.k / _sc.e

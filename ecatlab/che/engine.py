@@ -203,7 +203,7 @@ def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: Referen
     mol = np.zeros(n)
     electrons = np.zeros(n)
     protons = np.zeros(n)
-    water = scheme.molecule_free_energy("H2O(l)")
+    water = None  # G_rel(H2O(l)), needed only for OH- (looked up once, when a step has it)
     # G_rel(H+) at pH 0 is 1/2 G_rel(H2(g)) of the scheme (0 when H2(g) is a reference); the pH and
     # potential terms are added in CompiledPathway.affine.
     half_h2 = scheme.proton_electron_free_energy()
@@ -219,6 +219,8 @@ def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: Referen
                 protons[i] -= c
                 mol[i] += c * half_h2
             elif sp == HYDROXIDE:
+                if water is None:
+                    water = scheme.molecule_free_energy("H2O(l)")
                 protons[i] += c
                 mol[i] += c * (water - half_h2)
     return CompiledPathway(pathway, adsorbates, stoich, mol, electrons, protons)
