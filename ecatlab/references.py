@@ -53,7 +53,7 @@ def formation_data() -> pd.DataFrame:
     import json
     from importlib import resources
 
-    raw = json.loads(resources.files("ecatlab.data").joinpath(_FORMATION_FILE).read_text(encoding="utf-8"))
+    raw = json.loads(resources.files("ecatlab").joinpath("data").joinpath(_FORMATION_FILE).read_text(encoding="utf-8"))
     if raw.get("schema") != "ecatlab.formation-data/1":
         raise ReferenceSchemeError(f"{_FORMATION_FILE}: unknown schema {raw.get('schema')!r}; expected 'ecatlab.formation-data/1'")
     frame = pd.DataFrame(raw["rows"]).set_index("species")
@@ -113,7 +113,7 @@ def _default_corrections_cached(temperature: float) -> tuple[pd.DataFrame, str]:
     if abs(temperature - STANDARD_TEMPERATURE) < 1e-9:
         from importlib import resources
 
-        text = resources.files("ecatlab.data").joinpath("reference_corrections_298K.csv").read_text(encoding="utf-8")
+        text = resources.files("ecatlab").joinpath("data").joinpath("reference_corrections_298K.csv").read_text(encoding="utf-8")
         import io
 
         table = pd.read_csv(io.StringIO(text), comment="#", index_col=0)

@@ -173,3 +173,21 @@ def test_engine_hook_uses_computed_corrections():
         warnings.simplefilter("error")  # the default water pressure follows T: nothing to warn about
         hot = ReferenceScheme(temperature=320.0)
     assert hot.correction_table.loc["H2(g)", "TS"] > scheme.correction_table.loc["H2(g)", "TS"]
+
+
+def test_shipped_gas_library_equals_its_generator():
+    # the JSON data file is what scripts/make_gas_library.py builds from bond lengths and angles
+    import importlib.util
+    import json
+    import pathlib
+
+    root = pathlib.Path(__file__).resolve().parents[1]
+    spec = importlib.util.spec_from_file_location("make_gas_library", root / "scripts" / "make_gas_library.py")
+    gen = importlib.util.module_from_spec(spec)
+    import sys
+
+    sys.modules[spec.name] = gen  # dataclasses look their module up while the script runs
+    spec.loader.exec_module(gen)
+    shipped = json.loads((root / "ecatlab" / "data" / "gas_library.json").read_text(encoding="utf-8"))
+    assert shipped == json.loads(json.dumps(gen.build()))
+    assert all("from memory" in m["source"] or "CCCBDB" in m["source"] for m in shipped["molecules"])
