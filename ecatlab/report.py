@@ -177,7 +177,7 @@ def analyse(
         surface at U = 0, U_eq and its U_L.
     """
     from ecatlab.che import limiting_potentials
-    from ecatlab.energies import EnergyTable, read_energies
+    from ecatlab.energies import as_energy_table
     from ecatlab.pathways import resolve
 
     params = {
@@ -191,7 +191,7 @@ def analyse(
     }
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        table = energies if isinstance(energies, EnergyTable) else read_energies(energies)
+        table = as_energy_table(energies, temperature)
         paths = [resolve(p) for p in ([pathways] if isinstance(pathways, str) or not isinstance(pathways, Sequence) else pathways)]
         if not paths:
             from ecatlab.errors import PathwayError
@@ -202,12 +202,25 @@ def analyse(
         figures: list[ReportFigure] = []
         if diagrams:
             figures = _draw_figures(table, paths, lp, pH, scale, temperature, top, style)
-    seen = []
+    return ReportAnalysis(table, paths, float(pH), str(lp["scale"].iloc[0]), float(temperature), names, lp,
+                          _scientific_warnings(caught), figures, params)
+
+
+def _scientific_warnings(caught, into: list | None = None) -> list[tuple[str, str]]:
+    """ecatlab's own warnings (missing data, conditions, corrections...), each once, in order.
+
+    Library chatter (matplotlib, pandas deprecations) is not a finding about the user's data and is
+    left out of the report."""
+    from ecatlab.errors import EcatlabWarning
+
+    seen = [] if into is None else into
     for w in caught:
+        if not issubclass(w.category, EcatlabWarning):
+            continue
         item = (w.category.__name__, str(w.message))
         if item not in seen:
             seen.append(item)
-    return ReportAnalysis(table, paths, float(pH), str(lp["scale"].iloc[0]), float(temperature), names, lp, seen, figures, params)
+    return seen
 
 
 def _draw_figures(table, paths, lp, pH, scale, temperature, top, style) -> list[ReportFigure]:
@@ -225,7 +238,7 @@ def _draw_figures(table, paths, lp, pH, scale, temperature, top, style) -> list[
             path.name, "surfaces",
             f"{path.name}: free-energy diagram of the {len(chosen)} best-ranked surface(s) (unblocked first, then lowest G_max) "
             f"({', '.join(chosen)}) at U = 0 V vs {scale}; the potential-determining step of each is underlaid in yellow.",
-            ax.figure,
+            _detached(ax.figure),
         ))
         best = chosen[0]
         ax = plot_diagram_at_potentials(table, path, best, (0.0, "equilibrium", "limiting"), pH=pH, scale=scale,
@@ -234,9 +247,18 @@ def _draw_figures(table, paths, lp, pH, scale, temperature, top, style) -> list[
             path.name, "potentials",
             f"{path.name} on {best} (best-ranked: unblocked, lowest G_max) at U = 0 V, at the equilibrium potential U_eq and at its "
             f"limiting potential U_L (V vs {scale}); at U_L the potential-determining step is flat.",
-            ax.figure,
+            _detached(ax.figure),
         ))
     return figures
+
+
+def _detached(figure):
+    """Remove a figure from pyplot's registry (no open-figure leak over many pathways); the Figure
+    object still renders and saves."""
+    import matplotlib.pyplot as plt
+
+    plt.close(figure)
+    return figure
 
 
 # ------------------------------------------------------------------------------------------------
@@ -372,7 +394,7 @@ def _figures_html(a: ReportAnalysis) -> str:
 
 def _warnings_html(a: ReportAnalysis) -> str:
     if not a.warnings:
-        return "<p>No warnings were raised during the analysis.</p>"
+        return "<p>No scientific warnings (missing data, conditions, corrections) were raised during the analysis.</p>"
     return '<ul class="warnings">' + "".join(f"<li>{_esc(cat)}: {_esc(msg)}</li>" for cat, msg in a.warnings) + "</ul>"
 
 
@@ -673,7 +695,10 @@ def build_report(
     """
     analysis = analyse(energies, pathways, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces, top=top)
     try:
-        extra = _extra_sections(analysis.table, volcanoes, routes, pH, scale, temperature, surfaces, "double")
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            extra = _extra_sections(analysis.table, volcanoes, routes, pH, scale, temperature, surfaces, "double")
+        _scientific_warnings(caught, into=analysis.warnings)
         if volcanoes:
             analysis.parameters["volcanoes"] = [tuple(v) for v in volcanoes]
         if routes:

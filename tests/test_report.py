@@ -198,3 +198,25 @@ def test_extra_section_errors_name_the_section():
         build_report(demo_energies(), "orr-4e", surfaces=["ALY-01"], volcanoes=[("orr-4e", "CO3*")])
     with pytest.raises(PathwayError, match=r"routes section CO2 -> C2H6: no molecule 'C2H6'.*known: .*CH4\(g\)"):
         build_report(demo_energies(), "orr-4e", surfaces=["ALY-01"], routes=[("CO2", "C2H6")])
+
+
+def test_report_lists_scientific_warnings_and_leaks_no_figures():
+    import matplotlib.pyplot as plt
+    import numpy as np
+
+    from ecatlab.demo import demo_energies
+    from ecatlab.energies import EnergyTable
+    from ecatlab.pathways import BUILTIN_PATHWAYS
+    from ecatlab.report import analyse, build_report
+
+    wide = demo_energies().matrix.copy()
+    wide.loc["ALY-01", "OOH*"] = np.nan  # a surface lacking an adsorbate: a MissingDataWarning the report must show
+    table = EnergyTable.from_matrix(wide)
+    before = len(plt.get_fignums())
+    a = analyse(table, list(BUILTIN_PATHWAYS), top=2)  # 13 pathways x 2 figures: more than matplotlib's 20
+    assert len(plt.get_fignums()) == before
+    assert any(cat == "MissingDataWarning" and "ALY-01" in msg for cat, msg in a.warnings)
+    assert not any("figures" in msg and "opened" in msg for _, msg in a.warnings)
+    a.close()
+    page = build_report(table, ["orr-4e", "co2rr-co"], volcanoes=[("co2rr-co", "CO*")])
+    assert "MissingDataWarning" in page and "More than 20 figures" not in page

@@ -345,3 +345,23 @@ def test_default_selection_is_the_best_ranked_surfaces(table):
     positions = [html_rows.index(f">{s}<") for s in order]
     shown = [s for _, s in sorted(zip(positions, order))]
     assert shown == list(ranked["surface"].astype(str))[:10]  # read-out is best-ranked first
+
+
+def test_snap_sets_the_exact_limiting_potential_and_ignores_the_slider_rounding(table):
+    ex = explore(table, pathway="orr-4e", surfaces=table.surfaces[:4], render="inline")
+    ex.focus.value = ex.state.surfaces[0]
+    target = ex.snap_to_limiting()
+    assert ex.state.potential == target  # exact, not rounded to the 0.01 V slider step
+    ex.potential.value = round(target, 2)  # the browser echoes the slider's rounded position
+    assert ex.state.potential == target
+    row = ex.state.step_table().loc[ex.state.focus]
+    assert float(np.max(row.to_numpy(dtype=float))) <= 1e-9  # nothing uphill at U_L (ORR has no chemical step)
+    ex.potential.value = target + 0.2  # a real move is applied
+    assert ex.state.potential == pytest.approx(target + 0.2)
+
+
+def test_switching_reaction_starts_at_its_equilibrium_potential(table):
+    ex = explore(table, pathway="oer-4e", potential=1.85, surfaces=table.surfaces[:4], render="inline")
+    ex.reaction.value = "HER"
+    assert ex.state.potential == pytest.approx(che.equilibrium_potential(ex.state.pathway), abs=1e-12)
+    assert "equilibrium potential" in ex.status.value

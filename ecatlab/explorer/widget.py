@@ -23,6 +23,7 @@ import numpy as np
 
 from ecatlab.constants import STANDARD_TEMPERATURE
 from ecatlab.che import kernel
+from ecatlab.che.conditions import PH_RANGE
 from ecatlab.explorer.model import UPHILL_TOLERANCE, ExplorerState, pathway_options, product_label
 from ecatlab.explorer.view import FIGURE_HEIGHT_PX, DiagramView, render_mode
 from ecatlab.pathways import REACTION_FAMILIES
@@ -298,7 +299,7 @@ class Explorer:
                                 continuous_update=True, on_clamp=self._note_clamp, style=wide, layout=w.Layout(width="340px"))
         self.potential_entry = w.FloatText(value=_shown(s.potential), step=0.01, layout=w.Layout(width="110px"), tooltip="exact potential, V")
         self.scale = w.ToggleButtons(options=["RHE", "SHE"], value=s.scale, description="vs", style={"button_width": "52px", **wide})
-        self.pH = Slider(value=s.pH, min=0.0, max=14.0, step=0.1, description="pH", readout=True, readout_format=".1f",
+        self.pH = Slider(value=s.pH, min=PH_RANGE[0], max=PH_RANGE[1], step=0.1, description="pH", readout=True, readout_format=".1f",
                          continuous_update=True, on_clamp=self._note_clamp, style=wide, layout=w.Layout(width="300px"))
         self.temperature = w.FloatText(value=s.temperature, description="T (K)", step=1.0, style=wide, layout=w.Layout(width="150px"))
         self.reaction = w.ToggleButtons(options=list(REACTION_FAMILIES), value=s.reaction, description="reaction",
@@ -490,6 +491,10 @@ class Explorer:
 
     # -- callbacks (thin) ------------------------------------------------------------------------------
     def _on_potential(self, change) -> None:
+        snapped = getattr(self, "_snapped", None)
+        if snapped is not None and abs(float(change["new"]) - snapped) <= 0.5 * float(self.potential.step) + 1e-12:
+            return  # the slider's own rounding of an exact (snapped) value: keep the exact value
+        self._snapped = None
         self.state.set_potential(change["new"])
         self._quiet += 1
         try:
@@ -528,6 +533,11 @@ class Explorer:
         self.state.set_reaction(change["new"])
         self._sync_controls()
         self._refresh(structure=True)
+        # a potential carried over from another reaction means nothing here (1.85 V from OER in HER):
+        # start the new reaction at its own equilibrium potential
+        u_eq = self.state.equilibrium_potential()
+        self._messages.append(f"potential set to the equilibrium potential of {self.state.pathway.name}, {u_eq:+.3f} V vs {self.state.scale}")
+        self._set_potential_control(u_eq)
 
     def _on_pathway(self, change) -> None:
         if change["new"] is None:
@@ -571,12 +581,18 @@ class Explorer:
         return target
 
     def _set_potential_control(self, value: float) -> None:
+        """Set U exactly (a snap target or a reset), not rounded to the slider's step; the slider
+        shows the nearest position and its rounding echo is ignored."""
         self._ensure_range(value)
-        if self.potential.value == value:
-            self.state.set_potential(value)
-            self._refresh()
-        else:
+        self.state.set_potential(value)
+        self._snapped = float(value)
+        self._quiet += 1
+        try:
             self.potential.value = value
+            self.potential_entry.value = _shown(value)
+        finally:
+            self._quiet -= 1
+        self._refresh()
 
     def export(self, folder: str | os.PathLike | None = None) -> list[pathlib.Path]:
         """Save the current figure and tables (see :func:`export_snapshot`); the paths are listed in the status line."""
