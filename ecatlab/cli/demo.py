@@ -4,7 +4,7 @@ Writes, into an output folder it marks as its own (file ``.ecatlab-output``):
 
 * ``limiting_potentials.csv`` / ``.md`` / ``.tex`` — limiting-potential table of every built-in
   pathway (ORR, OER, HER, CO2RR, NRR) for the twelve hypothetical surfaces;
-* ``ranking.csv`` / ``.md`` — surfaces ranked per pathway by theoretical overpotential;
+* ``ranking.csv`` / ``.md`` — surfaces ranked per pathway (unblocked first, then lowest G_max; why a surface is blocked);
 * ``diagrams/<pathway>.svg`` and ``.png`` — free-energy diagram of the best surfaces at U = 0;
 * ``report.html`` — the one-file report, with a volcano section (orr-4e against OH*) and a
   best-route section (CO2 to CH4, HER as competitor).

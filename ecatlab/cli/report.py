@@ -26,7 +26,7 @@ def register(subparsers) -> None:
                         help="potential scale of the results (default RHE)")
     parser.add_argument("--temperature", "-T", type=float, default=STANDARD_TEMPERATURE, help="temperature in K (default 298.15)")
     parser.add_argument("--surface", nargs="+", metavar="NAME", default=None, help="only these surfaces (default all)")
-    parser.add_argument("--top", type=int, default=4, help="number of best surfaces overlaid per diagram (default 4)")
+    parser.add_argument("--top", type=int, default=4, help="number of best-ranked surfaces (unblocked, then lowest G_max) overlaid per diagram (default 4)")
     parser.add_argument("--volcano", nargs="+", metavar="KEY=DESCRIPTOR", default=[],
                         help="add a volcano section per item, e.g. orr-4e=OH* or 'oer-4e=O* - OH*' "
                              "(scaling relations fitted to the table's surfaces)")

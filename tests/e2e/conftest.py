@@ -102,8 +102,10 @@ def sync_playwright_factory():
 
 @pytest.fixture(scope="session")
 def artifacts_dir() -> pathlib.Path:
-    """Folder for screenshots and the server log: $ECATLAB_E2E_ARTIFACTS or <repo>/test-artifacts/e2e."""
-    folder = pathlib.Path(os.environ.get("ECATLAB_E2E_ARTIFACTS") or ROOT / "test-artifacts" / "e2e").resolve()
+    """Folder for screenshots and the server log: $ECATLAB_E2E_ARTIFACTS or <temp dir>/ecatlab-e2e (never the checkout)."""
+    import tempfile
+
+    folder = pathlib.Path(os.environ.get("ECATLAB_E2E_ARTIFACTS") or pathlib.Path(tempfile.gettempdir()) / "ecatlab-e2e").resolve()
     folder.mkdir(parents=True, exist_ok=True)
     for stale in ("failure_page.png", "failure_page.html"):  # from an earlier failed run
         (folder / stale).unlink(missing_ok=True)

@@ -15,7 +15,7 @@ drag the potential slider, click another reaction. Checked in the page (not in t
   message in the explorer's error line.
 
 Screenshots of the explorer (before, after the potential move, after the reaction change) and the
-JupyterLab log go to ``$ECATLAB_E2E_ARTIFACTS`` or ``<repo>/test-artifacts/e2e`` (printed).
+JupyterLab log go to ``$ECATLAB_E2E_ARTIFACTS`` or ``<temp dir>/ecatlab-e2e`` (printed).
 Run: ``python -m pytest -m browser -s tests/e2e``. Every wait below has a timeout.
 """
 

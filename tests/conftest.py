@@ -1,0 +1,13 @@
+"""Test-session settings: keep the checkout clean (no bytecode, cache or example database written into it)."""
+
+import sys
+
+sys.dont_write_bytecode = True  # no __pycache__ folders in the checkout from the test run
+
+try:
+    from hypothesis import settings
+
+    settings.register_profile("ecatlab", database=None, deadline=None)  # no .hypothesis/ folder in the checkout
+    settings.load_profile("ecatlab")
+except ImportError:  # pragma: no cover - hypothesis is in the test extra
+    pass
