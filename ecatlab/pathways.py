@@ -22,7 +22,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "orr-4e": (
         "ORR",
         "4-electron oxygen reduction to water, associative route via OOH*",
-        ("O2", "OOH*", "O*", "OH*", "H2O"),
+        ("O2(g)", "OOH*", "O*", "OH*", "2 H2O(l)"),
         """
         O2(g) + * + H+ + e- -> OOH*
         OOH* + H+ + e- -> O* + H2O(l)
@@ -33,7 +33,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "orr-4e-dissociative": (
         "ORR",
         "4-electron oxygen reduction to water, dissociative route (O2 splits on two sites, chemical step)",
-        ("O2", "2 O*", "O* + OH*", "O*", "OH*", "H2O"),
+        ("O2(g)", "2 O*", "O* + OH*", "O*", "OH*", "2 H2O(l)"),
         """
         O2(g) + 2 * -> 2 O*
         2 O* + H+ + e- -> O* + OH*
@@ -45,7 +45,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "orr-2e": (
         "ORR",
         "2-electron oxygen reduction to hydrogen peroxide (aqueous), via OOH*",
-        ("O2", "OOH*", "H2O2"),
+        ("O2(g)", "OOH*", "H2O2(aq)"),
         """
         O2(g) + * + H+ + e- -> OOH*
         OOH* + H+ + e- -> * + H2O2(aq)
@@ -54,7 +54,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "oer-4e": (
         "OER",
         "4-electron oxygen evolution from water via OH*, O*, OOH*",
-        ("H2O", "OH*", "O*", "OOH*", "O2"),
+        ("2 H2O(l)", "OH*", "O*", "OOH*", "O2(g)"),
         """
         H2O(l) + * -> OH* + H+ + e-
         OH* -> O* + H+ + e-
@@ -65,7 +65,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "her-volmer-heyrovsky": (
         "HER",
         "hydrogen evolution: proton discharge (Volmer) then electrochemical desorption (Heyrovsky)",
-        ("H+ + e-", "H*", "H2"),
+        ("2 H+ + 2 e-", "H*", "H2(g)"),
         """
         * + H+ + e- -> H*
         H* + H+ + e- -> * + H2(g)
@@ -74,7 +74,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "her-volmer-tafel": (
         "HER",
         "hydrogen evolution: two proton discharges (Volmer) then chemical recombination (Tafel)",
-        ("H+ + e-", "H*", "2 H*", "H2"),
+        ("2 H+ + 2 e-", "H*", "2 H*", "H2(g)"),
         """
         2 * + H+ + e- -> H* + *
         H* + * + H+ + e- -> 2 H*
@@ -84,7 +84,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "co2rr-co": (
         "CO2RR",
         "CO2 reduction to CO(g) via carboxyl COOH*, then CO desorption (chemical step)",
-        ("CO2", "COOH*", "CO*", "CO"),
+        ("CO2(g)", "COOH*", "CO*", "CO(g)"),
         """
         CO2(g) + * + H+ + e- -> COOH*
         COOH* + H+ + e- -> CO* + H2O(l)
@@ -94,7 +94,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "co2rr-hcooh": (
         "CO2RR",
         "CO2 reduction to formic acid (aqueous) via formate OCHO*",
-        ("CO2", "OCHO*", "HCOOH"),
+        ("CO2(g)", "OCHO*", "HCOOH(aq)"),
         """
         CO2(g) + * + H+ + e- -> OCHO*
         OCHO* + H+ + e- -> * + HCOOH(aq)
@@ -103,7 +103,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "co2rr-ch4": (
         "CO2RR",
         "CO2 reduction to methane via COOH*, CO*, CHO* (formyl), CH2O*, CH3O*, then O*/OH* removal",
-        ("CO2", "COOH*", "CO*", "CHO*", "CH2O*", "CH3O*", "O*", "OH*", "CH4"),
+        ("CO2(g)", "COOH*", "CO*", "CHO*", "CH2O*", "CH3O*", "O* + CH4(g)", "OH* + CH4(g)", "CH4(g) + 2 H2O(l)"),
         """
         CO2(g) + * + H+ + e- -> COOH*
         COOH* + H+ + e- -> CO* + H2O(l)
@@ -118,7 +118,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "co2rr-ch4-coh": (
         "CO2RR",
         "CO2 reduction to methane via COOH*, CO*, COH* (hydroxymethylidyne), C*, CH*, CH2*, CH3*",
-        ("CO2", "COOH*", "CO*", "COH*", "C*", "CH*", "CH2*", "CH3*", "CH4"),
+        ("CO2(g)", "COOH*", "CO*", "COH*", "C*", "CH*", "CH2*", "CH3*", "CH4(g) + 2 H2O(l)"),
         """
         CO2(g) + * + H+ + e- -> COOH*
         COOH* + H+ + e- -> CO* + H2O(l)
@@ -133,7 +133,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "co2rr-ch3oh": (
         "CO2RR",
         "CO2 reduction to methanol (aqueous) via COOH*, CO*, CHO*, CH2O*, CH3O*",
-        ("CO2", "COOH*", "CO*", "CHO*", "CH2O*", "CH3O*", "CH3OH"),
+        ("CO2(g)", "COOH*", "CO*", "CHO*", "CH2O*", "CH3O*", "CH3OH(aq) + H2O(l)"),
         """
         CO2(g) + * + H+ + e- -> COOH*
         COOH* + H+ + e- -> CO* + H2O(l)
@@ -146,7 +146,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "nrr-distal": (
         "NRR",
         "N2 reduction to NH3(g), distal route: the outer N is hydrogenated to NH3 first",
-        ("N2", "NNH*", "NNH2*", "N*", "NH*", "NH2*", "NH3*", "NH3"),
+        ("N2(g)", "NNH*", "NNH2*", "N* + NH3(g)", "NH* + NH3(g)", "NH2* + NH3(g)", "NH3* + NH3(g)", "2 NH3(g)"),
         """
         N2(g) + * + H+ + e- -> NNH*
         NNH* + H+ + e- -> NNH2*
@@ -160,7 +160,7 @@ BUILTIN_PATHWAYS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "nrr-alternating": (
         "NRR",
         "N2 reduction to NH3(g), alternating route: the two N atoms are hydrogenated in turn",
-        ("N2", "NNH*", "NHNH*", "NHNH2*", "NH2NH2*", "NH2*", "NH3*", "NH3"),
+        ("N2(g)", "NNH*", "NHNH*", "NHNH2*", "NH2NH2*", "NH2* + NH3(g)", "NH3* + NH3(g)", "2 NH3(g)"),
         """
         N2(g) + * + H+ + e- -> NNH*
         NNH* + H+ + e- -> NHNH*

@@ -157,7 +157,7 @@ def test_per_surface_potential_arrays(oxygen):
 
 def test_state_free_energies_cumulative(oxygen):
     levels = state_free_energies(oxygen, "orr-4e", potential=0.0)
-    assert list(levels.columns) == ["0: O2", "1: OOH*", "2: O*", "3: OH*", "4: H2O"]
+    assert list(levels.columns) == ["0: O2(g)", "1: OOH*", "2: O*", "3: OH*", "4: 2 H2O(l)"]
     np.testing.assert_allclose(levels.iloc[:, 0], 0.0)
     np.testing.assert_allclose(levels.iloc[:, -1], -O2, atol=1e-9)
     at_eq = state_free_energies(oxygen, "orr-4e", potential=ecatlab.equilibrium_potential("orr-4e"))

@@ -93,7 +93,8 @@ def test_highlight_is_the_determining_step(table, key):
         pds = int(lp["determining_step_index"].iloc[j]) - 1
         assert drawing.highlight_index == pds
         hl = drawing.highlight_line
-        assert hl.get_visible() and hl.get_color() == HIGHLIGHT
+        # several surfaces: each band in its own surface's colour (one colour for all hid which is which)
+        assert hl.get_visible() and hl.get_color() == PALETTE[j % len(PALETTE)]
         # the highlight runs exactly along the connector of step pds
         cx, cy = drawing.connector_xy(pds)
         np.testing.assert_allclose(hl.get_xdata(), cx)
@@ -104,13 +105,15 @@ def test_highlight_is_the_determining_step(table, key):
 def test_labels_present_with_chemical_formatting(table):
     ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
     texts = [t.get_text() for t in ax.texts]
-    for label in ("O₂", "OOH*", "O*", "OH*", "H₂O"):
+    for label in ("O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"):
         assert label in texts
     values = [t.get_text() for t in ax.ecatlab_drawings[0].value_texts]
     expected = state_free_energies(table, "orr-4e", surfaces=["ALY-01"]).to_numpy()[0]
     assert values == [f"{v:.2f}".replace("-", "\N{MINUS SIGN}") for v in expected]
     title = ax.get_title(loc="left")
-    assert "orr-4e" in title and "V vs RHE" in title and "pH 0" in title and "298.15 K" in title
+    # a reader's title (the pathway's description, not the internal key) and the conditions
+    assert "oxygen reduction" in title and "orr-4e" not in title
+    assert "V vs RHE" in title and "pH 0" in title and "298.15 K" in title
     legend_texts = [t.get_text() for t in ax.get_legend().get_texts()]
     assert any(t.startswith("potential-determining step") for t in legend_texts)
 
@@ -121,9 +124,11 @@ def test_overlay_uses_distinct_colours_and_dashes_and_axis_labels(table):
     colours = [d.level_line.get_color() for d in ax.ecatlab_drawings]
     assert colours == list(PALETTE[:4])
     assert len({str(d.level_line._dash_pattern) for d in ax.ecatlab_drawings}) == 4
-    assert [t.get_text() for t in ax.get_xticklabels()] == ["O₂", "OOH*", "O*", "OH*", "H₂O"]
+    assert [t.get_text() for t in ax.get_xticklabels()] == ["O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"]
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
-    assert legend[:4] == surfaces
+    lp = limiting_potentials(table, "orr-4e", surfaces=surfaces).set_index("surface")
+    for text, s in zip(legend[:4], surfaces):  # each entry names the surface and its U_L
+        assert text.startswith(s) and f"{lp.loc[s, 'limiting_potential']:.2f}".replace("-", "\N{MINUS SIGN}") in text
 
 
 def test_update_moves_existing_artists_only(table):

@@ -193,10 +193,12 @@ class DiagramSeries:
     limiting_potential: float
     overpotential: float
 
-    def legend_label(self, show_surface: bool = True, show_potential: bool = False) -> str:
+    def legend_label(self, show_surface: bool = True, show_potential: bool = False, show_limiting: bool = True) -> str:
         parts = []
         if show_surface:
             parts.append(self.surface)
+            if show_limiting and not show_potential and np.isfinite(self.limiting_potential):
+                parts.append(rf"$U_\mathrm{{L}}$ = {_fmt(self.limiting_potential)} V")
         if show_potential:
             word = {"equilibrium": r"$U_\mathrm{eq}$ = ", "limiting": r"$U_\mathrm{L}$ = "}.get(self.potential_kind, "U = ")
             parts.append(f"{word}{_fmt(self.potential)} V")
@@ -346,6 +348,9 @@ def diagram_data(
 def _reference_names(references: str) -> list[str]:
     part = references.split(";")[1] if ";" in references else references
     part = part.replace("references", "").strip()
+    import re
+
+    part = re.sub(r"\s+at\s+[-+0-9.eE]+\s*K\s*$", "", part)  # "... N2(g) at 298.15 K": the temperature is shown apart
     return [r.strip() for r in part.split(",") if r.strip()]
 
 
@@ -554,8 +559,12 @@ def draw_levels(
     labels_on_levels: bool = True,
     value_fontsize: float | None = None,
     style: str = "notebook",
+    highlight_colour: str | None = None,
 ) -> LevelDrawing:
     """Draw one series of levels on ``ax`` and return its :class:`LevelDrawing` handle.
+
+    ``highlight_colour``: colour of the potential-determining-step band (default the shared
+    :data:`~ecatlab.plotting.style.HIGHLIGHT`; overlays pass each series' colour).
 
     Parameters
     ----------
@@ -587,7 +596,9 @@ def draw_levels(
     h = LEVEL_HALF_WIDTH
     fig = ax.figure
     n = len(y)
-    highlight_line = ax.plot([0, 1], [0, 0], color=HIGHLIGHT, linewidth=p.level_width_pt * 3.2, alpha=0.75,
+    # the determining-step band takes the series' own colour when several series share the axes
+    band = HIGHLIGHT if highlight_colour is None else highlight_colour
+    highlight_line = ax.plot([0, 1], [0, 0], color=band, linewidth=p.level_width_pt * 3.2, alpha=0.75 if highlight_colour is None else 0.35,
                              solid_capstyle="round", zorder=1, gid="ecatlab-highlight")[0]
     connector_line = ax.plot(*_connector_segments(y), color=color, linewidth=p.connector_width_pt,
                              linestyle=(0, (1, 1.6)), zorder=2, gid="ecatlab-connector")[0]
@@ -664,7 +675,7 @@ def _title(ax, data: DiagramData, title, conditions: str | None, potential_text:
     if title is False:
         head = None
     elif title is None:
-        head = data.pathway.name
+        head = _pathway_title(data.pathway)
     else:
         head = str(title)
     if conditions == "title":
@@ -678,6 +689,14 @@ def _title(ax, data: DiagramData, title, conditions: str | None, potential_text:
             ax.annotate(cap, xy=(0, 0), xycoords="axes fraction", xytext=(0, -8), textcoords="offset points",
                         ha="left", va="top", fontsize=small, color="#444444", annotation_clip=False,
                         gid="ecatlab-caption")
+
+
+def _pathway_title(pathway) -> str:
+    """A reader's title: the pathway's description (built-ins and documented pathways), else its name."""
+    text = (getattr(pathway, "description", "") or "").strip()
+    if not text:
+        return pathway.name
+    return text[0].upper() + text[1:]
 
 
 def _new_axes(ax, style):
@@ -764,6 +783,7 @@ def _draw_data(data: DiagramData, *, ax, style, annotate, highlight, title, cond
                     label=s.legend_label(show_surface, show_potential) or None,
                     highlight_index=s.determining_index if (highlight and s.determining_index >= 0) else None,
                     annotate=annotate, labels_on_levels=on_levels, value_fontsize=value_font, style=p,
+                    highlight_colour=None if single else PALETTE[j % len(PALETTE)],
                 )
             )
         _fit_ylim(ax)
@@ -784,10 +804,15 @@ def _legend(ax, highlight: bool, p, series: bool = True):
 
     handles, labels = ax.get_legend_handles_labels() if series else ([], [])
     if highlight:
-        handles.append(Line2D([0, 1], [0, 0], color=HIGHLIGHT, linewidth=p.level_width_pt * 2.5, alpha=0.75, solid_capstyle="round"))
-        labels.append("potential-determining step")
+        several = len(handles) > 1
+        handles.append(Line2D([0, 1], [0, 0], color="#9a9a9a" if several else HIGHLIGHT, linewidth=p.level_width_pt * 2.5,
+                              alpha=0.5 if several else 0.75, solid_capstyle="round"))
+        labels.append("potential-determining step (band in each surface's colour)" if several else "potential-determining step")
     if not handles:
         return None
+    if len(handles) > 4:  # many series: outside the axes, right of the plot, so no level line is covered
+        return ax.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, handlelength=2.4,
+                         borderaxespad=0.0)
     return ax.legend(handles, labels, loc="best", frameon=False, handlelength=2.4, borderaxespad=0.3)
 
 

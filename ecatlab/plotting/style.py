@@ -36,9 +36,14 @@ PALETTE: tuple[str, ...] = (
     "#56B4E9",  # sky blue
     "#7F7F7F",  # mid grey
     "#B8860B",  # dark goldenrod
+    "#882255",  # wine
+    "#44AA99",  # teal
+    "#332288",  # indigo
+    "#999933",  # olive
 )
 #: Dash patterns paired with the palette (solid first).
-DASHES: tuple = ("-", (0, (5, 2)), (0, (1, 1.5)), (0, (6, 2, 1, 2)), (0, (3, 1, 1, 1, 1, 1)), (0, (8, 3)), "-", (0, (2, 2)))
+DASHES: tuple = ("-", (0, (5, 2)), (0, (1, 1.5)), (0, (6, 2, 1, 2)), (0, (3, 1, 1, 1, 1, 1)), (0, (8, 3)), (0, (4, 1, 4, 3)),
+                 (0, (2, 2)), (0, (6, 1.5)), (0, (1, 3)), (0, (5, 1, 1, 1)), (0, (10, 2, 2, 2)))
 #: Marker shapes for scatter series.
 MARKERS: tuple[str, ...] = ("o", "s", "D", "^", "v", "P", "X", "h")
 #: Colour of the highlight band behind a potential-determining step.
