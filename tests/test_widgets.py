@@ -201,9 +201,9 @@ def test_fast_redraw_equals_full_redraw(ex):
 
 # -- clamps, validation, errors ------------------------------------------------------------------------------------
 def test_slider_clamp_is_reported(ex):
-    ex.pH.value = 20.0
-    assert ex.state.pH == 14.0
-    assert any("pH 20" in m and "clamped to 14" in m for m in ex.messages)
+    ex.pH.value = 20.0  # the slider spans ecatlab.che.conditions.PH_RANGE, -2 to 16
+    assert ex.state.pH == 16.0
+    assert any("pH 20" in m and "clamped to 16" in m for m in ex.messages)
     assert "clamped" in ex.status.value
     ex.potential_entry.value = 9.0
     assert ex.potential.value == ex.potential.max and ex.state.potential == ex.potential.max
