@@ -451,6 +451,7 @@ def analyse_descriptors(
     cv_folds: int = 5,
     seed: int = 0,
     min_fraction: float = 0.5,
+    cross_validate: bool = True,
 ) -> DescriptorAnalysis:
     """PCA of the surfaces x adsorbates matrix, with missing entries imputed (see the module docstring).
 
@@ -473,6 +474,10 @@ def analyse_descriptors(
         Cross-validation of the imputation (folds, random seed).
     min_fraction : float
         Adsorbates computed on fewer than this fraction of the surfaces are left out (warned).
+    cross_validate : bool
+        Run :func:`imputation_cv` on a complete matrix too (the ``cv_rmse`` column and the PCA
+        out-of-sample errors of :meth:`DescriptorAnalysis.comparison`); with missing entries it
+        always runs unless ``imputation_rank`` is given.
 
     Returns
     -------
@@ -514,12 +519,13 @@ def analyse_descriptors(
     iterations = 0
     rank_used = None
     if missing.any():
-        cv = imputation_cv(x, folds=cv_folds, seed=seed)
+        if imputation_rank is None or cross_validate:
+            cv = imputation_cv(x, folds=cv_folds, seed=seed)
         rank_used = int(cv.loc[cv["cv_rmse"].idxmin(), "rank"]) if imputation_rank is None else int(imputation_rank)
         x, iterations, ok = impute_low_rank(x, rank_used)
         if not ok:
             warnings.warn(f"low-rank imputation of {table.source} did not converge in {iterations} iterations", MissingDataWarning, stacklevel=2)
-    else:
+    elif cross_validate:
         cv = imputation_cv(x, folds=cv_folds, seed=seed)
     mean = x.mean(axis=0)
     xc = x - mean

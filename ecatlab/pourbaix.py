@@ -73,6 +73,7 @@ __all__ = [
     "PourbaixMap",
     "read_surface_states",
     "surface_states_from_energies",
+    "demo_surface_states",
     "formation_free_energies",
     "pourbaix_map",
     "stable_states",
@@ -408,6 +409,16 @@ def surface_states_from_energies(energies, species: Sequence[str] = ("H*", "OH*"
     note = ("states built from single-adsorbate energies: coverage = that of the cell the energies were computed in (1 adsorbate per cell, "
             "counted as 1 ML of that cell)")
     return SurfaceStates(states.frame, states.scheme, states.source, states.notes + (note,))
+
+
+def demo_surface_states(temperature: float | None = None) -> SurfaceStates:
+    """The bundled ILLUSTRATIVE surface states (invented numbers) of the twelve demo surfaces:
+    clean, H*, OH*, O* at 1/4, 1/2 and 1 ML and O* + OH* on a 2x2 cell of 4 sites
+    (``ecatlab/data/illustrative_surface_states.csv``, made by ``make_illustrative_surface_states.py``)."""
+    from importlib import resources
+
+    path = resources.files("ecatlab") / "data" / "illustrative_surface_states.csv"
+    return read_surface_states(str(path), temperature=temperature, name="illustrative_surface_states.csv (bundled ILLUSTRATIVE demo)")
 
 
 def _as_states(states, temperature: float | None) -> SurfaceStates:
