@@ -80,6 +80,7 @@ __all__ = [
     "transition_potential",
     "flag_surface_states",
     "water_stability_lines",
+    "limiting_potential_vs_pH",
     "pourbaix_section",
     "SURFACE_STATE_COLUMNS",
     "STABLE_STATE_COLUMNS",
@@ -660,6 +661,27 @@ def water_stability_lines(pH, scale: str = "RHE", temperature: float = STANDARD_
     o2 = [equilibrium_potential("O2(g) + 4 H+ + 4 e- -> 2 H2O(l)", scale, float(p), temperature, references) for p in ph]
     out = pd.DataFrame({"pH": ph, "H2_evolution": h2, "O2_evolution": o2})
     out.attrs.update({"units": {"H2_evolution": f"V vs {check_scale(scale)}", "O2_evolution": f"V vs {check_scale(scale)}"}, "temperature": float(temperature)})
+    return out
+
+
+def limiting_potential_vs_pH(energies, pathways, surface: str, pH=None, scale: str = "RHE",
+                             temperature: float = STANDARD_TEMPERATURE) -> pd.DataFrame:
+    """The limiting potential of ``pathways`` on ``surface`` at several pH (for drawing it on a map).
+
+    One :func:`ecatlab.limiting_potentials` evaluation per pH (default 0 to 14 in steps of 1);
+    columns ``surface``, ``pathway``, ``pH``, ``limiting_potential`` (V vs ``scale``), ``scale``.
+    """
+    from ecatlab.che.engine import limiting_potentials
+    from ecatlab.energies import as_energy_table
+
+    table = as_energy_table(energies, temperature)
+    ph = np.arange(0.0, 14.5, 1.0) if pH is None else np.atleast_1d(np.asarray(pH, dtype=float))
+    parts = [limiting_potentials(table, pathways, pH=float(p), scale=scale, temperature=temperature, surfaces=[surface], on_missing="report")
+             for p in ph]
+    out = pd.concat(parts, ignore_index=True)[["surface", "pathway", "pH", "limiting_potential", "scale"]]
+    out["surface"] = out["surface"].astype(str)
+    out["pathway"] = out["pathway"].astype(str)
+    out.attrs["units"] = {"limiting_potential": f"V vs {check_scale(scale)}"}
     return out
 
 
