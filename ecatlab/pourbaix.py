@@ -752,7 +752,8 @@ def flag_surface_states(limiting: pd.DataFrame, states, assumed: str | Mapping[s
             stable = bool(np.isfinite(dG[k, j]) and margin <= tolerance + 1e-12)
             stable_col[r] = stable
             if not stable:
-                flag_col[r] = (f"assumes {want} but {labels[idx[k]]} ({cov[k, idx[k]]:g} ML) is {margin:.2f} eV per cell more stable at "
+                name = labels[idx[k]] if "ML" in labels[idx[k]] else f"{labels[idx[k]]} ({cov[k, idx[k]]:g} ML)"
+                flag_col[r] = (f"assumes {want} but {name} is {margin:.2f} eV per cell more stable at "
                                f"U_L = {u_l[r]:.2f} V vs {g.scale}")
     out = limiting.copy()
     out["surface_state_at_U_L"] = state_col

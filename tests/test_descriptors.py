@@ -315,3 +315,28 @@ def test_no_gap_no_warning_and_unknown_species_error():
     assert (prov["status"] == "computed").all()
     with pytest.raises(ScalingError, match="no energies of NNH"):
         auto_scaling(table, targets=["NNH*"])
+
+
+# ------------------------------------------------------------------------------------------------
+# command line
+# ------------------------------------------------------------------------------------------------
+def test_cli_descriptors_fill_writes_flagged_table(tmp_path, capsys):
+    from ecatlab.cli import main
+    from ecatlab.energies import read_energies
+
+    x, _ = _low_rank(10, 4, 1, 0.02, seed=3)
+    frame = pd.DataFrame(x, index=[f"S{i}" for i in range(10)], columns=["OH*", "O*", "OOH*", "CO*"]).stack().rename("G").reset_index()
+    frame.columns = ["surface", "species", "G"]
+    frame = frame[~((frame["surface"] == "S2") & (frame["species"] == "OOH*"))]
+    src = tmp_path / "e.csv"
+    frame.to_csv(src, index=False)
+    out = tmp_path / "filled.csv"
+    assert main(["descriptors", str(src), "--fill", "-o", str(out), "--scree", str(tmp_path / "s.png")]) == 0
+    text = capsys.readouterr()
+    assert "components needed" in text.out and "ESTIMATED" in text.err
+    back = read_energies(out)
+    row = back.frame[(back.frame["surface"] == "S2") & (back.frame["species"] == "OOH*")].iloc[0]
+    assert row["status"] == "estimated" and float(row["estimate_error"]) > 0
+    assert (tmp_path / "s.png").read_bytes()[:4] == b"\x89PNG"
+    assert main(["descriptors", str(src), "--fill", "-o", str(out)]) == 2  # exists, no --force
+    assert main(["descriptors", str(src), "--fill", "-o", str(src), "--force"]) == 2  # the input itself

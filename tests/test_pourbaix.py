@@ -290,3 +290,34 @@ def test_bundled_illustrative_states():
     assert "ILLUSTRATIVE" in states.source or any("ILLUSTRATIVE" in n for n in states.notes)
     assert len(states.surfaces) == 12 and CLEAN in states.states
     assert set(states.coverage().stack().unique()) >= {0.25, 0.5, 1.0}
+
+
+# ------------------------------------------------------------------------------------------------
+# command line
+# ------------------------------------------------------------------------------------------------
+def test_cli_pourbaix_demo_flags_and_figure(tmp_path, capsys):
+    from ecatlab.cli import main
+
+    fig = tmp_path / "map.svg"
+    assert main(["pourbaix", "--demo", "--surface", "SAS-02", "-p", "orr-4e", "-o", str(fig)]) == 0
+    out = capsys.readouterr().out
+    assert "ILLUSTRATIVE" in out and "assumes clean but H* 1 ML" in out and fig.read_text().lstrip().startswith("<?xml")
+    # never overwrite without --force; one-line error, exit 2
+    assert main(["pourbaix", "--demo", "--surface", "SAS-02", "-o", str(fig)]) == 2
+    assert "--force" in capsys.readouterr().err
+    assert main(["pourbaix", "--demo", "--surface", "SAS-02", "-o", str(fig), "--force"]) == 0
+
+
+def test_cli_pourbaix_file_json_matches_library(tmp_path, capsys):
+    import json
+
+    from ecatlab.cli import main
+
+    path = tmp_path / "s.csv"
+    path.write_text("surface,state,adsorbates,sites,G\nM,OH*,OH*,1,0.8\nM,O*,O*,1,2.0\n", encoding="utf-8")
+    assert main(["pourbaix", str(path), "--scale", "she", "--pH", "7", "-U", "0.5", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    (t,) = data["transitions"]["M"][:1]
+    assert t["from"] == CLEAN and t["to"] == "OH*"
+    assert t["potential"] == pytest.approx(0.8 - 7 * kT_ln10(298.15), abs=1e-9)
+    assert main(["pourbaix", str(tmp_path / "nope.csv")]) == 2
