@@ -321,3 +321,30 @@ def test_cli_pourbaix_file_json_matches_library(tmp_path, capsys):
     assert t["from"] == CLEAN and t["to"] == "OH*"
     assert t["potential"] == pytest.approx(0.8 - 7 * kT_ln10(298.15), abs=1e-9)
     assert main(["pourbaix", str(tmp_path / "nope.csv")]) == 2
+
+
+# ------------------------------------------------------------------------------------------------
+# explorer tab
+# ------------------------------------------------------------------------------------------------
+def test_explorer_surface_states_tab_draws_only_when_visible():
+    pytest.importorskip("ipywidgets")
+    from ecatlab.demo import demo_energies
+    from ecatlab.explorer import Explorer
+    from ecatlab.pourbaix import demo_surface_states
+
+    ex = Explorer(demo_energies(), surfaces=["SAS-02"])
+    assert ex.pourbaix is None and len(ex.tabs.children) == 2  # opt-in tab
+    panel = ex.add_surface_states_tab()
+    assert ex.tabs.titles[-1] == "surface states" and ex.pourbaix is panel
+    assert ex.pourbaix.draws == 0  # hidden: nothing drawn
+    ex.potential.value = 0.3
+    assert ex.pourbaix.draws == 0
+    ex.tabs.selected_index = 2
+    assert ex.pourbaix.draws == 1 and ex.errors == []
+    ex.pourbaix.set_states(demo_surface_states())
+    ex._refresh()
+    assert ex.pourbaix.draws == 2 and ex.pourbaix.last_png[:4] == b"\x89PNG"
+    # the read-out is the library's answer at the applied potential
+    expect = stable_states(demo_surface_states(), 0.3, 0.0, "RHE", surfaces=["SAS-02"]).iloc[0]["stable_state"]
+    assert f"the stable state is <b>{expect}</b>" in ex.pourbaix.last_text
+    assert "H* 1 ML" in ex.pourbaix.last_text  # SAS-02 is H-covered at its ORR U_L (flag shown)
