@@ -782,7 +782,7 @@ def pourbaix_section(states, energies=None, pathways=(), *, pH: float = 0.0, sca
     from ecatlab.tables import to_html
 
     st = _as_states(states, check_temperature(temperature))
-    names = st.surfaces if surfaces is None else _check_surfaces(st, surfaces)
+    names = st.surfaces if surfaces is None else [s for s in ([surfaces] if isinstance(surfaces, str) else surfaces) if s in set(st.surfaces)]
     parts = [f"<p>Most stable surface state (clean, adsorbate coverages) versus potential and pH from {_html.escape(st.describe())}; "
              "formation free energies per cell with the CHE (Hansen, Rossmeisl &amp; Nørskov, PCCP 10, 3722 (2008)). "
              "Theoretical estimates; the states compared are only those in the table.</p>"]

@@ -348,3 +348,19 @@ def test_explorer_surface_states_tab_draws_only_when_visible():
     expect = stable_states(demo_surface_states(), 0.3, 0.0, "RHE", surfaces=["SAS-02"]).iloc[0]["stable_state"]
     assert f"the stable state is <b>{expect}</b>" in ex.pourbaix.last_text
     assert "H* 1 ML" in ex.pourbaix.last_text  # SAS-02 is H-covered at its ORR U_L (flag shown)
+
+
+def test_report_sections_are_well_formed_and_self_contained():
+    import xml.etree.ElementTree as ET
+
+    from ecatlab.demo import demo_energies
+    from ecatlab.pourbaix import demo_surface_states
+    from ecatlab.report import build_report
+
+    text = build_report(demo_energies(), ["orr-4e", "her-volmer-heyrovsky"], surfaces=["SAS-02", "ALY-01"], descriptors=True,
+                        surface_states=demo_surface_states())
+    root = ET.fromstring(text.split("\n", 1)[1])
+    assert root.tag == "html"
+    assert 'id="surface-pourbaix"' in text and 'id="descriptors"' in text
+    assert "assumes clean but H* 1 ML" in text  # SAS-02: H-covered at its HER and ORR limiting potentials
+    assert "http://" not in text and "https://" not in text and "<script" not in text
