@@ -292,6 +292,20 @@ def test_bundled_illustrative_states():
     assert set(states.coverage().stack().unique()) >= {0.25, 0.5, 1.0}
 
 
+def test_bundled_states_match_their_generator(tmp_path):
+    import importlib.util
+    import pathlib
+
+    import ecatlab
+
+    folder = pathlib.Path(ecatlab.__file__).parent / "data"
+    spec = importlib.util.spec_from_file_location("make_states", folder / "make_illustrative_surface_states.py")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    made = module.main(tmp_path / "states.csv")
+    assert made.read_text(encoding="utf-8") == (folder / "illustrative_surface_states.csv").read_text(encoding="utf-8")
+
+
 # ------------------------------------------------------------------------------------------------
 # command line
 # ------------------------------------------------------------------------------------------------

@@ -22,7 +22,7 @@ REPULSION = {"H*": 0.05, "OH*": 0.15, "O*": 0.25}
 LABEL = {1: "1/4 ML", 2: "1/2 ML", 4: "1 ML"}
 
 
-def main() -> None:
+def main(out: pathlib.Path | None = None) -> pathlib.Path:
     from ecatlab.demo import demo_energies
 
     table = demo_energies()
@@ -41,9 +41,10 @@ def main() -> None:
         "# ILLUSTRATIVE surface states: invented numbers for hypothetical surfaces (see make_illustrative_surface_states.py); never cite them.\n"
         "# G: free energy of the covered 2x2 cell (4 sites) minus the clean cell and H2(g), H2O(l) references, eV per cell.\n"
     )
-    out = HERE / "illustrative_surface_states.csv"
+    out = HERE / "illustrative_surface_states.csv" if out is None else pathlib.Path(out)
     out.write_text(header + frame.to_csv(index=False), encoding="utf-8")
     print(f"wrote {len(frame)} states to {out}")
+    return out
 
 
 if __name__ == "__main__":
