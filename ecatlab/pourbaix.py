@@ -740,21 +740,25 @@ def flag_surface_states(limiting: pd.DataFrame, states, assumed: str | Mapping[s
         best = np.take_along_axis(dG, idx[:, None], axis=1)[:, 0]
         labels = np.asarray(sts.states, dtype=object)
         cov = sts.coverage().reindex(index=list(surf[rows]), columns=sts.states).to_numpy()
-        for k, r in enumerate(rows):
-            want = assumed.get(path[r], CLEAN) if isinstance(assumed, Mapping) else assumed
-            if want not in sts.states:
-                raise SurfaceStateError(st.source, f"pathway {path[r]!r} assumes state {want!r}, which the state table lacks; states: {sts.states}", column="state")
-            j = sts.states.index(want)
-            margin = dG[k, j] - best[k]
-            state_col[r] = labels[idx[k]]
-            cov_col[r] = cov[k, idx[k]]
-            margin_col[r] = margin if np.isfinite(dG[k, j]) else np.nan
-            stable = bool(np.isfinite(dG[k, j]) and margin <= tolerance + 1e-12)
-            stable_col[r] = stable
-            if not stable:
-                name = labels[idx[k]] if "ML" in labels[idx[k]] else f"{labels[idx[k]]} ({cov[k, idx[k]]:g} ML)"
-                flag_col[r] = (f"assumes {want} but {name} is {margin:.2f} eV per cell more stable at "
-                               f"U_L = {u_l[r]:.2f} V vs {g.scale}")
+        want = pd.Series(path[rows]).map(dict(assumed)).fillna(CLEAN).to_numpy(dtype=object) if isinstance(assumed, Mapping) \
+            else np.full(len(rows), assumed, dtype=object)
+        lacking = sorted(set(want) - set(sts.states))
+        if lacking:
+            raise SurfaceStateError(st.source, f"a pathway assumes state(s) {lacking}, which the state table lacks; states: {sts.states}", column="state")
+        position = {name: i for i, name in enumerate(sts.states)}
+        j = np.array([position[w] for w in want], dtype=np.int64)
+        k = np.arange(len(rows))
+        assumed_dG = dG[k, j]
+        margin = assumed_dG - best
+        stable = np.isfinite(assumed_dG) & (margin <= tolerance + 1e-12)
+        state_col[rows] = labels[idx]
+        cov_col[rows] = cov[k, idx]
+        margin_col[rows] = np.where(np.isfinite(assumed_dG), margin, np.nan)
+        stable_col[rows] = stable
+        for m in np.flatnonzero(~stable):  # text only for the flagged rows
+            name = labels[idx[m]] if "ML" in labels[idx[m]] else f"{labels[idx[m]]} ({cov[m, idx[m]]:g} ML)"
+            flag_col[rows[m]] = (f"assumes {want[m]} but {name} is {margin[m]:.2f} eV per cell more stable at "
+                                 f"U_L = {u_l[rows[m]]:.2f} V vs {g.scale}")
     out = limiting.copy()
     out["surface_state_at_U_L"] = state_col
     out["surface_state_coverage"] = cov_col

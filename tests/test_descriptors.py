@@ -74,6 +74,18 @@ def test_pca_matches_numpy_svd_and_sklearn(rank3):
         assert min(np.abs(an.scores_matrix[:, k] - scores[:, k]).max(), np.abs(an.scores_matrix[:, k] + scores[:, k]).max()) < 1e-8
 
 
+def test_standardized_pca_matches_sklearn_on_scaled_data(rank3):
+    from sklearn.decomposition import PCA
+    from sklearn.preprocessing import StandardScaler
+
+    x, _, _ = rank3
+    an = analyse_descriptors(_table(x), scaling=False, greedy_steps=1, cross_validate=False, standardize=True)
+    ref = PCA().fit(StandardScaler().fit_transform(x))
+    np.testing.assert_allclose(an.explained_variance()["explained_variance_ratio"], ref.explained_variance_ratio_, rtol=1e-9, atol=1e-14)
+    # reconstructions stay in eV: all components give back the matrix
+    np.testing.assert_allclose(an.reconstruction(an.n_components), x, atol=1e-9)
+
+
 def test_pca_recovers_rank_and_subspace(rank3):
     x, basis, an = rank3
     # with 0.01 eV noise, three components reach 0.02 eV; two do not

@@ -107,7 +107,10 @@ class PourbaixPanel:
             states = self._states_for(state)
             surface = state.focus
             if surface not in states.surfaces:
-                raise KeyError(f"no surface states for {surface}; surfaces with states: {', '.join(states.surfaces[:8])}")
+                from ecatlab.errors import SurfaceStateError
+
+                raise SurfaceStateError(states.source, f"no surface states for the focus surface {surface}; surfaces with states: "
+                                        f"{', '.join(states.surfaces[:8])}", column="surface")
             lo, hi = min(-1.0, state.potential - 0.2), max(2.0, state.potential + 0.2)
             pmap = pourbaix_map(states, surface, np.linspace(lo, hi, 301), np.linspace(0.0, 14.0, 71), state.scale, state.temperature)
             lines = None
