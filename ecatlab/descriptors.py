@@ -37,7 +37,6 @@ Pure computation: no plotting, no files.
 
 from __future__ import annotations
 
-import math
 import warnings
 from dataclasses import dataclass, field
 from typing import Iterable, Sequence
@@ -573,10 +572,9 @@ def descriptor_section(energies, target_rmse: float = 0.1, style: str = "double"
     st.attrs["caption"] = "Which single adsorption energy stands in for each component (correlation with its scores)."
     cmp_ = an.comparison().round(4)
     cmp_.attrs["caption"] = "Linear models of the whole matrix: PCA (optimal in-sample), chosen adsorption energies, and automatic scaling relations (eV)."
-    k = an.components_for_error(target_rmse)
-    intro = (f"<p>{_html.escape(an.summary(target_rmse))} Missing entries: {int(an.missing.sum())} "
-             f"(imputed by iterative rank-{an.imputation_rank} SVD)" if an.missing.any() else f"<p>{_html.escape(an.summary(target_rmse))} No missing entries")
-    intro += f". {k} component(s) reach {target_rmse:g} eV. Theoretical estimates.</p>"
+    imputed = (f" The {int(an.missing.sum())} missing entries were imputed by iterative rank-{an.imputation_rank} SVD (rank chosen by "
+               "cross-validation)." if an.missing.any() else "")
+    intro = f"<p>{_html.escape(an.summary(target_rmse))}{imputed} Theoretical estimates.</p>"
     scree = _svg_figure(plot_scree(an, target_rmse=target_rmse, style=style), "descriptors-scree", "Scree plot: explained variance and reconstruction error per component.", size="medium")
     parts = [intro, scree]
     if an.n_components >= 2:

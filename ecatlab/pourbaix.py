@@ -800,7 +800,7 @@ def pourbaix_section(states, energies=None, pathways=(), *, pH: float = 0.0, sca
         parts.append(_svg_figure(ax, f"pourbaix-{s}", f"Surface Pourbaix diagram of {s} (V vs {check_scale(scale)}); dashed: water stability limits.", size="medium"))
     if lp is not None:
         shown = lp[["surface", "pathway", "limiting_potential", "surface_state_at_U_L", "surface_state_coverage", "assumed_state_margin", "surface_state_flag"]].copy()
-        shown = shown[shown["surface"].astype(str).isin(names)].round(3)
+        shown = shown[shown["surface"].astype(str).isin(names)].round(3).reset_index(drop=True)
         shown.attrs["caption"] = (f"Surface state at each pathway's own limiting potential (pH {pH:g}, {temperature:g} K, V vs {check_scale(scale)}): "
                                   "a flag means the pathway was computed on a surface that is not the stable one there.")
         shown.attrs["columns"] = {k: v for k, v in lp.attrs["columns"].items() if k in shown.columns}
