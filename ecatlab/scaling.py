@@ -29,6 +29,13 @@ Rev. Lett. 99, 016105 (2007)); see :func:`bond_counting_slope`. A fixed slope re
 parameter; its standard error is reported as 0 (not estimated).
 
 Descriptors may be linear combinations of adsorbates (``"O* - OH*"``), see :class:`Descriptor`.
+
+:func:`auto_scaling` finds, for every adsorbate, the best one- or two-descriptor model by exact
+leave-one-out error (bond-counting slopes as the prior), and :func:`fill_missing_energies` fills
+missing energies from those models into a new table, every estimate flagged (``status``,
+``estimate_error``, a note and an :class:`~ecatlab.errors.EstimatedValueWarning`) with a provenance
+table; see ``docs/descriptors_and_pourbaix.md``.
+
 This module is pure computation (no plotting, no files).
 """
 
