@@ -176,3 +176,41 @@ class CorrectionWarning(EcatlabWarning):
 class ScalingError(EcatlabError, ValueError):
     """A scaling-relation fit or a volcano/map built on scaling relations cannot be done
     (too few surfaces, an adsorbate not tied to the descriptors, dependent descriptors...)."""
+
+
+class EstimatedValueWarning(EcatlabWarning):
+    """Values were estimated (e.g. missing adsorption energies filled from scaling relations);
+    the message says how many, from which models, and with which leave-one-out error."""
+
+
+class SurfaceStateError(EcatlabError, ValueError):
+    """A surface-state table (for surface Pourbaix diagrams) has a problem the user must fix.
+
+    Attributes
+    ----------
+    source : str
+        File name or ``"<DataFrame>"``.
+    problem : str
+        What is wrong and how to fix it.
+    rows : list
+        Offending row locations (file lines or frame labels).
+    column : str or None
+    """
+
+    def __init__(self, source: str, problem: str, rows=None, column: str | None = None):
+        self.source = source
+        self.problem = problem
+        self.rows = list(rows or [])
+        self.column = column
+        where = ""
+        if self.rows:
+            shown = ", ".join(str(r) for r in self.rows[:10])
+            more = f" and {len(self.rows) - 10} more" if len(self.rows) > 10 else ""
+            where += f" at {shown}{more}"
+        if column is not None:
+            where += f", column {column!r}"
+        super().__init__(f"{source}{where}: {problem}")
+
+
+class DescriptorError(EcatlabError, ValueError):
+    """A descriptor (PCA) analysis cannot be done (too few surfaces or adsorbates, bad options)."""

@@ -681,6 +681,8 @@ def build_report(
     command: str | None = None,
     title: str | None = None,
     banner: str | None = None,
+    descriptors: bool = False,
+    surface_states=None,
 ) -> str:
     """Analyse and render in one call; returns the HTML text (figures are closed afterwards).
 
@@ -692,6 +694,8 @@ def build_report(
         One :func:`routes_section` each, e.g. ``[("CO2", "CH4")]``.
 
     The extra sections come after ``sections``; they use the same conditions and surfaces.
+    ``descriptors=True`` adds :func:`ecatlab.descriptors.descriptor_section`; ``surface_states``
+    (a surface-state table) adds :func:`ecatlab.pourbaix.pourbaix_section` with the pathways flagged.
     """
     analysis = analyse(energies, pathways, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces, top=top)
     try:
@@ -703,6 +707,14 @@ def build_report(
             analysis.parameters["volcanoes"] = [tuple(v) for v in volcanoes]
         if routes:
             analysis.parameters["routes"] = [tuple(r) for r in routes]
+        if descriptors:
+            from ecatlab.descriptors import descriptor_section
+
+            extra.append(descriptor_section(analysis.table))
+        if surface_states is not None:
+            from ecatlab.pourbaix import pourbaix_section
+
+            extra.append(pourbaix_section(surface_states, analysis.table, analysis.pathways, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces))
         return render_html(analysis, sections=list(sections) + extra, command=command, title=title, banner=banner)
     finally:
         analysis.close()

@@ -29,6 +29,13 @@ Rev. Lett. 99, 016105 (2007)); see :func:`bond_counting_slope`. A fixed slope re
 parameter; its standard error is reported as 0 (not estimated).
 
 Descriptors may be linear combinations of adsorbates (``"O* - OH*"``), see :class:`Descriptor`.
+
+:func:`auto_scaling` finds, for every adsorbate, the best one- or two-descriptor model by exact
+leave-one-out error (bond-counting slopes as the prior), and :func:`fill_missing_energies` fills
+missing energies from those models into a new table, every estimate flagged (``status``,
+``estimate_error``, a note and an :class:`~ecatlab.errors.EstimatedValueWarning`) with a provenance
+table; see ``docs/descriptors_and_pourbaix.md``.
+
 This module is pure computation (no plotting, no files).
 """
 
@@ -57,6 +64,13 @@ __all__ = [
     "bond_counting_slope",
     "BOND_COUNTING_VALENCE",
     "SCALING_TABLE_COLUMNS",
+    "ScalingModel",
+    "AutoScaling",
+    "auto_scaling",
+    "fill_missing_energies",
+    "estimated_species_column",
+    "AUTO_SCALING_COLUMNS",
+    "PROVENANCE_COLUMNS",
 ]
 
 #: Bonds the central atom needs to be saturated, used by :func:`bond_counting_slope`
@@ -564,3 +578,428 @@ def bond_counting_slope(target: str, descriptor: str) -> float:
     if x >= x_max:
         raise ScalingError(f"{target!r}: {atom} is saturated by {x:g} H (needs {x_max} bonds); bond counting gives no slope")
     return (x_max - x) / x_max
+
+
+# ------------------------------------------------------------------------------------------------
+# automatic scaling relations: best one- or two-descriptor model per adsorbate, LOO errors,
+# missing energies filled and flagged
+# ------------------------------------------------------------------------------------------------
+#: Columns of :meth:`AutoScaling.table` (units in brackets).
+AUTO_SCALING_COLUMNS: dict[str, str] = {
+    "target": "adsorbate whose dG is modelled",
+    "rank": "1 = the selected model; higher = fall-back models used when a descriptor is missing on a surface [-]",
+    "kind": "bond-counting (slope fixed by bond counting, intercept fitted), one-descriptor or two-descriptor (free slopes)",
+    "descriptors": "descriptor adsorbate(s), comma separated",
+    "equation": "the relation as text [eV]",
+    "prior_slope": "bond-counting slope (x_max - x)/x_max of the target vs the descriptor, NaN where bond counting does not apply [-]",
+    "n_surfaces": "surfaces with the target and every descriptor computed [-]",
+    "n_parameters": "free parameters (fitted slopes + intercept) [-]",
+    "rmse": "in-sample root-mean-square residual [eV]",
+    "loo_rmse": "leave-one-out root-mean-square prediction error sqrt(mean (r_i/(1-h_ii))^2) [eV]",
+    "loo_max_abs": "largest leave-one-out prediction error [eV]",
+    "r_squared": "coefficient of determination (in-sample) [-]",
+}
+
+#: Columns of the provenance table returned by :func:`fill_missing_energies`.
+PROVENANCE_COLUMNS: dict[str, str] = {
+    "surface": "surface name",
+    "species": "adsorbate key",
+    "G": "adsorption free energy [eV]; NaN where neither computed nor estimable",
+    "status": "computed (from the input table), estimated (from a scaling relation) or missing (no model could be applied)",
+    "model": "equation of the scaling relation used (empty for computed values)",
+    "descriptors": "descriptor adsorbates the estimate was made from (their computed values on this surface)",
+    "estimate_error": "leave-one-out RMSE of the model: the expected error of the estimate [eV]; 0 for computed values",
+    "n_surfaces": "surfaces the model was fitted to [-]",
+}
+
+#: A model with more free parameters is chosen only if its leave-one-out RMSE is lower by more
+#: than this (eV). Parsimony margin: common practice, no source.
+DEFAULT_COMPLEXITY_MARGIN = 0.02
+
+
+@dataclass(frozen=True)
+class ScalingModel:
+    """One candidate scaling model of an adsorbate, with its leave-one-out error.
+
+    Attributes
+    ----------
+    relation : ScalingRelation
+        The fitted relation (slopes, intercept, in-sample statistics, residuals).
+    kind : str
+        ``"bond-counting"``, ``"one-descriptor"`` or ``"two-descriptor"``.
+    loo_rmse : float
+        Leave-one-out root-mean-square prediction error, eV.
+    loo_max_abs : float
+        Largest absolute leave-one-out prediction error, eV.
+    prior_slope : float or None
+        Bond-counting slope for the (target, descriptor) pair, where defined.
+    loo_residuals : tuple of (str, float)
+        (surface, leave-one-out prediction error in eV).
+    """
+
+    relation: ScalingRelation
+    kind: str
+    loo_rmse: float
+    loo_max_abs: float
+    prior_slope: float | None = None
+    loo_residuals: tuple[tuple[str, float], ...] = field(default=(), repr=False)
+
+    @property
+    def n_parameters(self) -> int:
+        return sum(1 for f in self.relation.fixed if not f) + 1
+
+
+def _loo_fit(y: np.ndarray, X: np.ndarray):
+    """OLS with exact leave-one-out residuals r_i / (1 - h_ii) (PRESS; Allen, Technometrics 16, 125 (1974)).
+
+    Returns (beta, residuals, loo_residuals); ``X`` includes the intercept column.
+    """
+    q, r = np.linalg.qr(X)
+    beta = np.linalg.solve(r, q.T @ y)
+    resid = y - X @ beta
+    h = np.einsum("ij,ij->i", q, q)
+    loo = resid / np.clip(1.0 - h, 1e-12, None)
+    return beta, resid, loo
+
+
+def _fit_candidate(table: EnergyTable, names: list[str], values: np.ndarray, col: dict, target: str, descs: tuple[str, ...],
+                   fixed: tuple[float | None, ...], kind: str, prior: float | None, min_surfaces: int):
+    """Fit one candidate on the surfaces that have every needed value; None when too few surfaces."""
+    cols = [col[target]] + [col[d] for d in descs]
+    sub = values[:, cols]
+    ok = np.all(np.isfinite(sub), axis=1)
+    free = [j for j, s in enumerate(fixed) if s is None]
+    p = len(free) + 1
+    n = int(ok.sum())
+    if n < max(min_surfaces, p + 2):
+        return None
+    y = sub[ok, 0].copy()
+    x = sub[ok, 1:]
+    for j, s in enumerate(fixed):
+        if s is not None:
+            y = y - s * x[:, j]
+    X = np.column_stack([x[:, j] for j in free] + [np.ones(n)])
+    if np.linalg.cond(X) > 1e6:
+        return None
+    beta, resid, loo = _loo_fit(y, X)
+    ssr = float(resid @ resid)
+    yy = sub[ok, 0]
+    sst = float(((yy - yy.mean()) ** 2).sum())
+    s2 = ssr / (n - p)
+    cov = s2 * np.linalg.inv(X.T @ X)
+    se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
+    slopes, slope_se, it = [], [], iter(range(len(free)))
+    for j in range(len(descs)):
+        if fixed[j] is None:
+            k = next(it)
+            slopes.append(float(beta[k]))
+            slope_se.append(float(se[k]))
+        else:
+            slopes.append(float(fixed[j]))
+            slope_se.append(0.0)
+    used = [s for s, k in zip(names, ok) if k]
+    rel = ScalingRelation(
+        target=target, descriptors=descs, slopes=tuple(slopes), intercept=float(beta[-1]), fixed=tuple(s is not None for s in fixed),
+        source=f"automatic scaling fit ({kind}) to {table.source}", n_surfaces=n,
+        r_squared=(1.0 - ssr / sst) if sst > 0 else float("nan"), rmse=math.sqrt(ssr / n), residual_std_error=math.sqrt(s2),
+        slope_stderr=tuple(slope_se), intercept_stderr=float(se[-1]), residuals=tuple((s, float(r)) for s, r in zip(used, resid)),
+    )
+    return ScalingModel(rel, kind, float(np.sqrt(np.mean(loo**2))), float(np.abs(loo).max()), prior,
+                        tuple((s, float(r)) for s, r in zip(used, loo)))
+
+
+def _prior(target: str, descriptor: str) -> float | None:
+    try:
+        return bond_counting_slope(target, descriptor)
+    except ScalingError:
+        return None
+
+
+def _select(models: list[ScalingModel], margin: float) -> list[ScalingModel]:
+    """Order candidates best first: the simplest model (bond-counting prior, then one, then two
+    descriptors) whose LOO RMSE is within ``margin`` eV of the lowest; the rest by LOO RMSE."""
+    if not models:
+        return []
+    complexity = {"bond-counting": 0, "one-descriptor": 1, "two-descriptor": 2}
+    best = min(m.loo_rmse for m in models)
+    eligible = [m for m in models if m.loo_rmse <= best + margin]
+    chosen = min(eligible, key=lambda m: (complexity[m.kind], m.loo_rmse))
+    rest = sorted((m for m in models if m is not chosen), key=lambda m: (m.loo_rmse, complexity[m.kind]))
+    return [chosen] + rest
+
+
+@dataclass(frozen=True)
+class AutoScaling:
+    """Automatic scaling relations of every adsorbate of a table (see :func:`auto_scaling`).
+
+    Attributes
+    ----------
+    models : dict of str to tuple of ScalingModel
+        Per target, candidate models best first (the first is the selected one; the others are
+        fall-backs for surfaces where a descriptor of a better model is missing).
+    source : str
+        The energy table the models were fitted to.
+    margin : float
+        Parsimony margin used in the selection, eV.
+    """
+
+    models: Mapping[str, tuple[ScalingModel, ...]]
+    source: str
+    margin: float = DEFAULT_COMPLEXITY_MARGIN
+
+    @property
+    def targets(self) -> list[str]:
+        return [t for t, m in self.models.items() if m]
+
+    def best(self, target: str) -> ScalingModel:
+        """The selected model of ``target``."""
+        key = Species.parse(target).key
+        found = self.models.get(key)
+        if not found:
+            raise ScalingError(f"no scaling model for {key} (too few surfaces, or not in the table {self.source}); modelled: {', '.join(self.targets)}")
+        return found[0]
+
+    def relations(self) -> list[ScalingRelation]:
+        """The selected relation of every modelled adsorbate."""
+        return [m[0].relation for m in self.models.values() if m]
+
+    def table(self, fallbacks: int = 0) -> pd.DataFrame:
+        """One row per target (and up to ``fallbacks`` fall-back models); columns in :data:`AUTO_SCALING_COLUMNS`."""
+        rows = []
+        for target, models in self.models.items():
+            for rank, m in enumerate(models[: 1 + fallbacks], start=1):
+                r = m.relation
+                rows.append({
+                    "target": target, "rank": rank, "kind": m.kind, "descriptors": ", ".join(r.descriptors), "equation": r.equation,
+                    "prior_slope": np.nan if m.prior_slope is None else m.prior_slope, "n_surfaces": r.n_surfaces,
+                    "n_parameters": m.n_parameters, "rmse": r.rmse, "loo_rmse": m.loo_rmse, "loo_max_abs": m.loo_max_abs,
+                    "r_squared": r.r_squared,
+                })
+        frame = pd.DataFrame(rows, columns=list(AUTO_SCALING_COLUMNS))
+        frame.attrs.update({"quantity": "automatic scaling relations dG(target) = sum a_k dG(D_k) + b", "columns": AUTO_SCALING_COLUMNS,
+                            "source": self.source, "selection": _selection_text(self.margin)})
+        return frame
+
+    def mean_loo_rmse(self) -> float:
+        """Root mean square over targets of the selected models' LOO RMSE, eV."""
+        vals = np.array([m[0].loo_rmse for m in self.models.values() if m])
+        return float(np.sqrt(np.mean(vals**2))) if vals.size else float("nan")
+
+
+def _selection_text(margin: float) -> str:
+    return (
+        "candidates: every other adsorbate as one descriptor (free slope, and the bond-counting slope of Abild-Pedersen et al., "
+        "PRL 99, 016105 (2007) where it applies), and pairs of the best one-descriptor candidates; selected: the simplest "
+        f"model whose leave-one-out RMSE is within {margin:g} eV of the lowest (bond-counting < one < two descriptors)"
+    )
+
+
+def auto_scaling(
+    energies,
+    targets: Iterable[str] | None = None,
+    candidates: Iterable[str] | None = None,
+    max_descriptors: int = 2,
+    margin: float = DEFAULT_COMPLEXITY_MARGIN,
+    pair_pool: int = 8,
+    min_surfaces: int = 4,
+    fallbacks: int | None = None,
+) -> AutoScaling:
+    r"""The best one- or two-descriptor linear scaling model of every adsorbate, by leave-one-out error.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path
+        Adsorption free energies (eV).
+    targets : list of str, optional
+        Adsorbates to model (default: every adsorbate of the table).
+    candidates : list of str, optional
+        Adsorbates allowed as descriptors (default: every adsorbate of the table).
+    max_descriptors : {1, 2}
+        Largest number of descriptors of one model.
+    margin : float
+        Parsimony margin, eV: a model with more free parameters must lower the LOO RMSE by more than
+        this to be chosen (default 0.02 eV; common practice, no source).
+    pair_pool : int
+        Two-descriptor models are tried for all pairs of the ``pair_pool`` best one-descriptor candidates.
+    min_surfaces : int
+        Fewest surfaces a model is fitted on (and at least free parameters + 2).
+    fallbacks : int, optional
+        Fall-back models kept per target (default: all candidates; used by :func:`fill_missing_energies` where a descriptor of a
+        better model is missing on a surface).
+
+    Returns
+    -------
+    AutoScaling
+
+    Notes
+    -----
+    Each candidate is an ordinary least-squares fit :math:`\Delta G(X) = \sum_k a_k \Delta G(D_k) + b`
+    on the surfaces that have the target and every descriptor (see :func:`fit_scaling`). Its
+    leave-one-out (LOO) prediction errors are exact without refitting,
+    :math:`e_{(i)} = r_i / (1 - h_{ii})` with :math:`h_{ii}` the diagonal of the hat matrix
+    :math:`X (X^\top X)^{-1} X^\top` (PRESS residuals; Allen, Technometrics 16, 125 (1974)).
+
+    The bond-counting slope :math:`(x_\max - x)/x_\max` of :math:`AH_x^*` against :math:`A^*`
+    (Abild-Pedersen et al., Phys. Rev. Lett. 99, 016105 (2007)) is the prior: for such pairs a model
+    with that slope fixed (one free parameter, the intercept) is a candidate, and it is preferred
+    over fitted slopes unless they lower the LOO RMSE by more than ``margin``.
+    """
+    table = _as_table(energies)
+    if max_descriptors not in (1, 2):
+        raise ScalingError(f"max_descriptors must be 1 or 2, got {max_descriptors!r}")
+    species = table.species
+    tkeys = species if targets is None else [Species.parse(t).key for t in targets]
+    ckeys = species if candidates is None else [Species.parse(c).key for c in candidates]
+    unknown = [k for k in list(tkeys) + list(ckeys) if k not in species]
+    if unknown:
+        raise ScalingError(f"{table.source}: no energies of {', '.join(dict.fromkeys(unknown))}; species in the table: {', '.join(species)}")
+    names = table.surfaces
+    values = table.values(names, species)
+    col = {k: j for j, k in enumerate(species)}
+    out: dict[str, tuple[ScalingModel, ...]] = {}
+    for target in tkeys:
+        models: list[ScalingModel] = []
+        singles: list[ScalingModel] = []
+        for d in ckeys:
+            if d == target:
+                continue
+            m = _fit_candidate(table, names, values, col, target, (d,), (None,), "one-descriptor", None, min_surfaces)
+            if m is not None:
+                singles.append(m)
+            prior = _prior(target, d)
+            if prior is not None:
+                mp = _fit_candidate(table, names, values, col, target, (d,), (prior,), "bond-counting", prior, min_surfaces)
+                if mp is not None:
+                    models.append(mp)
+        models += singles
+        if max_descriptors == 2 and len(singles) >= 2:
+            pool = [m.relation.descriptors[0] for m in sorted(singles, key=lambda m: m.loo_rmse)[:pair_pool]]
+            for i in range(len(pool)):
+                for j in range(i + 1, len(pool)):
+                    m = _fit_candidate(table, names, values, col, target, (pool[i], pool[j]), (None, None), "two-descriptor", None, min_surfaces)
+                    if m is not None:
+                        models.append(m)
+        ordered = _select(models, margin)
+        out[target] = tuple(ordered if fallbacks is None else ordered[: 1 + fallbacks])
+    return AutoScaling(out, table.source, margin)
+
+
+def fill_missing_energies(energies, auto: AutoScaling | None = None, **auto_kwargs) -> tuple[EnergyTable, pd.DataFrame]:
+    """Fill missing adsorption energies from automatic scaling relations, flagged as estimated.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path
+        Adsorption free energies (eV) with gaps (a surface lacking an adsorbate).
+    auto : AutoScaling, optional
+        Models to use (default: :func:`auto_scaling` on ``energies`` with ``auto_kwargs``).
+
+    Returns
+    -------
+    (EnergyTable, DataFrame)
+        The new table: every computed value unchanged, plus one row per estimated value, whose
+        ``G_origin`` is ``"estimated from scaling relation"`` and whose extra columns ``status``,
+        ``estimate_error`` (LOO RMSE of the model, eV) and ``estimate_model`` say how; its ``notes``
+        name the count and the models. And the provenance table, one row per (surface, adsorbate),
+        columns documented in :data:`PROVENANCE_COLUMNS`.
+
+    Notes
+    -----
+    Estimates use only *computed* descriptor values (never other estimates). Per missing cell the
+    selected model of the adsorbate is used; where one of its descriptors is missing too, the next
+    fall-back model whose descriptors are all computed on that surface. Cells no model can reach
+    stay missing (status ``missing``). An :class:`~ecatlab.errors.EstimatedValueWarning` says how
+    many values were estimated: estimates are never silent.
+    """
+    from ecatlab.energies import read_energies as _read
+    from ecatlab.errors import EstimatedValueWarning
+
+    table = _as_table(energies)
+    auto = auto or auto_scaling(table, **auto_kwargs)
+    names, species = table.surfaces, table.species
+    values = table.values(names, species)
+    col = {k: j for j, k in enumerate(species)}
+    filled = values.copy()
+    n_s, n_k = values.shape
+    status = np.where(np.isfinite(values), "computed", "missing").astype(object)
+    model_txt = np.full((n_s, n_k), "", dtype=object)
+    desc_txt = np.full((n_s, n_k), "", dtype=object)
+    err = np.where(np.isfinite(values), 0.0, np.nan)
+    nsurf = np.zeros((n_s, n_k), dtype=np.int64)
+    for target, models in auto.models.items():
+        j = col[target]
+        todo = ~np.isfinite(values[:, j])
+        for m in models:
+            if not todo.any():
+                break
+            r = m.relation
+            dcols = [col[d] for d in r.descriptors]
+            x = values[:, dcols]
+            can = todo & np.all(np.isfinite(x), axis=1)
+            if not can.any():
+                continue
+            filled[can, j] = r.predict(x[can])
+            status[can, j] = "estimated"
+            model_txt[can, j] = r.equation
+            desc_txt[can, j] = ", ".join(r.descriptors)
+            err[can, j] = m.loo_rmse
+            nsurf[can, j] = r.n_surfaces
+            todo &= ~can
+    surf_idx, sp_idx = np.meshgrid(np.arange(n_s), np.arange(n_k), indexing="ij")
+    prov = pd.DataFrame({
+        "surface": np.asarray(names, dtype=object)[surf_idx.ravel()],
+        "species": np.asarray(species, dtype=object)[sp_idx.ravel()],
+        "G": filled.ravel(), "status": status.ravel(), "model": model_txt.ravel(), "descriptors": desc_txt.ravel(),
+        "estimate_error": err.ravel(), "n_surfaces": nsurf.ravel(),
+    })
+    prov.attrs.update({"quantity": "provenance of every adsorption energy", "columns": PROVENANCE_COLUMNS, "source": table.source,
+                       "selection": _selection_text(auto.margin)})
+    est = prov["status"].to_numpy() == "estimated"
+    n_est = int(est.sum())
+    keep = prov["status"].to_numpy() != "missing"
+    long = prov.loc[keep, ["surface", "species", "G"]].copy()
+    long["status"] = prov.loc[keep, "status"].to_numpy()
+    long["estimate_error"] = prov.loc[keep, "estimate_error"].to_numpy()
+    long["estimate_model"] = prov.loc[keep, "model"].to_numpy()
+    new = _read(long.reset_index(drop=True), references=table.scheme, name=f"{table.source} + scaling estimates")
+    origin = table.frame.set_index(["surface", "species"])["G_origin"].astype(str)
+    keys = list(zip(new.frame["surface"].astype(str), new.frame["species"].astype(str)))
+    orig = origin.reindex(pd.MultiIndex.from_tuples(keys)).to_numpy(dtype=object)
+    is_est = new.frame["status"].to_numpy() == "estimated"
+    orig[is_est] = "estimated from scaling relation"
+    frame = new.frame.copy()
+    frame["G_origin"] = pd.Categorical(orig)
+    if n_est:
+        per = prov[est].groupby("species")["estimate_error"].first()
+        text = ", ".join(f"{k} ({int((prov[est]['species'] == k).sum())}, ±{v:.2f} eV)" for k, v in per.items())
+        note = (f"{n_est} missing adsorption energies ESTIMATED from automatic scaling relations (LOO RMSE as the error): {text}; "
+                "see the provenance table; results using them are estimates of estimates")
+        warnings.warn(f"{table.source}: {note}", EstimatedValueWarning, stacklevel=2)
+    else:
+        note = "no missing adsorption energies were estimated"
+    still = int((prov["status"] == "missing").sum())
+    notes = tuple(table.notes) + (note,) + ((f"{still} adsorption energies remain missing (no model with computed descriptors)",) if still else ())
+    return EnergyTable(frame, table.scheme, new.source, notes), prov
+
+
+def estimated_species_column(limiting: pd.DataFrame, provenance: pd.DataFrame) -> pd.DataFrame:
+    """A copy of a limiting-potential table with a column ``estimated_species``: the adsorbates of
+    each (surface, pathway) whose energies were estimated (see :func:`fill_missing_energies`).
+
+    The column is empty where every adsorbate the pathway needs was computed.
+    """
+    from ecatlab.pathways import resolve
+
+    est = provenance[provenance["status"] == "estimated"]
+    by_surface: dict[str, set] = {}
+    for s, k in zip(est["surface"], est["species"]):
+        by_surface.setdefault(str(s), set()).add(str(k))
+    needs = {p: {a.key for a in resolve(p).adsorbates} for p in limiting["pathway"].astype(str).unique()}
+    out = limiting.copy()
+    out["estimated_species"] = [
+        ", ".join(sorted(by_surface.get(str(s), set()) & needs[str(p)])) for s, p in zip(limiting["surface"], limiting["pathway"])
+    ]
+    cols = dict(out.attrs.get("columns", {}))
+    cols["estimated_species"] = "adsorbates of this pathway whose energies on this surface were ESTIMATED from scaling relations; empty if all computed"
+    out.attrs["columns"] = cols
+    return out

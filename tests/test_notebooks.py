@@ -85,6 +85,7 @@ def test_notebooks_exist():
         "03_co2_reduction_products.ipynb",
         "04_nitrogen_reduction.ipynb",
         "05_bring_your_own_data.ipynb",
+        "09_descriptors_and_pourbaix.ipynb",
     ]
 
 
@@ -187,3 +188,36 @@ def test_bring_your_own_data(python3_kernel, kernel_env, tmp_path):
     assert len(shown) == len(lp) == 6
     for r in lp.itertuples():
         assert shown[f"{r.surface} {r.pathway}"] == pytest.approx(r.limiting_potential, abs=1e-6)
+
+
+def test_descriptors_and_pourbaix(python3_kernel, kernel_env, tmp_path):
+    """Notebook 09: the printed numbers are the library's (PCA components, filled estimates, U_L flags)."""
+    import warnings
+
+    from ecatlab.demo import demo_energies
+    from ecatlab.descriptors import analyse_descriptors
+    from ecatlab.pourbaix import demo_surface_states, flag_surface_states
+
+    nb = run_notebook(ROOT / "notebooks" / "09_descriptors_and_pourbaix.ipynb", tmp_path)
+    assert_figures(nb, "descriptors")
+    table = demo_energies()
+    k = analyse_descriptors(table).components_for_error(0.1)
+    assert f"components needed for 0.1 eV RMSE: {k}" in text_of(tagged(nb, "descriptors-k")[0])
+    fill = text_of(tagged(nb, "fill")[0])
+    assert fill.count("estimate ") == 3 and "ESTIMATED" in fill
+    for line in (l for l in fill.splitlines() if "expected (LOO)" in l):
+        err = float(line.split("error ")[1].split(" eV")[0])
+        loo = float(line.split("expected (LOO) ")[1].split(" eV")[0])
+        assert abs(err) < 4 * loo  # an estimate within a few LOO errors of the hidden value
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        from ecatlab.che import limiting_potentials
+
+        lp = flag_surface_states(limiting_potentials(table, ["orr-4e", "oer-4e", "her-volmer-heyrovsky"]), demo_surface_states())
+    n_flag = int((lp["surface_state_flag"] != "").sum())
+    assert f"{n_flag} of {len(lp)} (surface, pathway) rows" in text_of(tagged(nb, "pourbaix-flag")[0])
+    check = text_of(tagged(nb, "pourbaix-check")[0])
+    assert "boundary at pH 0: 0.800000 V vs SHE" in check
+    slope = float(check.split("slope ")[1].split(" V")[0])
+    ref = float(check.split("e = ")[1].split(" V")[0])
+    assert slope == pytest.approx(ref, abs=1e-6)  # -k_B T ln10 / e (Hansen, Rossmeisl, Norskov, PCCP 10, 3722 (2008))

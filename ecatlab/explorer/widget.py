@@ -325,6 +325,7 @@ class Explorer:
 
         self.volcano = VolcanoPanel(error_line=self.error)
         self.volcano.sync_options(s.reaction, s.pathway)
+        self.pourbaix = None  # the "surface states" tab, added by add_surface_states_tab()
         self._wire()
         self._shown_heading = self._heading()
         self.view.rebuild(s, self._shown_heading)
@@ -488,6 +489,28 @@ class Explorer:
             self.volcano.refresh(self.state, self.volcano.descriptor.value, visible=self.tabs.selected_index == 1)
         except Exception as exc:  # the volcano tab shows a placeholder; the reason goes to the error line
             self._show_volcano_error(exc)
+        if self.pourbaix is not None:
+            try:
+                self.pourbaix.refresh(self.state, visible=self.tabs.selected_index == len(self.tabs.children) - 1)
+            except Exception as exc:  # the surface-states tab shows a placeholder; the reason goes to the error line
+                self.errors.append(exc)
+                self.error.value = f'<div style="color:#9B1C1C"><b>{html.escape(type(exc).__name__)}</b> (surface states tab): {html.escape(str(exc))}</div>'
+
+    def add_surface_states_tab(self, states=None):
+        """Add a "surface states" tab: the surface Pourbaix diagram of the focus surface with the applied
+        U and pH and the pathway's U_L (see :mod:`ecatlab.explorer.pourbaix_tab`). ``states``: a surface-state
+        table (default: clean, H*, OH*, O* from the energy table). Returns the panel."""
+        from ecatlab.explorer.pourbaix_tab import PourbaixPanel
+
+        if self.pourbaix is None:
+            self.pourbaix = PourbaixPanel(error_line=self.error)
+            titles = tuple(self.tabs.titles)
+            self.tabs.children = tuple(self.tabs.children) + (self.pourbaix.widget,)
+            self.tabs.titles = titles + ("surface states",)
+        if states is not None:
+            self.pourbaix.set_states(states)
+        self._refresh_volcano()
+        return self.pourbaix
 
     # -- callbacks (thin) ------------------------------------------------------------------------------
     def _on_potential(self, change) -> None:
