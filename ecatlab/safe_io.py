@@ -120,13 +120,7 @@ def check_output(
         raise OutputPathError(f"{option} {clip(text)!r}: the file name holds control characters; choose a plain name")
     target = pathlib.Path(text)
     if target.is_dir() or str(text).endswith(("/", os.sep)):
-        raise OutputPathError(f"{option} {clip(text)!r} is a folder; give a file name inside it, e.g. {option} {os.path.join(text, 'out.' + (suffixes or ['csv'])[0])}")
-    if suffixes is not None:
-        suffix = target.suffix.lower().lstrip(".")
-        if suffix not in suffixes:
-            shown = ", ".join("." + s for s in suffixes)
-            got = f"extension .{suffix}" if suffix else "no extension"
-            raise OutputPathError(f"{option} {clip(text)!r}: {got}; the {what} needs one of {shown}")
+        raise OutputPathError(f"{option} {clip(text)!r} is a folder; give a file name inside it, e.g. {option} {clip(os.path.join(text, 'out.' + (suffixes or ['csv'])[0]))}")
     for src in inputs:
         if src is None:
             continue
@@ -135,6 +129,12 @@ def check_output(
                 f"{option} {clip(text)!r} is the input file {clip(os.fspath(src))!r}; writing there would destroy it. "
                 "Choose another output name"
             )
+    if suffixes is not None:
+        suffix = target.suffix.lower().lstrip(".")
+        if suffix not in suffixes:
+            shown = ", ".join("." + s for s in suffixes)
+            got = f"extension .{suffix}" if suffix else "no extension"
+            raise OutputPathError(f"{option} {clip(text)!r}: {got}; the {what} needs one of {shown}")
     if target.exists() and not force:
         raise OutputExistsError(f"{option} {clip(text)!r} already exists; choose another name or pass --force (force=True) to replace it")
     if target.exists() and not target.is_file():

@@ -134,10 +134,19 @@ def _unknown_options(parser: argparse.ArgumentParser, argv: Sequence[str]) -> No
         if not token.startswith("-") or token == "-" or (len(token) > 1 and (token[1].isdigit() or token[1] == ".")):
             continue
         name = token.split("=", 1)[0]
+        try:
+            float(token)
+            continue  # a negative number or -inf: a value, argparse decides
+        except ValueError:
+            pass
         if name in known:
             continue
-        if name.startswith("--") and sum(k.startswith(name) for k in known if k.startswith("--")) == 1:
+        matches = sorted({k for k in known if k.startswith("--") and k.startswith(name)}) if name.startswith("--") else []
+        if len(matches) == 1:
             continue  # an unambiguous abbreviation argparse accepts
+        prog = target.prog if target is not None else parser.prog
+        if len(matches) > 1:
+            raise UsageError(prog, f"ambiguous option {clip(name)!r}: it could be {' or '.join(matches)}; write it out")
         if not name.startswith("--") and len(name) > 2 and name[:2] in known:
             continue  # -T300 style
         prog = target.prog if target is not None else parser.prog

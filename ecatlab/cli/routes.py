@@ -50,8 +50,8 @@ def run(args: argparse.Namespace) -> int:
     from ecatlab.tables import table_format
 
     opt.check_input_file(args.file)
-    kind = table_format(args.output, args.format) if args.output else (args.format or "csv")
     target = opt.output_target(args, _SUFFIXES, [args.file], what="table")
+    kind = table_format(args.output, args.format) if args.output else (args.format or "csv")
     if args.figure is not None:
         check_output(args.figure, force=args.force, inputs=[args.file, args.output], suffixes=("svg", "pdf", "png"),
                      option="--figure", what="network figure")

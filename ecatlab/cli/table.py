@@ -40,9 +40,9 @@ def run_table(args: argparse.Namespace) -> int:
     from ecatlab.tables import render_table, table_format
 
     opt.check_input_file(args.file)
-    kind = table_format(args.output, args.format) if args.output else (args.format or "csv")
     inputs = [args.file, *args.pathway_file]
     target = opt.output_target(args, _SUFFIXES, inputs, what="table")
+    kind = table_format(args.output, args.format) if args.output else (args.format or "csv")
     pathways = opt.pathway_list(args)
 
     from ecatlab.che import limiting_potentials
