@@ -260,8 +260,22 @@ def neutralise_frame(frame):
 
 
 def csv_text(frame, **to_csv) -> str:
-    """``frame.to_csv(**to_csv)`` after :func:`neutralise_frame` (for printing or writing)."""
-    return neutralise_frame(frame).to_csv(**to_csv)
+    """``frame.to_csv(**to_csv)`` after :func:`neutralise_frame` (for printing or writing).
+
+    A text cell holding a carriage return is quoted (the csv module quotes only the characters
+    of the line terminator, so a bare CR would otherwise split the row in many readers).
+    """
+    import csv
+
+    safe = neutralise_frame(frame)
+    if "quoting" not in to_csv:
+        cells = [c for c in safe.columns if isinstance(c, str)]
+        for col in safe.columns:
+            if safe[col].dtype == object or str(safe[col].dtype) in ("string", "str", "category"):
+                cells.extend(v for v in safe[col].astype(object) if isinstance(v, str))
+        if any("\r" in c for c in cells):
+            to_csv["quoting"] = csv.QUOTE_NONNUMERIC
+    return safe.to_csv(**to_csv)
 
 
 def write_csv(frame, path: str | os.PathLike, *, header_lines: Sequence[str] = (), force: bool = False,
