@@ -216,3 +216,14 @@ class InputFileError(EcatlabError, ValueError):
 
 class ExplorerValueError(EcatlabError, ValueError):
     """A value typed into the explorer is not usable (not a number, out of range)."""
+
+
+class InputTypeError(EcatlabError, TypeError):
+    """An argument has the wrong type (e.g. a number where species text is expected)."""
+
+
+def require_text(value: Any, what: str) -> str:
+    """``value`` if it is a str, else an :class:`InputTypeError` naming ``what``."""
+    if not isinstance(value, str):
+        raise InputTypeError(f"{what} must be text, got {type(value).__name__} {clip(repr(value))}")
+    return value

@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Iterable, Mapping
 
-from ecatlab.errors import BalanceError, NotationError, PathwayError
+from ecatlab.errors import BalanceError, NotationError, PathwayError, require_text
 
 __all__ = ["Species", "Step", "Pathway", "SITE", "PROTON", "ELECTRON", "HYDROXIDE", "read_pathway_file", "PATHWAY_FILE_LIMIT"]
 
@@ -162,7 +162,7 @@ HYDROXIDE = Species("OH", "hydroxide")
 
 
 def _parse_species(raw: str) -> Species:
-    text = raw.strip()
+    text = require_text(raw, "a species").strip()
     if not text:
         raise NotationError(raw, "empty species")
     if text == "*":
@@ -254,7 +254,7 @@ class Step:
     @classmethod
     def parse(cls, text: str) -> "Step":
         """Parse ``"OOH* + H+ + e- -> O* + H2O(l)"``."""
-        original = text
+        original = require_text(text, "a step")
         line = text.replace("→", "->").replace("=>", "->")
         if line.count("->") != 1:
             raise NotationError(original, "a step needs exactly one '->' between reactants and products")
@@ -456,6 +456,8 @@ class Pathway:
     @classmethod
     def parse(cls, text: str, name: str = "custom", description: str = "", state_labels: Iterable[str] | None = None) -> "Pathway":
         """Read one step per line; blank lines and text after ``#`` are ignored."""
+        require_text(text, f"the text of pathway {name!r}")
+        require_text(name, "a pathway name")
         steps = []
         for lineno, line in enumerate(text.splitlines(), start=1):
             line = line.split("#", 1)[0].strip()

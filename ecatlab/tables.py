@@ -246,6 +246,11 @@ def _numeric_columns(table: pd.DataFrame) -> list[bool]:
 
 
 def _index_frame(table: pd.DataFrame) -> pd.DataFrame:
+    if not isinstance(table, pd.DataFrame):
+        from ecatlab.errors import clip
+
+        raise TableInputError(f"expected a pandas DataFrame (e.g. from ecatlab.limiting_potential_table()), got "
+                              f"{type(table).__name__} {clip(repr(table))}")
     if isinstance(table.index, pd.RangeIndex) and table.index.name is None:
         return table
     name = table.index.name or ""

@@ -506,3 +506,17 @@ def test_path_like_pathway_file_name(capsys, tmp_path):
     code, out, err = run(capsys, ["table", DEMO, "--pathway-file", path, "--surface", "ALY-01"])
     assert code == 0, err
     assert "ALY-01,..evil," in out
+
+
+@pytest.mark.parametrize("call", [
+    lambda: __import__("ecatlab.notation").notation.Species.parse(5),
+    lambda: __import__("ecatlab.notation").notation.Step.parse(None),
+    lambda: Pathway.parse(None),
+    lambda: Pathway.parse(ORR, name=42),
+    lambda: __import__("ecatlab.tables").tables.to_markdown([1, 2, 3]),
+    lambda: __import__("ecatlab.tables").tables.render_table({"a": 1}, "csv"),
+])
+def test_wrong_types_are_ecatlab_type_errors(call):
+    with pytest.raises((TypeError, ValueError)) as info:
+        call()
+    assert isinstance(info.value, EcatlabError) and len(str(info.value)) < 300
