@@ -520,3 +520,26 @@ def test_wrong_types_are_ecatlab_type_errors(call):
     with pytest.raises((TypeError, ValueError)) as info:
         call()
     assert isinstance(info.value, EcatlabError) and len(str(info.value)) < 300
+
+
+# ------------------------------------------------------------------------------------------------
+# volcano --relations files
+# ------------------------------------------------------------------------------------------------
+@pytest.mark.parametrize("content, fragments", [
+    (b"\x00\x01\x02", ["not valid JSON"]),
+    (b"\xff\xfe{", ["not UTF-8 text"]),
+    (b"{\"schema\": ", ["not valid JSON", "line 1"]),
+    (b"42", ["expected a list of relation records", "int"]),
+    (b"[1, 2]", ["record 1", "expected an object"]),
+    (b"[{\"schema\": \"other/9\"}]", ["record 1", "unknown scaling-relation schema"]),
+    (b"[{\"schema\": \"ecatlab.scaling/1\", \"target\": \"OOH*\"}]", ["record 1", "lacks the field 'intercept'"]),
+    (b"[{\"schema\": \"ecatlab.scaling/1\", \"target\": \"OOH*\", \"intercept\": \"abc\"}]", ["record 1", "wrong type"]),
+])
+def test_bad_relations_files(capsys, tmp_path, content, fragments):
+    rel = tmp_path / "rel.json"
+    rel.write_bytes(content)
+    fails(capsys, ["volcano", DEMO, "-p", "orr-4e", "-d", "OH*", "--relations", rel], *fragments, inputs=[rel])
+
+
+def test_missing_relations_file(capsys, tmp_path):
+    fails(capsys, ["volcano", DEMO, "-p", "orr-4e", "-d", "OH*", "--relations", tmp_path / "none.json"], "file not found")
