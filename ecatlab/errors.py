@@ -67,7 +67,7 @@ class UnknownPathwayError(PathwayError, KeyError):
 
         self.key = key
         self.known = list(known)
-        close = difflib.get_close_matches(str(key), self.known, n=1, cutoff=0.6)
+        close = difflib.get_close_matches(str(key), self.known, n=1, cutoff=0.6) if len(str(key)) <= 200 else []
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         ValueError.__init__(self, f"no built-in pathway {clip(key)!r}{hint}; known keys: {', '.join(self.known)}")
 

@@ -110,6 +110,8 @@ def suggest(word: str, choices: Iterable[str], n: int = 1) -> str:
     """``"; did you mean 'X'?"`` for the closest of ``choices`` (empty when nothing is close)."""
     from ecatlab.errors import clip
 
+    if len(str(word)) > 200:  # nothing known is that long; difflib would take seconds
+        return ""
     close = difflib.get_close_matches(str(word), list(choices), n=n, cutoff=0.6)
     if not close:
         return ""
