@@ -92,6 +92,13 @@ def test_unknown_scale_is_refused_everywhere(capsys, argv):
     (["volcano", DEMO, "-p", "orr-4e", "-d", "OH*", "--surface", "ALY-01", "ALY-2"], ["'ALY-2'", "did you mean"]),
     (["report", DEMO, "-p", "oer-4"], ["did you mean 'oer-4e'"]),
     (["volcano", DEMO, "-p", "orr4e", "-d", "OH*"], ["did you mean 'orr-4e'"]),
+    (["volcano", DEMO, "-p", "orr-4e", "-d", "OHH*"], ["--descriptor 'OHH*'", "did you mean 'OH*'"]),
+    (["volcano", DEMO, "-p", "orr-4e", "-d", "O* - OHH*"], ["no energies of OHH*", "did you mean 'OH*'"]),
+    (["volcano", DEMO, "-p", "orr-4e", "-d", "OH*", "--fit-against", "OOHH*"], ["--fit-against", "did you mean 'OOH*'"]),
+    (["volcano", DEMO, "-p", "orr-4e", "-d", "OH*", "--fix-slope", "OOOH*=1"], ["--fix-slope", "did you mean 'OOH*'"]),
+    (["routes", DEMO, "--from", "CO2", "--allow", "COOHH*", "CO*"], ["--allow 'COOHH*'", "did you mean 'COOH*'"]),
+    (["routes", DEMO, "--from", "CO2", "--to", "CH5"], ["no molecule 'CH5'", "did you mean 'CH4(g)'"]),
+    (["routes", DEMO, "--from", "CO3"], ["no molecule 'CO3'", "did you mean"]),
 ])
 def test_did_you_mean(capsys, argv, fragments):
     fails(capsys, argv, *fragments)

@@ -181,3 +181,50 @@ def output_target(args: argparse.Namespace, suffixes: Sequence[str] | None, inpu
         return None
     return check_output(value, force=getattr(args, "force", False), inputs=[i for i in inputs if i], suffixes=suffixes,
                         option=option, what=what)
+
+
+def check_species(table, names: Iterable[str], option: str) -> None:
+    """Each adsorbate of ``names`` has energies in the table, else a "did you mean" naming the option."""
+    from ecatlab.cli import suggest
+    from ecatlab.errors import NotationError, OptionError
+    from ecatlab.notation import Species
+
+    known = list(table.species)
+    for name in names:
+        try:
+            key = Species.parse(name).key
+        except NotationError:
+            continue  # the module's own parser gives the notation message
+        if Species.parse(key).is_adsorbate and key not in known:
+            raise OptionError(
+                f"{option} {clip(name)!r}: no energies of {clip(key)} in {clip(table.source)}{suggest(key, known)} "
+                f"(species in the table: {clip(', '.join(known), 300)})"
+            )
+
+
+def descriptor_species(text: str) -> list[str]:
+    """The adsorbate tokens of a descriptor such as ``'O* - OH*'`` or ``'2 OH* - O*'``."""
+    import re
+
+    return re.findall(r"[A-Za-z][A-Za-z0-9()]*\*", str(text))
+
+
+def suggest_known(exc: Exception, word: str) -> Exception:
+    """The same error with "did you mean" appended when its message lists the known names."""
+    import re
+
+    from ecatlab.cli import suggest
+
+    text = str(exc)
+    m = re.search(r"known(?: here)?: ([^.;]+)", text)
+    if not m or "did you mean" in text or m.end() < len(text.rstrip()):
+        return exc  # no list of names, or the message already goes on with a more specific hint
+    known = [k.strip() for k in m.group(1).split(",") if k.strip()]
+    bare = {k.split("(")[0]: k for k in known}
+    hint = suggest(str(word).split("(")[0].strip(), list(bare))
+    if not hint:
+        return exc
+    close = hint.split("'")[1]
+    new = type(exc).__new__(type(exc))
+    Exception.__init__(new, f"{text}; did you mean {bare.get(close, close)!r}?")
+    return new

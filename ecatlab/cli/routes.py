@@ -7,7 +7,7 @@ import json
 import sys
 
 from ecatlab.cli import _options as opt
-from ecatlab.errors import OptionError
+from ecatlab.errors import OptionError, PathwayError
 
 FORMATS = ("csv", "markdown", "latex", "html", "json")
 _SUFFIXES = ("csv", "tsv", "md", "markdown", "tex", "latex", "html", "htm", "json")
@@ -63,10 +63,17 @@ def run(args: argparse.Namespace) -> int:
 
     table = read_energies(args.file, temperature=args.temperature)
     surfaces = opt.check_surfaces(table, args.surface)
+    opt.check_species(table, args.allow or [], "--allow")
     options = dict(allow=args.allow, forbid=args.forbid, sites=args.sites, coupling=args.coupling)
-    net = build_network(table, args.reactant, **options)
+    try:
+        net = build_network(table, args.reactant, **options)
+    except PathwayError as exc:
+        raise opt.suggest_known(exc, args.reactant.split()[-1]) from None
     if args.product:
-        _check_reachable(table, args.reactant, args.product, net, options)
+        try:
+            _check_reachable(table, args.reactant, args.product, net, options)
+        except PathwayError as exc:
+            raise opt.suggest_known(exc, args.product) from None
     an = NetworkAnalysis(net, table, pH=args.pH, scale=args.scale, temperature=args.temperature, surfaces=surfaces,
                          chemical_limit=args.chemical_limit)
     if args.edges:

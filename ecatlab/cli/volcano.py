@@ -105,6 +105,9 @@ def run(args: argparse.Namespace) -> int:
 
     table = read_energies(args.file, temperature=args.temperature)
     surfaces = opt.check_surfaces(table, args.surface)
+    opt.check_species(table, opt.descriptor_species(args.descriptor), "--descriptor")
+    opt.check_species(table, [args.fit_against] if args.fit_against else [], "--fit-against")
+    opt.check_species(table, list(fixed), "--fix-slope")
     if surfaces:
         table = table.subset(surfaces)
     curve = volcano(
