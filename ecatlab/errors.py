@@ -227,3 +227,12 @@ def require_text(value: Any, what: str) -> str:
     if not isinstance(value, str):
         raise InputTypeError(f"{what} must be text, got {type(value).__name__} {clip(repr(value))}")
     return value
+
+
+def clip_path(value: Any, limit: int = 160) -> str:
+    """A path for a message: whole up to ``limit`` characters, else its start and its end (the file name)."""
+    full = str(value)
+    if len(full) <= limit:
+        return clip(full, limit)
+    tail = limit - 45
+    return f"{clip(full[:40], 40)}...{clip(full[-tail:], tail)}"

@@ -604,10 +604,10 @@ def read_pathway_file(path, name: str | None = None, description: str = "") -> P
     """
     import os
 
-    from ecatlab.errors import clip
+    from ecatlab.errors import clip, clip_path
     from ecatlab.pathways import BUILTIN_PATHWAYS
 
-    shown = clip(os.fspath(path))
+    shown = clip_path(os.fspath(path))
     if not os.path.exists(path):
         raise PathwayError(f"{shown}: pathway file not found; check the path")
     if os.path.isdir(path):

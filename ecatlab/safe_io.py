@@ -39,7 +39,7 @@ import re
 import tempfile
 from typing import Iterable, Iterator, Sequence
 
-from ecatlab.errors import OutputExistsError, OutputPathError, clip
+from ecatlab.errors import OutputExistsError, OutputPathError, clip_path
 
 __all__ = [
     "check_output",
@@ -117,16 +117,16 @@ def check_output(
         raise OutputPathError(f"{option}: empty file name; give the {what} to write, e.g. {option} out.{(suffixes or ['csv'])[0]}")
     text = os.fspath(path)
     if _CONTROL_RE.search(str(text)):
-        raise OutputPathError(f"{option} {clip(text)!r}: the file name holds control characters; choose a plain name")
+        raise OutputPathError(f"{option} {clip_path(text)!r}: the file name holds control characters; choose a plain name")
     target = pathlib.Path(text)
     if target.is_dir() or str(text).endswith(("/", os.sep)):
-        raise OutputPathError(f"{option} {clip(text)!r} is a folder; give a file name inside it, e.g. {option} {clip(os.path.join(text, 'out.' + (suffixes or ['csv'])[0]))}")
+        raise OutputPathError(f"{option} {clip_path(text)!r} is a folder; give a file name inside it, e.g. {option} {clip_path(os.path.join(text, 'out.' + (suffixes or ['csv'])[0]))}")
     for src in inputs:
         if src is None:
             continue
         if same_file(target, src):
             raise OutputPathError(
-                f"{option} {clip(text)!r} is the input file {clip(os.fspath(src))!r}; writing there would destroy it. "
+                f"{option} {clip_path(text)!r} is the input file {clip_path(os.fspath(src))!r}; writing there would destroy it. "
                 "Choose another output name"
             )
     if suffixes is not None:
@@ -134,16 +134,16 @@ def check_output(
         if suffix not in suffixes:
             shown = ", ".join("." + s for s in suffixes)
             got = f"extension .{suffix}" if suffix else "no extension"
-            raise OutputPathError(f"{option} {clip(text)!r}: {got}; the {what} needs one of {shown}")
+            raise OutputPathError(f"{option} {clip_path(text)!r}: {got}; the {what} needs one of {shown}")
     if target.exists() and not force:
-        raise OutputExistsError(f"{option} {clip(text)!r} already exists; choose another name or pass --force (force=True) to replace it")
+        raise OutputExistsError(f"{option} {clip_path(text)!r} already exists; choose another name or pass --force (force=True) to replace it")
     if target.exists() and not target.is_file():
-        raise OutputPathError(f"{option} {clip(text)!r} exists and is not a regular file; choose another name")
+        raise OutputPathError(f"{option} {clip_path(text)!r} exists and is not a regular file; choose another name")
     parent = _existing_parent(target)
     if not parent.is_dir():
-        raise OutputPathError(f"{option} {clip(text)!r}: {clip(str(parent))!r} is a file, not a folder; choose another location")
+        raise OutputPathError(f"{option} {clip_path(text)!r}: {clip_path(str(parent))!r} is a file, not a folder; choose another location")
     if not os.access(parent, os.W_OK | os.X_OK):
-        raise OutputPathError(f"{option} {clip(text)!r}: folder {clip(str(parent))!r} is not writable; choose another location")
+        raise OutputPathError(f"{option} {clip_path(text)!r}: folder {clip_path(str(parent))!r} is not writable; choose another location")
     return target
 
 
@@ -159,7 +159,7 @@ def _prepare_folder(target: pathlib.Path) -> pathlib.Path:
     try:
         folder.mkdir(parents=True, exist_ok=True)
     except FileExistsError:
-        raise OutputPathError(f"{clip(str(target))!r}: a parent of the output is a file, not a folder; choose another location") from None
+        raise OutputPathError(f"{clip_path(str(target))!r}: a parent of the output is a file, not a folder; choose another location") from None
     return folder
 
 
@@ -195,7 +195,7 @@ def atomic_path(
     try:
         yield tmp
         if target.exists() and not force:  # appeared while we were writing
-            raise OutputExistsError(f"{clip(str(target))!r} appeared while writing; pass --force (force=True) to replace it")
+            raise OutputExistsError(f"{clip_path(str(target))!r} appeared while writing; pass --force (force=True) to replace it")
         os.replace(tmp, target)
     except BaseException:
         with contextlib.suppress(OSError):

@@ -543,3 +543,12 @@ def test_bad_relations_files(capsys, tmp_path, content, fragments):
 
 def test_missing_relations_file(capsys, tmp_path):
     fails(capsys, ["volcano", DEMO, "-p", "orr-4e", "-d", "OH*", "--relations", tmp_path / "none.json"], "file not found")
+
+
+def test_long_paths_keep_their_file_name_in_messages(capsys, tmp_path):
+    deep = tmp_path.joinpath(*["very-long-folder-name"] * 12)
+    deep.mkdir(parents=True)
+    out = deep / "precious.csv"
+    out.write_text("keep")
+    line = fails(capsys, ["table", DEMO, "-p", "orr-4e", "-o", out], "precious.csv", "already exists")
+    assert len(str(out)) > 200 and "..." in line

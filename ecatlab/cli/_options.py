@@ -21,7 +21,7 @@ import math
 import os
 from typing import Iterable, Sequence
 
-from ecatlab.errors import clip
+from ecatlab.errors import clip, clip_path
 
 STANDARD_T = 298.15  # K; the same value as ecatlab.constants.STANDARD_TEMPERATURE (not imported: startup time)
 
@@ -149,9 +149,9 @@ def check_input_file(path: str, what: str = "energy table") -> None:
     from ecatlab.errors import InputFileError
 
     if not os.path.exists(path):
-        raise InputFileError(f"{clip(path)}: {what} file not found; check the path")
+        raise InputFileError(f"{clip_path(path)}: {what} file not found; check the path")
     if os.path.isdir(path):
-        raise InputFileError(f"{clip(path)}: is a folder; give the {what} file")
+        raise InputFileError(f"{clip_path(path)}: is a folder; give the {what} file")
 
 
 def check_surfaces(table, wanted: Sequence[str] | None) -> list[str] | None:
@@ -165,7 +165,7 @@ def check_surfaces(table, wanted: Sequence[str] | None) -> list[str] | None:
     for name in wanted:
         if name not in known:
             raise OptionError(
-                f"--surface {clip(name)!r}: no such surface in {clip(table.source)}{suggest(name, known)} "
+                f"--surface {clip(name)!r}: no such surface in {clip_path(table.source)}{suggest(name, known)} "
                 f"(it has {len(known)}: {clip(', '.join(known))})"
             )
     return list(wanted)
@@ -197,7 +197,7 @@ def check_species(table, names: Iterable[str], option: str) -> None:
             continue  # the module's own parser gives the notation message
         if Species.parse(key).is_adsorbate and key not in known:
             raise OptionError(
-                f"{option} {clip(name)!r}: no energies of {clip(key)} in {clip(table.source)}{suggest(key, known)} "
+                f"{option} {clip(name)!r}: no energies of {clip(key)} in {clip_path(table.source)}{suggest(key, known)} "
                 f"(species in the table: {clip(', '.join(known), 300)})"
             )
 

@@ -6,7 +6,7 @@ import argparse
 from pathlib import Path
 
 from ecatlab.cli import _options as opt
-from ecatlab.errors import clip
+from ecatlab.errors import clip_path
 
 __all__ = ["register", "run"]
 
@@ -44,10 +44,10 @@ def run(args: argparse.Namespace) -> int:
 
     src = Path(args.source)
     if not src.exists():
-        raise IngestError(clip(str(src)), "file or folder not found; give the root folder of VASP runs, a CSV of total energies "
+        raise IngestError(clip_path(str(src)), "file or folder not found; give the root folder of VASP runs, a CSV of total energies "
                                           "(surface, species, total_energy) or a file ASE can read")
     if args.corrections and not Path(args.corrections).is_file():
-        raise IngestError(clip(args.corrections), "--corrections file not found; expected CSV with columns species, ZPE, CpdT, TS (eV)")
+        raise IngestError(clip_path(args.corrections), "--corrections file not found; expected CSV with columns species, ZPE, CpdT, TS (eV)")
     out = check_output(args.output, force=args.force, inputs=[src, args.corrections], suffixes=("csv",), what="energy table")
     kind = args.format or ("vasp" if src.is_dir() else "totals" if src.suffix.lower() == ".csv" else "ase")
     treatment = LowFrequencyTreatment(method=args.low_frequency, cutoff_cm=args.cutoff)

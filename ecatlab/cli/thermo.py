@@ -7,7 +7,7 @@ import os
 import re
 
 from ecatlab.cli import _options as opt
-from ecatlab.errors import clip
+from ecatlab.errors import clip, clip_path
 
 __all__ = ["register", "run"]
 
@@ -41,7 +41,7 @@ _FREQUENCY_FILE_LIMIT = 1_000_000  # bytes; a frequency list is a few hundred nu
 def _read_frequency_file(path) -> str:
     from ecatlab.errors import ThermochemistryError
 
-    shown = clip(str(path))
+    shown = clip_path(str(path))
     if path.stat().st_size > _FREQUENCY_FILE_LIMIT:
         raise ThermochemistryError(f"{shown}: {path.stat().st_size} bytes is too large for a frequency list (limit {_FREQUENCY_FILE_LIMIT})")
     data = path.read_bytes()
@@ -65,7 +65,7 @@ def _read_frequencies(items: list[str]) -> list[float]:
         source = ""
         if Path(item).is_file():
             tokens = [t for t in re.split(r"[\s,;]+", _read_frequency_file(Path(item))) if t]
-            source = f" in file {clip(item)}"
+            source = f" in file {clip_path(item)}"
         for t in tokens:
             for piece in (x for x in t.split(",") if x):
                 try:

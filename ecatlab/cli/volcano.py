@@ -7,7 +7,7 @@ import json
 import math
 
 from ecatlab.cli import _options as opt
-from ecatlab.errors import ScalingError, clip
+from ecatlab.errors import ScalingError, clip, clip_path
 
 
 def register(sub: argparse._SubParsersAction) -> None:
@@ -55,7 +55,7 @@ def _relations(path: str | None):
 
     if not path:
         return []
-    shown = clip(path)
+    shown = clip_path(path)
     try:
         with open(path, "rb") as fh:
             raw = fh.read()
