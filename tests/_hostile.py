@@ -60,7 +60,7 @@ def run(capsys, argv):
 
 def fails(capsys, argv, *fragments, inputs=(), allow_stdout: bool = False) -> str:
     """Run a command that must be refused; return its one error line."""
-    hashes = {str(p): sha(p) for p in inputs if pathlib.Path(p).is_file()}
+    hashes = {str(p): sha(p) for p in (DEMO, *inputs) if pathlib.Path(p).is_file()}  # the bundled table too
     code, out, err = run(capsys, argv)
     assert code == 2, f"exit {code}; stdout={out[:500]!r}; stderr={err[:500]!r}"
     assert "Traceback" not in err and "Traceback" not in out

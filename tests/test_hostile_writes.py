@@ -206,9 +206,21 @@ def test_failed_render_keeps_the_old_figure(capsys, energies, existing, monkeypa
         raise OSError(27, "File too large")
 
     monkeypatch.setattr(export, "_savefig", half_written)
-    fails(capsys, ["volcano", energies, "-p", "orr-4e", "-d", "OH*", "-o", out, "--force"], "File too large",
-          inputs=[energies], allow_stdout=True)
+    fails(capsys, ["volcano", energies, "-p", "orr-4e", "-d", "OH*", "-o", out, "--force"], "File too large", inputs=[energies])
     assert out.read_text() == PRECIOUS and no_temp_files(out.parent)
+
+
+def test_failed_figure_write_leaves_no_routes_table(capsys, energies, tmp_path, monkeypatch):
+    from ecatlab.plotting import export
+
+    def broken(fig, target, fmt, dpi, transparent):
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(export, "_savefig", broken)
+    table = tmp_path / "routes.csv"
+    fails(capsys, ["routes", energies, "--from", "CO2", "--to", "CH4", "--surface", "ALY-01", "-o", table,
+                   "--figure", tmp_path / "net.svg"], "No space left on device", inputs=[energies])
+    assert not table.exists() and not (tmp_path / "net.svg").exists() and no_temp_files(tmp_path)
 
 
 def test_api_writers_leave_no_temp_on_error(tmp_path, monkeypatch):

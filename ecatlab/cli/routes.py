@@ -96,15 +96,16 @@ def run(args: argparse.Namespace) -> int:
         from ecatlab.plotting.network import plot_network
 
         figure = plot_network(an, an.surfaces[0], args.product).figure
+    if figure is not None:  # written first: a failed figure write leaves no table output behind
+        from ecatlab.plotting.export import save_figure
+
+        save_figure(figure, args.figure, force=args.force, inputs=[args.file])
     if target is None:
         sys.stdout.write(text)
     else:
         safe_io.atomic_write_text(target, text, force=args.force, inputs=[args.file], what="table")
         print(f"wrote {len(frame)} rows ({kind}) to {target}", file=sys.stderr)
     if figure is not None:
-        from ecatlab.plotting.export import save_figure
-
-        save_figure(figure, args.figure, force=args.force, inputs=[args.file])
         print(f"figure written to {args.figure} (surface {an.surfaces[0]})", file=sys.stderr)
     return 0
 

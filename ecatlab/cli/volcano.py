@@ -116,6 +116,20 @@ def run(args: argparse.Namespace) -> int:
     )
     summary = curve.summary()
     fits = scaling_table(curve.relations)
+    if args.output:  # the figure is written before anything is printed: a failed write prints nothing
+        import matplotlib
+
+        matplotlib.use("Agg")
+        from ecatlab.plotting.export import save_figure
+        from ecatlab.plotting.volcano import plot_volcano
+
+        ax = plot_volcano(curve, style=args.style)
+        try:
+            save_figure(ax.figure, args.output, force=args.force, inputs=[i for i in inputs if i])
+        finally:
+            import matplotlib.pyplot as plt
+
+            plt.close(ax.figure)
     if args.json:
         print(json.dumps({"summary": json.loads(summary.to_json(orient="records")), "scaling": json.loads(fits.to_json(orient="records")),
                           "surfaces": json.loads(curve.surfaces.to_json(orient="records")), "conditions": curve.conditions}, indent=2, default=str))
@@ -139,13 +153,5 @@ def run(args: argparse.Namespace) -> int:
         print("surfaces (descriptor eV; exact and scaling-predicted limiting potential V):")
         print(surf.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
     if args.output:
-        import matplotlib
-
-        matplotlib.use("Agg")
-        from ecatlab.plotting.export import save_figure
-        from ecatlab.plotting.volcano import plot_volcano
-
-        ax = plot_volcano(curve, style=args.style)
-        save_figure(ax.figure, args.output, force=args.force, inputs=[i for i in inputs if i])
         print(f"figure written to {args.output}")
     return 0
