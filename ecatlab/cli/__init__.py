@@ -17,7 +17,6 @@ An unexpected exception (a bug) is also one line, with exit code 1 and the advic
 from __future__ import annotations
 
 import argparse
-import difflib
 import importlib
 import pkgutil
 import sys
@@ -108,6 +107,8 @@ def build_parser(argv: Sequence[str] | None = None) -> argparse.ArgumentParser:
 
 def suggest(word: str, choices: Iterable[str], n: int = 1) -> str:
     """``"; did you mean 'X'?"`` for the closest of ``choices`` (empty when nothing is close)."""
+    import difflib
+
     from ecatlab.errors import clip
 
     if len(str(word)) > 200:  # nothing known is that long; difflib would take seconds
