@@ -150,7 +150,7 @@ def limiting_potential_table(lp: pd.DataFrame, columns: Sequence[str] | None = N
     else:
         unknown = [k for k in columns if k not in _SPEC]
         if unknown:
-            raise TableInputError(f"unknown column(s) {unknown}; choose from {list(_SPEC)}")
+            raise ValueError(f"unknown column(s) {unknown}; choose from {list(_SPEC)}")
         cols = list(columns)
     frame = lp
     if sort:
