@@ -101,6 +101,9 @@ _EXPORTS: dict[str, str] = {
     "explore": "ecatlab.explorer",
     "Explorer": "ecatlab.explorer",
     "ExplorerState": "ecatlab.explorer",
+    # safe output and pathway files (hostile-input handling)
+    "read_pathway_file": "ecatlab.notation",
+    "render_table": "ecatlab.tables",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

@@ -28,7 +28,7 @@ class NotationError(EcatlabError, ValueError):
     def __init__(self, text: str, reason: str):
         self.text = text
         self.reason = reason
-        super().__init__(f"cannot read {text!r}: {reason}")
+        super().__init__(f"cannot read {clip(text)!r}: {reason}")
 
 
 class BalanceError(NotationError):
@@ -63,9 +63,13 @@ class UnknownPathwayError(PathwayError, KeyError):
     """No built-in pathway has this key."""
 
     def __init__(self, key: str, known: list[str]):
+        import difflib
+
         self.key = key
         self.known = list(known)
-        ValueError.__init__(self, f"no built-in pathway {key!r}; known keys: {', '.join(self.known)}")
+        close = difflib.get_close_matches(str(key), self.known, n=1, cutoff=0.6) if len(str(key)) <= 200 else []
+        hint = f" (did you mean {close[0]!r}?)" if close else ""
+        ValueError.__init__(self, f"no built-in pathway {clip(key)!r}{hint}; known keys: {', '.join(self.known)}")
 
     def __str__(self) -> str:  # KeyError would quote the message
         return self.args[0]
@@ -214,3 +218,59 @@ class SurfaceStateError(EcatlabError, ValueError):
 
 class DescriptorError(EcatlabError, ValueError):
     """A descriptor (PCA) analysis cannot be done (too few surfaces or adsorbates, bad options)."""
+
+
+#: Longest echo of a user value in a message (characters); longer values are cut with "...".
+ECHO_LIMIT = 80
+
+
+def clip(value: Any, limit: int = ECHO_LIMIT) -> str:
+    """``str(value)`` cut to ``limit`` characters (with the total length) so messages stay readable.
+
+    Control characters are shown escaped (``\\x00``) so one message stays one line.
+    """
+    full = str(value)
+    text = "".join(ch if ch >= " " and ch != "\x7f" else repr(ch)[1:-1] for ch in full[: limit + 1])
+    if len(full) <= limit and len(text) <= limit:
+        return text
+    return f"{text[:limit - 3]}... ({len(full)} characters)"
+
+
+class OutputPathError(EcatlabError, ValueError):
+    """An output path cannot be used (a folder, wrong extension, one of the inputs, unwritable...)."""
+
+
+class OutputExistsError(EcatlabError, FileExistsError):
+    """An output file exists and ``--force`` / ``force=True`` was not given (files are never silently replaced)."""
+
+
+class OptionError(EcatlabError, ValueError):
+    """A command-line option or API argument has a value outside its range, or is unknown."""
+
+
+class InputFileError(EcatlabError, ValueError):
+    """An input file cannot be read as text (binary, not UTF-8, not found)."""
+
+
+class ExplorerValueError(EcatlabError, ValueError):
+    """A value typed into the explorer is not usable (not a number, out of range)."""
+
+
+class InputTypeError(EcatlabError, TypeError):
+    """An argument has the wrong type (e.g. a number where species text is expected)."""
+
+
+def require_text(value: Any, what: str) -> str:
+    """``value`` if it is a str, else an :class:`InputTypeError` naming ``what``."""
+    if not isinstance(value, str):
+        raise InputTypeError(f"{what} must be text, got {type(value).__name__} {clip(repr(value))}")
+    return value
+
+
+def clip_path(value: Any, limit: int = 160) -> str:
+    """A path for a message: whole up to ``limit`` characters, else its start and its end (the file name)."""
+    full = str(value)
+    if len(full) <= limit:
+        return clip(full, limit)
+    tail = limit - 45
+    return f"{clip(full[:40], 40)}...{clip(full[-tail:], tail)}"

@@ -25,9 +25,12 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Iterable, Mapping
 
-from ecatlab.errors import BalanceError, NotationError, PathwayError
+from ecatlab.errors import BalanceError, NotationError, PathwayError, require_text
 
-__all__ = ["Species", "Step", "Pathway", "SITE", "PROTON", "ELECTRON", "HYDROXIDE"]
+__all__ = ["Species", "Step", "Pathway", "SITE", "PROTON", "ELECTRON", "HYDROXIDE", "read_pathway_file", "PATHWAY_FILE_LIMIT"]
+
+#: Largest pathway file read, bytes (a pathway is a few lines; anything larger is not one).
+PATHWAY_FILE_LIMIT = 1_000_000
 
 _PHASES = ("g", "l", "aq")
 _FORMULA_RE = re.compile(r"^(?:[A-Z][a-z]?\d*(?:\.\d+)?|\((?:[A-Z][a-z]?\d*)+\)\d*)+$")
@@ -159,7 +162,7 @@ HYDROXIDE = Species("OH", "hydroxide")
 
 
 def _parse_species(raw: str) -> Species:
-    text = raw.strip()
+    text = require_text(raw, "a species").strip()
     if not text:
         raise NotationError(raw, "empty species")
     if text == "*":
@@ -251,7 +254,7 @@ class Step:
     @classmethod
     def parse(cls, text: str) -> "Step":
         """Parse ``"OOH* + H+ + e- -> O* + H2O(l)"``."""
-        original = text
+        original = require_text(text, "a step")
         line = text.replace("→", "->").replace("=>", "->")
         if line.count("->") != 1:
             raise NotationError(original, "a step needs exactly one '->' between reactants and products")
@@ -321,7 +324,10 @@ def _parse_side(original: str, side: str) -> tuple[tuple[Species, float], ...]:
         token = token.strip()
         if not token:
             raise NotationError(original, "empty term (two '+' in a row, or a side without species)")
-        m = re.fullmatch(r"(\d+(?:\.\d+)?|\d*\.\d+)?\s*(.+)", token)
+        hint = _coefficient_hint(token)
+        if hint:
+            raise NotationError(original, hint)
+        m = re.fullmatch(r"(\d+(?:\.\d+)?|\d*\.\d+)?\s*(.+)", token, flags=re.S)
         coef_text, sp_text = m.group(1), m.group(2)
         coef = float(coef_text) if coef_text else 1.0
         if coef_text and not re.match(r"\s", token[len(coef_text):len(coef_text) + 1] or " ") and sp_text != "*":
@@ -335,6 +341,35 @@ def _parse_side(original: str, side: str) -> tuple[tuple[Species, float], ...]:
             terms[sp] = 0.0
         terms[sp] += coef
     return tuple((sp, terms[sp]) for sp in order)
+
+
+_UNICODE_FRACTIONS = {"½": "0.5", "¼": "0.25", "¾": "0.75", "⅓": "0.333333", "⅔": "0.666667"}
+
+
+def _coefficient_hint(token: str) -> str | None:
+    """The fix for coefficient forms the grammar does not take (fractions, exponents, signs), or None."""
+    from ecatlab.errors import clip
+
+    shown = clip(token)
+    m = re.match(r"^(\d+)\s*/\s*(\d+)\s*(\S.*)?$", token)
+    if m:
+        num, den = int(m.group(1)), int(m.group(2))
+        rest = m.group(3) or "O2(g)"
+        if den == 0:
+            return f"coefficient {m.group(1)}/{m.group(2)} in {shown!r} divides by zero; write a positive decimal, e.g. '0.5 {rest}'"
+        return f"write fractions as decimals: {f'{num / den:.6g} {rest}'!r} instead of {shown!r}"
+    if token[:1] in _UNICODE_FRACTIONS:
+        return f"write fractions as decimals: {f'{_UNICODE_FRACTIONS[token[0]]} {token[1:].strip()}'!r} instead of {shown!r}"
+    m = re.match(r"^(\d+(?:\.\d*)?|\.\d+)[eE]([+-]?\d+)\s+(\S.*)$", token)
+    if m:
+        value = float(m.group(1) + "e" + m.group(2))
+        return f"write the coefficient as a plain decimal ({f'{value:g} {m.group(3)}'!r}), not in exponent notation ({shown!r})"
+    m = re.match(r"^([+-])\s*(\d+(?:\.\d+)?|\.\d+)\s+(\S.*)$", token)
+    if m:
+        if m.group(1) == "-":
+            return f"coefficients are positive: move {m.group(3)!r} to the other side of '->' instead of writing {shown!r}"
+        return f"write the coefficient without a sign: {f'{m.group(2)} {m.group(3)}'!r} instead of {shown!r}"
+    return None
 
 
 def _format_coef(c: float) -> str:
@@ -391,6 +426,7 @@ class Pathway:
                 f"pathway {self.name!r}: {len(self.state_labels)} state labels given for "
                 f"{len(self.steps)} steps; give one label per state ({len(self.steps) + 1})"
             )
+        self._check_chain()
         overall = self.overall_net()
         leftover = [sp.key for sp, c in overall.items() if sp.is_adsorbate]
         if leftover:
@@ -400,9 +436,28 @@ class Pathway:
                 "intermediate it forms"
             )
 
+    def _check_chain(self) -> None:
+        """Every adsorbed intermediate a step consumes was formed by an earlier step (the steps chain)."""
+        present: dict[Species, float] = {}
+        for i, step in enumerate(self.steps):
+            for sp, coef in step.reactants:
+                if sp.is_adsorbate and present.get(sp, 0.0) + _BALANCE_TOLERANCE < coef:
+                    later = [j + 1 for j in range(i + 1, len(self.steps)) if self.steps[j].net().get(sp, 0.0) > _BALANCE_TOLERANCE]
+                    where = (f"it is formed only later, in step {later[0]}" if later else "no step forms it")
+                    raise PathwayError(
+                        f"pathway {self.name!r}: step {i + 1} ({step.equation}) consumes {sp.key} before it exists; "
+                        f"{where}. Order the steps so that each intermediate is formed before it is consumed "
+                        "(the first step starts from the clean site '*' and molecules)"
+                    )
+            for sp, coef in step.net().items():
+                if sp.is_adsorbate:
+                    present[sp] = present.get(sp, 0.0) + coef
+
     @classmethod
     def parse(cls, text: str, name: str = "custom", description: str = "", state_labels: Iterable[str] | None = None) -> "Pathway":
         """Read one step per line; blank lines and text after ``#`` are ignored."""
+        require_text(text, f"the text of pathway {name!r}")
+        require_text(name, "a pathway name")
         steps = []
         for lineno, line in enumerate(text.splitlines(), start=1):
             line = line.split("#", 1)[0].strip()
@@ -513,13 +568,15 @@ class Pathway:
         return len(self.steps)
 
     def _repr_html_(self) -> str:
+        from html import escape
+
         rows = "".join(
-            f"<tr><td>{i + 1}</td><td>{s.equation}</td><td>{'electrochemical' if s.is_electrochemical else 'chemical'}</td></tr>"
+            f"<tr><td>{i + 1}</td><td>{escape(s.equation)}</td><td>{'electrochemical' if s.is_electrochemical else 'chemical'}</td></tr>"
             for i, s in enumerate(self.steps)
         )
         return (
-            f"<b>{self.name}</b> ({self.direction}, {abs(self.total_electrons):g} e<sup>-</sup>): "
-            f"{self.description}<table><tr><th>#</th><th>step</th><th>kind</th></tr>{rows}</table>"
+            f"<b>{escape(self.name)}</b> ({self.direction}, {abs(self.total_electrons):g} e<sup>-</sup>): "
+            f"{escape(self.description)}<table><tr><th>#</th><th>step</th><th>kind</th></tr>{rows}</table>"
         )
 
 
@@ -530,3 +587,54 @@ def _state_label(side: Iterable[tuple[Species, float]]) -> str:
     if not chosen:
         return "*"
     return " + ".join(f"{_format_coef(c)}{sp.key}" for sp, c in chosen)
+
+
+def read_pathway_file(path, name: str | None = None, description: str = "") -> Pathway:
+    """Read a pathway file: UTF-8 text, one step per line, ``#`` comments.
+
+    The pathway is named after the file (``my-orr.txt`` -> ``my-orr``) unless ``name`` is given;
+    a name that is a built-in pathway key is refused, so results of a custom pathway are never
+    mistaken for the built-in one.
+
+    Raises
+    ------
+    PathwayError
+        File not found, a folder, binary or not UTF-8, larger than :data:`PATHWAY_FILE_LIMIT`,
+        a name that shadows a built-in key, or any problem of the steps (line numbers given).
+    """
+    import os
+
+    from ecatlab.errors import clip, clip_path
+    from ecatlab.pathways import BUILTIN_PATHWAYS
+
+    shown = clip_path(os.fspath(path))
+    if not os.path.exists(path):
+        raise PathwayError(f"{shown}: pathway file not found; check the path")
+    if os.path.isdir(path):
+        raise PathwayError(f"{shown}: is a folder; give a text file with one step per line")
+    size = os.path.getsize(path)
+    if size > PATHWAY_FILE_LIMIT:
+        raise PathwayError(f"{shown}: {size} bytes is too large for a pathway file (limit {PATHWAY_FILE_LIMIT}); give a text file with one step per line")
+    with open(path, "rb") as fh:
+        data = fh.read()
+    nul = data.find(bytes(1))
+    if nul >= 0:
+        raise PathwayError(f"{shown}: binary file (NUL byte at offset {nul}); a pathway file is plain text with one step per line")
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise PathwayError(f"{shown}, line {line}: not UTF-8 text (byte 0x{data[exc.start]:02x} at offset {exc.start}); "
+                           "save the file as UTF-8 plain text") from None
+    stem = name if name is not None else os.path.splitext(os.path.basename(os.fspath(path)))[0]
+    if not stem.strip() or re.search(r"[\x00-\x1f\x7f]", stem):
+        raise PathwayError(f"{shown}: the pathway name {clip(stem)!r} is empty or holds control characters; rename the file")
+    if stem in BUILTIN_PATHWAYS:
+        raise PathwayError(
+            f"{shown}: the pathway name {stem!r} is a built-in pathway key; rename the file (e.g. my-{stem}.txt) so its "
+            "results are not mistaken for the built-in pathway"
+        )
+    try:
+        return Pathway.parse(text, name=stem, description=description or f"from {os.path.basename(os.fspath(path))}")
+    except (NotationError, PathwayError) as exc:
+        raise PathwayError(f"{shown}: {exc}") from None

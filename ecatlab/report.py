@@ -720,10 +720,20 @@ def build_report(
         analysis.close()
 
 
-def write_report(path: str | os.PathLike, energies, pathways, **kwargs) -> pathlib.Path:
-    """Build the report (see :func:`build_report`) and write it to ``path`` (UTF-8); returns the path."""
-    target = pathlib.Path(path)
+def write_report(path: str | os.PathLike, energies, pathways, force: bool = False, inputs=(), **kwargs) -> pathlib.Path:
+    """Build the report (see :func:`build_report`) and write it to ``path`` (UTF-8); returns the path.
+
+    ``path`` (``.html``/``.htm``) is checked before anything is computed: an existing file is
+    replaced only with ``force=True``, never when it is the energy file or one of ``inputs``. The
+    file is written atomically (see :mod:`ecatlab.safe_io`).
+    """
+    from ecatlab import safe_io
+
+    sources = list(inputs) + ([energies] if isinstance(energies, (str, os.PathLike)) else [])
+    if isinstance(getattr(energies, "source", None), str) and os.path.isfile(energies.source):
+        sources.append(energies.source)
+    options = dict(force=force, inputs=sources, suffixes=("html", "htm"), what="HTML report")
+    target = safe_io.check_output(path, **options)
     text = build_report(energies, pathways, **kwargs)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    target.write_text(text, encoding="utf-8")
+    safe_io.atomic_write_text(target, text, **options)
     return target

@@ -49,6 +49,9 @@ __all__ = [
     "to_latex",
     "to_html",
     "export_table",
+    "render_table",
+    "table_format",
+    "TABLE_FORMATS",
     "TableInputError",
 ]
 
@@ -327,6 +330,11 @@ def _numeric_columns(table: pd.DataFrame) -> list[bool]:
 
 
 def _index_frame(table: pd.DataFrame) -> pd.DataFrame:
+    if not isinstance(table, pd.DataFrame):
+        from ecatlab.errors import clip
+
+        raise TableInputError(f"expected a pandas DataFrame (e.g. from ecatlab.limiting_potential_table()), got "
+                              f"{type(table).__name__} {clip(repr(table))}")
     if isinstance(table.index, pd.RangeIndex) and table.index.name is None:
         return table
     name = table.index.name or ""
@@ -342,13 +350,13 @@ def to_markdown(table: pd.DataFrame, decimals: int | None = None, caption: str |
     ``decimals`` overrides the per-column rounding kept in ``table.attrs``; ``caption=True`` uses
     ``table.attrs["caption"]``, a string replaces it, ``False`` leaves it out.
     """
+    from ecatlab.safe_io import markdown_cell as esc
+
+    decimals = check_decimals(decimals)
     table = _index_frame(table)
     headers = [str(c) for c in table.columns]
     rows = _cells(table, decimals, missing)
     numeric = _numeric_columns(table)
-
-    def esc(text: str) -> str:
-        return text.replace("|", r"\|").replace("\n", " ")
 
     widths = [max([len(esc(h))] + [len(esc(r[j])) for r in rows] + [3]) for j, h in enumerate(headers)]
     def line(cells):
@@ -393,6 +401,7 @@ def to_latex(
     in text cells get subscripts; headers come from ``table.attrs["latex_headers"]`` when present.
     """
     table = _index_frame(table)
+    decimals = check_decimals(decimals)
     headers = table.attrs.get("latex_headers", {})
     numeric = _numeric_columns(table)
     rows = _cells(table, decimals, missing)
@@ -437,6 +446,7 @@ def to_html(
     when ``chemistry`` is true.
     """
     table = _index_frame(table)
+    decimals = check_decimals(decimals)
     docs = table.attrs.get("columns", {})
     numeric = _numeric_columns(table)
     rows = _cells(table, decimals, missing)
@@ -460,29 +470,145 @@ def to_html(
     return "\n".join(parts) + "\n"
 
 
-def export_table(table: pd.DataFrame, path: str | os.PathLike, fmt: str | None = None, decimals: int | None = None) -> pathlib.Path:
-    """Write a table as CSV, Markdown (``.md``), LaTeX (``.tex``) or HTML (``.html``).
+#: Formats of :func:`render_table` / :func:`export_table` and the file extensions that pick them.
+TABLE_FORMATS = ("csv", "markdown", "latex", "html", "json")
+FORMAT_SUFFIXES = {"csv": "csv", "tsv": "csv", "md": "markdown", "markdown": "markdown", "tex": "latex",
+                   "latex": "latex", "html": "html", "htm": "html", "json": "json"}
 
-    The format comes from ``fmt`` (``"csv"``, ``"markdown"``, ``"latex"``, ``"html"``) or the
-    suffix. CSV keeps full precision and appends the conditions as columns when absent.
+#: Allowed range of ``decimals`` in the text exports.
+DECIMALS_RANGE = (0, 12)
+
+
+def check_decimals(decimals: int | None, option: str = "decimals") -> int | None:
+    """``decimals`` as an int within :data:`DECIMALS_RANGE` (``None`` passes); an OptionError otherwise."""
+    from ecatlab.errors import OptionError
+
+    if decimals is None:
+        return None
+    if isinstance(decimals, bool) or not isinstance(decimals, (int, np.integer)) or not DECIMALS_RANGE[0] <= int(decimals) <= DECIMALS_RANGE[1]:
+        raise OptionError(f"{option} {decimals!r}: give a whole number of decimals from {DECIMALS_RANGE[0]} to {DECIMALS_RANGE[1]}")
+    return int(decimals)
+
+
+def table_format(path: str | os.PathLike | None = None, fmt: str | None = None, option: str = "--format") -> str:
+    """The table format from an explicit ``fmt`` and/or a file suffix; an error when they disagree or are unknown."""
+    from ecatlab.errors import OptionError, OutputPathError, clip
+
+    by_suffix = None
+    if path is not None:
+        suffix = pathlib.Path(path).suffix.lower().lstrip(".")
+        by_suffix = FORMAT_SUFFIXES.get(suffix)
+        if by_suffix is None and fmt is None:
+            raise OutputPathError(
+                f"unknown table format {suffix!r} for {clip(str(path))!r}; use a .csv, .tsv, .md, .tex, .html or .json file "
+                "(or name the format)"
+            )
+    if fmt is not None:
+        kind = FORMAT_SUFFIXES.get(str(fmt).lower())
+        if kind is None:
+            raise OptionError(f"{option} {clip(fmt)!r}: unknown table format; use one of {', '.join(TABLE_FORMATS)}")
+        if path is not None and by_suffix is not None and by_suffix != kind:
+            raise OptionError(
+                f"{option} {fmt} does not match the extension of {clip(str(path))!r} ({by_suffix}); "
+                "make them agree or drop one of them"
+            )
+        if path is not None and by_suffix is None:
+            raise OutputPathError(
+                f"{clip(str(path))!r}: the extension does not match the {kind} format; name the file "
+                f"with one of {', '.join('.' + s for s, k in FORMAT_SUFFIXES.items() if k == kind and s != kind)}"
+            )
+        return kind
+    return by_suffix
+
+
+def _json_text(table: pd.DataFrame) -> str:
+    import json
+
+    frame = _index_frame(table)
+    payload = {
+        "caption": table.attrs.get("caption", ""),
+        "conditions": table.attrs.get("conditions", {}),
+        "columns": table.attrs.get("columns", {}),
+        "rows": json.loads(frame.to_json(orient="records")),
+    }
+    return json.dumps(payload, indent=2, default=str) + "\n"
+
+
+def render_table(table: pd.DataFrame, fmt: str, decimals: int | None = None, caption: bool | str = True,
+                 csv_comment: bool = False, sep: str = ",") -> str:
+    """The one table writer: a table as CSV, Markdown, LaTeX, HTML or JSON text.
+
+    Parameters
+    ----------
+    table : DataFrame
+        Any table of this module (``attrs`` caption, column docs and decimals are used).
+    fmt : str
+        ``"csv"``, ``"markdown"``, ``"latex"``, ``"html"`` or ``"json"`` (or an extension).
+    decimals : int, optional
+        Rounding of numbers in the text formats (0 to 12); ``None``: the per-column defaults.
+        CSV rounds only when ``decimals`` is given; JSON keeps full precision.
+    caption : bool or str
+        Text formats: include the caption. CSV: with ``csv_comment`` the caption is the first
+        line, prefixed with ``# ``.
+    csv_comment : bool
+        Put the caption as a ``#`` comment line above the CSV header.
+
+    Notes
+    -----
+    CSV cells are neutralised against spreadsheet formula injection (OWASP "CSV Injection", see
+    :mod:`ecatlab.safe_io`); Markdown cells escape ``|``; HTML is escaped; LaTeX specials escaped.
     """
-    target = pathlib.Path(path)
-    kind = (fmt or target.suffix.lstrip(".")).lower()
-    kind = {"md": "markdown", "tex": "latex", "htm": "html"}.get(kind, kind)
-    target.parent.mkdir(parents=True, exist_ok=True)
+    from ecatlab import safe_io
+    from ecatlab.errors import OptionError, clip
+
+    kind = FORMAT_SUFFIXES.get(str(fmt).lower())
+    if kind is None:
+        raise OptionError(f"unknown table format {clip(fmt)!r}; use one of {', '.join(TABLE_FORMATS)}")
+    decimals = check_decimals(decimals)
     if kind == "csv":
         frame = _index_frame(table)
         c = table.attrs.get("conditions")
-        if c:
+        if c and not csv_comment:
             extra = {"scale": c["scale"], "pH": c["pH"], "T [K]": c["temperature"]}
             frame = frame.assign(**{k: v for k, v in extra.items() if k not in frame.columns})
-        frame.to_csv(target, index=False)
-    elif kind == "markdown":
-        target.write_text(to_markdown(table, decimals), encoding="utf-8")
-    elif kind == "latex":
-        target.write_text(to_latex(table, decimals), encoding="utf-8")
-    elif kind == "html":
-        target.write_text(to_html(table, decimals), encoding="utf-8")
-    else:
-        raise ValueError(f"unknown table format {kind!r} for {str(target)!r}; use csv, md, tex or html")
+        if decimals is not None:
+            frame = frame.round(decimals)
+        text = safe_io.csv_text(frame, index=False, sep=sep, lineterminator="\n")
+        cap = table.attrs.get("caption", "") if caption is True else (caption or "")
+        if csv_comment and cap:
+            text = "# " + cap.replace("\n", " ").replace("\r", " ") + "\n" + text
+        return text
+    if kind == "markdown":
+        return to_markdown(table, decimals, caption)
+    if kind == "latex":
+        return to_latex(table, decimals, caption)
+    if kind == "html":
+        return to_html(table, decimals, caption)
+    return _json_text(table)
+
+
+def export_table(table: pd.DataFrame, path: str | os.PathLike, fmt: str | None = None, decimals: int | None = None,
+                 force: bool = False, inputs: Iterable[str | os.PathLike] = ()) -> pathlib.Path:
+    """Write a table as CSV (``.csv``/``.tsv``), Markdown (``.md``), LaTeX (``.tex``), HTML (``.html``) or JSON.
+
+    The format comes from ``fmt`` (``"csv"``, ``"markdown"``, ``"latex"``, ``"html"``, ``"json"``)
+    or the suffix. CSV keeps full precision and appends the conditions as columns when absent.
+    The file is written atomically (temporary file in the target folder, then ``os.replace``);
+    an existing file is replaced only with ``force=True``, and never when it is one of ``inputs``.
+
+    Raises
+    ------
+    OutputPathError
+        Unknown extension, a folder, one of the inputs (checked before anything is rendered).
+    OutputExistsError
+        The file exists and ``force`` is false.
+    """
+    from ecatlab import safe_io
+
+    target = pathlib.Path(path)
+    kind = table_format(target, fmt)
+    safe_io.check_output(target, force=force, inputs=inputs, what="table")
+    sep = "\t" if target.suffix.lower() == ".tsv" else ","
+    text = render_table(table, kind, decimals, sep=sep)
+    safe_io.atomic_write_text(target, text, force=force, inputs=inputs, what="table")
     return target

@@ -254,6 +254,30 @@ class LowFrequencyTreatment:
         return "harmonic: all modes as given"
 
 
+#: Plausible range of vibrational wavenumbers, cm^-1, outside which a warning is given. The upper
+#: bound lies above the highest molecular fundamental (H2 stretch, 4161 cm^-1; NIST Chemistry WebBook);
+#: the lower bound (harmonic treatment only) is common practice, no source: below it the harmonic
+#: entropy of one mode grows without bound as the frequency goes to zero.
+FREQUENCY_WARNING_RANGE_CM = (10.0, 5000.0)
+
+
+def _warn_frequency_range(energies_ev: np.ndarray, species: str, unit: str, treatment: "LowFrequencyTreatment") -> None:
+    """CorrectionWarning for wavenumbers outside :data:`FREQUENCY_WARNING_RANGE_CM` (unit mix-ups, soft modes)."""
+    from ecatlab.errors import CorrectionWarning
+
+    cm = np.abs(np.asarray(energies_ev, dtype=float)) / WAVENUMBER_IN_EV
+    low, high = FREQUENCY_WARNING_RANGE_CM
+    if (cm > high).any():
+        warnings.warn(
+            f"{species}: {int((cm > high).sum())} mode(s) above {high:g} cm^-1 (highest {cm.max():.4g} cm^-1, given in {unit}); "
+            "no molecular vibration is that high: check the unit (cm^-1, meV or THz)", CorrectionWarning, stacklevel=3)
+    if treatment.method == "harmonic" and (cm < low).any():
+        warnings.warn(
+            f"{species}: {int((cm < low).sum())} mode(s) below {low:g} cm^-1 (lowest {cm.min():.3g} cm^-1) dominate the harmonic "
+            "entropy; use the low-frequency treatment (low_frequency='quasi-rrho' or 'cutoff'; CLI --low-frequency) "
+            "or check the unit", CorrectionWarning, stacklevel=3)
+
+
 def _apply_mode_policies(
     energies_ev: np.ndarray,
     species: str,
@@ -503,6 +527,7 @@ class HarmonicAdsorbate:
         used, changes = _apply_mode_policies(signed, species, imaginary, treatment)
         if used.size == 0:
             raise ThermochemistryError(f"{species}: every mode was dropped; nothing left to compute")
+        _warn_frequency_range(used, species, unit, treatment)
         return cls(species, tuple(float(e) for e in used), changes, imaginary, treatment)
 
     @property

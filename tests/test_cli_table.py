@@ -39,7 +39,9 @@ def test_table_json_and_markdown():
     assert len(data["rows"]) == 12
     assert "limiting_potential" in data["columns"]
     code, out, _ = run("table", str(ecatlab.demo_path()), "-p", "co2rr-co", "--format", "markdown")
-    assert code == 0 and "| surface | pathway |" in out and "| ALY-01 | co2rr-co |" in out
+    # the one Markdown writer (ecatlab.tables.to_markdown) pads cells to the column width
+    rows = [[c.strip() for c in line.strip("|").split("|")] for line in out.splitlines() if line.startswith("|")]
+    assert code == 0 and rows[0][:2] == ["surface", "pathway"] and ["ALY-01", "co2rr-co"] in [r[:2] for r in rows]
 
 
 def test_pathways_listing():

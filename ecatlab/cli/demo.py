@@ -38,7 +38,10 @@ def register(subparsers) -> None:
         ),
     )
     parser.add_argument("-o", "--output", default=DEFAULT_DIR, metavar="DIR",
-                        help=f"output folder (default ./{DEFAULT_DIR}); refused if it holds files not made by ecatlab")
+                        help=f"output folder (default ./{DEFAULT_DIR}); refused if it holds files not made by ecatlab; "
+                             "missing folders are created")
+    parser.add_argument("--force", action="store_true",
+                        help="replace the files of an earlier demo run in the folder (folders not made by ecatlab are never touched)")
     parser.set_defaults(func=run)
 
 
@@ -59,6 +62,29 @@ def prepare_output(folder: str | pathlib.Path) -> pathlib.Path:
     return out
 
 
+def _check_folder(folder: str, force: bool) -> None:
+    """Before any work: the folder is usable, and an earlier run's files are replaced only with --force."""
+    from ecatlab.errors import OutputExistsError, OutputPathError, clip
+
+    out = pathlib.Path(folder)
+    if not str(folder).strip():
+        raise OutputPathError("-o: empty folder name; give the folder to write, e.g. -o demo-output")
+    if out.exists() and not out.is_dir():
+        raise OutputFolderError(f"{clip(folder)} exists and is not a folder; choose another path with -o DIR")
+    parent = out.absolute().parent
+    while not parent.exists() and parent != parent.parent:
+        parent = parent.parent
+    if not parent.is_dir():
+        raise OutputPathError(f"-o {clip(folder)!r}: {clip(str(parent))!r} is a file, not a folder; choose another location")
+    if (out / MARKER).exists() and not force:
+        earlier = [p.name for p in out.iterdir() if p.name != MARKER]
+        if earlier:
+            raise OutputExistsError(
+                f"{clip(folder)} holds the files of an earlier demo run ({len(earlier)} entries); pass --force to replace "
+                "them or choose a new folder with -o DIR"
+            )
+
+
 def run(args: argparse.Namespace) -> int:
     import matplotlib
 
@@ -69,9 +95,11 @@ def run(args: argparse.Namespace) -> int:
     from ecatlab.pathways import BUILTIN_PATHWAYS
     from ecatlab.plotting.export import save_figure
     from ecatlab.report import analyse, render_html, routes_section, volcano_section
+    from ecatlab.safe_io import atomic_write_text
     from ecatlab.tables import export_table, limiting_potential_table, rank_surfaces
 
     start = time.perf_counter()
+    _check_folder(args.output, args.force)
     out = prepare_output(args.output)
     keys = list(BUILTIN_PATHWAYS)
     analysis = analyse(demo_energies(), keys, top=4, style="double")
@@ -79,13 +107,13 @@ def run(args: argparse.Namespace) -> int:
     try:
         table = limiting_potential_table(analysis.limiting, sort=True)
         for suffix in ("csv", "md", "tex"):
-            written.append(export_table(table, out / f"limiting_potentials.{suffix}"))
+            written.append(export_table(table, out / f"limiting_potentials.{suffix}", force=True))
         ranking = rank_surfaces(analysis.limiting)
         for suffix in ("csv", "md"):
-            written.append(export_table(ranking, out / f"ranking.{suffix}"))
+            written.append(export_table(ranking, out / f"ranking.{suffix}", force=True))
         for fig in analysis.figures:
             name = fig.pathway if fig.kind == "surfaces" else f"{fig.pathway}_potentials"
-            files = save_figure(fig.figure, out / "diagrams" / name, formats=("svg", "png"), dpi=200)
+            files = save_figure(fig.figure, out / "diagrams" / name, formats=("svg", "png"), dpi=200, force=True)
             fig.svg = files[0].read_text(encoding="utf-8")
             written += files
         sections = [volcano_section(analysis.table, *DEMO_VOLCANO), routes_section(analysis.table, *DEMO_ROUTES)]
@@ -93,8 +121,7 @@ def run(args: argparse.Namespace) -> int:
         command = f"ecatlab demo -o {args.output}"
         html = render_html(analysis, command=command, sections=sections, banner=DEMO_LABEL + " — do not cite or compare with experiment.",
                            title="ecatlab demo: illustrative screening of twelve hypothetical surfaces")
-        report = out / "report.html"
-        report.write_text(html, encoding="utf-8")
+        report = atomic_write_text(out / "report.html", html, force=True)
         written.append(report)
     finally:
         analysis.close()

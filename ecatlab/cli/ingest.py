@@ -5,6 +5,9 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
+from ecatlab.cli import _options as opt
+from ecatlab.errors import clip_path
+
 __all__ = ["register", "run"]
 
 
@@ -19,13 +22,14 @@ def register(subparsers) -> None:
         ),
     )
     p.add_argument("source", help="root folder of VASP runs, or a CSV of total energies")
-    p.add_argument("-o", "--output", required=True, help="CSV file to write (never overwritten unless --force)")
-    p.add_argument("--force", action="store_true", help="overwrite the output file if it exists")
+    p.add_argument("-o", "--output", required=True, metavar="FILE",
+                   help="CSV file to write (.csv); an existing file is kept unless --force is given; missing folders are created")
+    p.add_argument("--force", action="store_true", help="replace the output file if it exists (never an input file)")
     p.add_argument("--references", nargs="+", help="reference molecules (default H2(g) H2O(l) CO2(g) N2(g))")
-    p.add_argument("-T", "--temperature", type=float, default=298.15, help="K, for adsorbate vibrational corrections")
+    p.add_argument("-T", "--temperature", type=opt.temperature, default=298.15, metavar="K", help="K, for adsorbate vibrational corrections (default 298.15)")
     p.add_argument("--imaginary", choices=["raise", "drop", "flip"], default="raise", help="imaginary-mode policy (default raise)")
     p.add_argument("--low-frequency", choices=["harmonic", "cutoff", "quasi-rrho"], default="harmonic")
-    p.add_argument("--cutoff", type=float, default=50.0, help="cm^-1, for --low-frequency cutoff")
+    p.add_argument("--cutoff", type=opt.positive_float, default=50.0, help="cm^-1, for --low-frequency cutoff")
     p.add_argument("--corrections", help="CSV species,ZPE,CpdT,TS (eV) for adsorbates without a vib/ run")
     p.add_argument("--zero-corrections", action="store_true", help="write 0 corrections where none are available (recorded)")
     p.add_argument("--allow-unconverged", action="store_true", help="accept runs pymatgen reports unconverged")
@@ -35,14 +39,16 @@ def register(subparsers) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ecatlab.errors import IngestError
+    from ecatlab.safe_io import check_output
     from ecatlab.thermochemistry import LowFrequencyTreatment
 
-    out = Path(args.output)
     src = Path(args.source)
-    if out.exists() and not args.force:
-        raise IngestError(str(out), "exists; choose another output name or pass --force to overwrite it")
-    if out.resolve() == src.resolve():
-        raise IngestError(str(out), "is the input; choose another output name")
+    if not src.exists():
+        raise IngestError(clip_path(str(src)), "file or folder not found; give the root folder of VASP runs, a CSV of total energies "
+                                          "(surface, species, total_energy) or a file ASE can read")
+    if args.corrections and not Path(args.corrections).is_file():
+        raise IngestError(clip_path(args.corrections), "--corrections file not found; expected CSV with columns species, ZPE, CpdT, TS (eV)")
+    out = check_output(args.output, force=args.force, inputs=[src, args.corrections], suffixes=("csv",), what="energy table")
     kind = args.format or ("vasp" if src.is_dir() else "totals" if src.suffix.lower() == ".csv" else "ase")
     treatment = LowFrequencyTreatment(method=args.low_frequency, cutoff_cm=args.cutoff)
     refs = tuple(args.references) if args.references else None
@@ -70,7 +76,8 @@ def run(args: argparse.Namespace) -> int:
         from ecatlab.ingest.ase_files import energy_table_from_ase
 
         frame = energy_table_from_ase(src, references=refs, zero_corrections=args.zero_corrections)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    frame.to_csv(out, index=False, float_format="%.6f")
+    from ecatlab.safe_io import write_csv
+
+    write_csv(frame, out, force=args.force, inputs=[src, args.corrections], index=False, float_format="%.6f")
     print(f"wrote {len(frame)} rows ({frame['surface'].nunique()} surfaces) to {out}")
     return 0

@@ -6,7 +6,7 @@ from __future__ import annotations
 import argparse
 import shlex
 
-from ecatlab.constants import STANDARD_TEMPERATURE
+from ecatlab.cli import _options as opt
 
 
 def register(subparsers) -> None:
@@ -19,28 +19,28 @@ def register(subparsers) -> None:
         ),
     )
     parser.add_argument("file", help="energy table (CSV with surface, species and G, or E plus corrections)")
-    parser.add_argument("--pathway", "-p", nargs="+", required=True, metavar="KEY",
-                        help="built-in pathway key(s), e.g. orr-4e oer-4e (see the pathway list in the docs)")
-    parser.add_argument("--pH", type=float, default=0.0, help="pH of the electrolyte (default 0)")
-    parser.add_argument("--scale", choices=("RHE", "SHE"), default="RHE", type=str.upper,
-                        help="potential scale of the results (default RHE)")
-    parser.add_argument("--temperature", "-T", type=float, default=STANDARD_TEMPERATURE, help="temperature in K (default 298.15)")
-    parser.add_argument("--surface", nargs="+", metavar="NAME", default=None, help="only these surfaces (default all)")
-    parser.add_argument("--top", type=int, default=4, help="number of best-ranked surfaces (unblocked, then lowest G_max) overlaid per diagram (default 4)")
+    opt.add_pathways(parser)
+    opt.add_conditions(parser)
+    opt.add_surface(parser)
+    parser.add_argument("--top", type=opt.int_range(1, 50), default=4, help="number of best-ranked surfaces (unblocked, then lowest G_max) overlaid per diagram (1 to 50, default 4)")
     parser.add_argument("--volcano", nargs="+", metavar="KEY=DESCRIPTOR", default=[],
                         help="add a volcano section per item, e.g. orr-4e=OH* or 'oer-4e=O* - OH*' "
                              "(scaling relations fitted to the table's surfaces)")
     parser.add_argument("--routes", nargs="+", metavar="REACTANT:PRODUCT", default=[],
                         help="add a best-route section per item, e.g. CO2:CH4 (network search, HER as competitor)")
     parser.add_argument("--title", default=None, help="report title")
-    parser.add_argument("-o", "--output", default="report.html", help="HTML file to write (default report.html)")
+    opt.add_output(parser, "HTML file to write (.html)", default="report.html")
     parser.set_defaults(func=run)
 
 
 def _command_line(args: argparse.Namespace) -> str:
     """The command with every parameter spelled out (defaults included), as it can be re-run."""
-    argv = ["report", args.file, "--pathway", *args.pathway, "--pH", f"{args.pH:g}", "--scale", args.scale,
-            "--temperature", f"{args.temperature:g}"]
+    argv = ["report", args.file]
+    if args.pathway:
+        argv += ["--pathway", *args.pathway]
+    if args.pathway_file:
+        argv += ["--pathway-file", *args.pathway_file]
+    argv += ["--pH", f"{args.pH:g}", "--scale", args.scale, "--temperature", f"{args.temperature:g}"]
     if args.surface:
         argv += ["--surface", *args.surface]
     argv += ["--top", str(args.top)]
@@ -51,6 +51,8 @@ def _command_line(args: argparse.Namespace) -> str:
     if args.title:
         argv += ["--title", args.title]
     argv += ["-o", str(args.output)]
+    if args.force:
+        argv += ["--force"]
     return "ecatlab " + " ".join(shlex.quote(a) for a in argv)
 
 
@@ -75,18 +77,28 @@ def parse_route(text: str) -> tuple[str, str]:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ecatlab.report import write_report
-
+    opt.check_input_file(args.file)
+    inputs = [args.file, *args.pathway_file]
+    target = opt.output_target(args, ("html", "htm"), inputs, what="HTML report")
     volcanoes = [parse_volcano(v) for v in args.volcano]
     routes = [parse_route(r) for r in args.routes]
+    pathways = opt.pathway_list(args)
+
+    from ecatlab.energies import read_energies
+    from ecatlab.report import write_report
+
+    table = read_energies(args.file, temperature=args.temperature)
+    surfaces = opt.check_surfaces(table, args.surface)
     path = write_report(
-        args.output,
-        args.file,
-        args.pathway,
+        target,
+        table,
+        pathways,
+        force=args.force,
+        inputs=inputs,
         pH=args.pH,
         scale=args.scale,
         temperature=args.temperature,
-        surfaces=args.surface,
+        surfaces=surfaces,
         top=args.top,
         volcanoes=volcanoes,
         routes=routes,

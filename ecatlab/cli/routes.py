@@ -6,6 +6,12 @@ import argparse
 import json
 import sys
 
+from ecatlab.cli import _options as opt
+from ecatlab.errors import OptionError, PathwayError
+
+FORMATS = ("csv", "markdown", "latex", "html", "json")
+_SUFFIXES = ("csv", "tsv", "md", "markdown", "tex", "latex", "html", "htm", "json")
+
 __all__ = ["register", "run"]
 
 
@@ -22,31 +28,54 @@ def register(subparsers) -> None:
     p.add_argument("file", metavar="FILE", help="energy table (CSV: surface, species, G or E + corrections; eV)")
     p.add_argument("--from", dest="reactant", required=True, help="reactant molecule, e.g. CO2, N2, O2 (phase optional); '2 CO2' starts with two (C2 products)")
     p.add_argument("--to", dest="product", help="product molecule, e.g. CH4, CO, HCOOH, NH3; omit to rank all products")
-    p.add_argument("--surface", nargs="+", metavar="S", help="only these surfaces")
-    p.add_argument("--pH", type=float, default=0.0, help="pH (default 0)")
-    p.add_argument("--scale", default="RHE", choices=["RHE", "SHE", "rhe", "she"], help="potential scale (default RHE)")
+    opt.add_surface(p)
+    opt.add_conditions(p)
     p.add_argument("--allow", nargs="+", metavar="X*", help="use only these adsorbates")
     p.add_argument("--forbid", action="append", default=[], metavar="STEP", help='leave out a step, e.g. "OCHO* + H+ + e- -> CO* + H2O(l)" (repeatable)')
-    p.add_argument("--sites", type=int, default=1, metavar="N", help="adsorbates on the surface at once (default 1; 2 for C-C coupling)")
+    p.add_argument("--sites", type=opt.int_range(1, 4), default=1, metavar="N", help="adsorbates on the surface at once (1 to 4, default 1; 2 for C-C coupling)")
     p.add_argument("--coupling", action="store_true", help="add chemical coupling steps X* + Y* -> Z* + * (needs --sites 2 or more), e.g. 2 CO* -> OCCO* + *")
-    p.add_argument("--top", type=int, default=1, help="routes per surface: 1 = best only, 3 = best and two runners-up")
-    p.add_argument("--chemical-limit", type=float, metavar="EV", help="block chemical steps with dG above this (eV); default: keep and report them")
+    p.add_argument("--top", type=opt.int_range(1, 50), default=1, help="routes per surface: 1 = best only, 3 = best and two runners-up (1 to 50)")
+    p.add_argument("--chemical-limit", type=opt.finite_float, metavar="EV", help="block chemical steps with dG above this (eV, finite); default: keep and report them")
     p.add_argument("--edges", action="store_true", help="print the table of all network steps with dG at 0 V instead")
-    p.add_argument("--format", default="csv", choices=["csv", "markdown", "json"], help="output format (default csv)")
+    p.add_argument("--format", type=str.lower, choices=FORMATS, default=None, help="output format (default: from the -o extension, else csv)")
+    p.add_argument("--decimals", type=opt.int_range(0, 12), default=4, help="decimals of the numbers in csv/markdown/latex/html (0 to 12, default 4)")
     p.add_argument("--figure", metavar="OUT", help="save a network figure (first surface, best route drawn) to OUT (.svg/.pdf/.png)")
+    opt.add_output(p, "table file to write instead of printing (.csv, .tsv, .md, .tex, .html, .json)")
     p.set_defaults(func=run)
 
 
 def run(args: argparse.Namespace) -> int:
+    from ecatlab import safe_io
+    from ecatlab.safe_io import check_output
+    from ecatlab.tables import table_format
+
+    opt.check_input_file(args.file)
+    target = opt.output_target(args, _SUFFIXES, [args.file], what="table")
+    kind = table_format(args.output, args.format) if args.output else (args.format or "csv")
+    if args.figure is not None:
+        check_output(args.figure, force=args.force, inputs=[args.file, args.output], suffixes=("svg", "pdf", "png"),
+                     option="--figure", what="network figure")
+        if target is not None and safe_io.same_file(target, args.figure):
+            raise OptionError("-o and --figure name the same file; give two different names")
+
     from ecatlab.energies import read_energies
     from ecatlab.network import NetworkAnalysis, build_network
 
-    table = read_energies(args.file)
+    table = read_energies(args.file, temperature=args.temperature)
+    surfaces = opt.check_surfaces(table, args.surface)
+    opt.check_species(table, args.allow or [], "--allow")
     options = dict(allow=args.allow, forbid=args.forbid, sites=args.sites, coupling=args.coupling)
-    net = build_network(table, args.reactant, **options)
+    try:
+        net = build_network(table, args.reactant, **options)
+    except PathwayError as exc:
+        raise opt.suggest_known(exc, args.reactant.split()[-1]) from None
     if args.product:
-        _check_reachable(table, args.reactant, args.product, net, options)
-    an = NetworkAnalysis(net, table, pH=args.pH, scale=args.scale.upper(), surfaces=args.surface, chemical_limit=args.chemical_limit)
+        try:
+            _check_reachable(table, args.reactant, args.product, net, options)
+        except PathwayError as exc:
+            raise opt.suggest_known(exc, args.product) from None
+    an = NetworkAnalysis(net, table, pH=args.pH, scale=args.scale, temperature=args.temperature, surfaces=surfaces,
+                         chemical_limit=args.chemical_limit)
     if args.edges:
         frame = an.edge_table(0.0)
     elif args.product:
@@ -57,17 +86,27 @@ def run(args: argparse.Namespace) -> int:
         f"{frame.attrs.get('quantity', '')}; {an.scale} scale, pH {an.pH:g}, {an.temperature:g} K; "
         f"{table.scheme.describe()}; energies from {table.source}. Theoretical estimates (CHE thermodynamics)."
     )
-    _write(frame, args.format, header)
+    sep = "\t" if target is not None and target.suffix.lower() == ".tsv" else ","
+    text = _render(frame, kind, header, args.decimals, sep)
+    figure = None
     if args.figure:
         import matplotlib
 
         matplotlib.use("Agg")
         from ecatlab.plotting.network import plot_network
 
-        surface = an.surfaces[0]
-        ax = plot_network(an, surface, args.product)
-        ax.figure.savefig(args.figure, bbox_inches="tight")
-        print(f"figure written to {args.figure} (surface {surface})", file=sys.stderr)
+        figure = plot_network(an, an.surfaces[0], args.product).figure
+    if figure is not None:  # written first: a failed figure write leaves no table output behind
+        from ecatlab.plotting.export import save_figure
+
+        save_figure(figure, args.figure, force=args.force, inputs=[args.file])
+    if target is None:
+        sys.stdout.write(text)
+    else:
+        safe_io.atomic_write_text(target, text, force=args.force, inputs=[args.file], what="table")
+        print(f"wrote {len(frame)} rows ({kind}) to {target}", file=sys.stderr)
+    if figure is not None:
+        print(f"figure written to {args.figure} (surface {an.surfaces[0]})", file=sys.stderr)
     return 0
 
 
@@ -104,14 +143,13 @@ def _check_reachable(table, reactant: str, product: str, net, options: dict) -> 
     raise PathwayError(f"{first}" + (f". {'; '.join(hints)}" if hints else ""))
 
 
-def _write(frame, fmt: str, header: str) -> None:
-    if fmt == "csv":
-        print(f"# {header}")
-        sys.stdout.write(frame.to_csv(index=False, float_format="%.4f"))
-    elif fmt == "markdown":
-        print(frame.to_markdown(index=False, floatfmt=".3f"))
-        print(f"\n{header}")
-    else:
+def _render(frame, fmt: str, header: str, decimals: int, sep: str = ",") -> str:
+    if fmt == "json":
         data = {"note": header, "attrs": {k: v for k, v in frame.attrs.items() if isinstance(v, (str, int, float, list, dict, type(None)))},
                 "rows": json.loads(frame.to_json(orient="records"))}
-        print(json.dumps(data, indent=1, default=str))
+        return json.dumps(data, indent=1, default=str) + "\n"
+    from ecatlab.tables import render_table
+
+    shown = frame.copy()
+    shown.attrs = {"caption": header, "columns": frame.attrs.get("columns", {}) if isinstance(frame.attrs.get("columns"), dict) else {}}
+    return render_table(shown, fmt, decimals=decimals, csv_comment=True, sep=sep)

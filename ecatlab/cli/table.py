@@ -3,31 +3,31 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
-from ecatlab.errors import PathwayError
+from ecatlab.cli import _options as opt
 
-FORMATS = ("csv", "markdown", "json")
+FORMATS = ("csv", "markdown", "latex", "html", "json")
+_SUFFIXES = ("csv", "tsv", "md", "markdown", "tex", "latex", "html", "htm", "json")
 
 
 def register(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser(
         "table",
-        help="print the limiting-potential table of an energy file",
-        description="Limiting potential, theoretical overpotential and potential-determining step per surface and pathway.",
+        help="print or write the limiting-potential table of an energy file",
+        description=(
+            "Limiting potential, theoretical overpotential and potential-determining step per surface and pathway. "
+            "Printed to the screen, or written with -o FILE (format from --format or the extension: .csv .tsv .md .tex .html .json)."
+        ),
     )
     p.add_argument("file", help="energy table (CSV: surface, species, G or E + ZPE/CpdT/TS[/solvation], eV)")
-    p.add_argument("--pathway", "-p", nargs="+", default=[], metavar="KEY", help="built-in pathway key(s); see 'ecatlab pathways'")
-    p.add_argument(
-        "--pathway-file", nargs="+", default=[], metavar="FILE",
-        help="your own pathway(s): text files with one step per line, e.g. 'OOH* + H+ + e- -> O* + H2O(l)' ('#' starts a comment)",
-    )
-    p.add_argument("--pH", type=float, default=0.0, help="pH (default 0)")
-    p.add_argument("--scale", choices=("RHE", "SHE"), default="RHE", type=str.upper, help="potential scale (default RHE)")
-    p.add_argument("--temperature", type=float, default=298.15, help="temperature in K (default 298.15)")
-    p.add_argument("--format", choices=FORMATS, default="csv", help="output format (default csv)")
-    p.add_argument("--decimals", type=int, default=3, help="decimals of potentials in csv/markdown (default 3)")
+    opt.add_pathways(p)
+    opt.add_conditions(p)
+    opt.add_surface(p)
+    p.add_argument("--format", type=str.lower, choices=FORMATS, default=None,
+                   help="output format (default: from the -o extension, else csv)")
+    p.add_argument("--decimals", type=opt.int_range(0, 12), default=3, help="decimals of the numbers (0 to 12, default 3; json keeps all)")
+    opt.add_output(p, "table file to write instead of printing (.csv, .tsv, .md, .tex, .html, .json)")
     p.set_defaults(func=run_table)
 
     q = sub.add_parser("pathways", help="list the built-in pathways", description="Built-in pathways with their overall reactions.")
@@ -36,60 +36,50 @@ def register(sub: argparse._SubParsersAction) -> None:
 
 
 def run_table(args: argparse.Namespace) -> int:
+    from ecatlab import safe_io
+    from ecatlab.tables import render_table, table_format
+
+    opt.check_input_file(args.file)
+    inputs = [args.file, *args.pathway_file]
+    target = opt.output_target(args, _SUFFIXES, inputs, what="table")
+    kind = table_format(args.output, args.format) if args.output else (args.format or "csv")
+    pathways = opt.pathway_list(args)
+
     from ecatlab.che import limiting_potentials
     from ecatlab.energies import read_energies
 
-    pathways = list(args.pathway) + [_read_pathway_file(f) for f in args.pathway_file]
-    if not pathways:
-        raise PathwayError("give at least one --pathway KEY or --pathway-file FILE (see 'ecatlab pathways')")
     table = read_energies(args.file, temperature=args.temperature)
-    result = limiting_potentials(table, pathways, pH=args.pH, scale=args.scale, temperature=args.temperature)
+    surfaces = opt.check_surfaces(table, args.surface)
+    result = limiting_potentials(table, pathways, pH=args.pH, scale=args.scale, temperature=args.temperature, surfaces=surfaces)
     cols = [
         "surface", "pathway", "limiting_potential", "equilibrium_potential", "overpotential",
         "determining_step", "max_chemical_dG", "uphill_chemical_steps", "missing_species",
     ]
-    out = result[cols]
-    caption = (
-        f"# Limiting potentials [V vs {args.scale}] at pH {args.pH:g}, T {args.temperature:g} K; overpotential [V]; "
-        f"max_chemical_dG [eV]. {table.scheme.describe()}. Source: {table.source}. "
-        "Theoretical estimates (CHE, thermodynamics only)."
-    )
-    if args.format == "json":
-        payload = {"conditions": {k: v for k, v in result.attrs.items() if k != "columns"}, "columns": result.attrs["columns"], "rows": json.loads(out.to_json(orient="records"))}
-        json.dump(payload, sys.stdout, indent=2, default=str)
-        sys.stdout.write("\n")
-    elif args.format == "markdown":
-        print(caption.lstrip("# "))
-        print()
-        print(_markdown(out.round(args.decimals)))
+    out = result[cols].copy()
+    out.attrs = {
+        "caption": (
+            f"Limiting potentials [V vs {args.scale}] at pH {args.pH:g}, T {args.temperature:g} K; overpotential [V]; "
+            f"max_chemical_dG [eV]. {table.scheme.describe()}. Source: {table.source}. "
+            "Theoretical estimates (CHE, thermodynamics only)."
+        ),
+        "conditions": {k: v for k, v in result.attrs.items() if k != "columns"},
+        "columns": {k: v for k, v in result.attrs.get("columns", {}).items() if k in cols},
+    }
+    sep = "\t" if target is not None and target.suffix.lower() == ".tsv" else ","
+    text = render_table(out, kind, decimals=args.decimals, csv_comment=True, sep=sep)
+    if target is None:
+        sys.stdout.write(text)
     else:
-        print(caption)
-        sys.stdout.write(out.round(args.decimals).to_csv(index=False))
+        safe_io.atomic_write_text(target, text, force=args.force, inputs=inputs, what="table")
+        print(f"wrote {len(out)} rows ({kind}) to {target}")
     return 0
 
 
 def _read_pathway_file(path: str):
-    import os
+    """Kept for callers of the old name: see :func:`ecatlab.notation.read_pathway_file`."""
+    from ecatlab.notation import read_pathway_file
 
-    from ecatlab.errors import NotationError
-    from ecatlab.notation import Pathway
-
-    if not os.path.isfile(path):
-        raise PathwayError(f"{path}: pathway file not found")
-    with open(path, encoding="utf-8") as fh:
-        text = fh.read()
-    name = os.path.splitext(os.path.basename(path))[0]
-    try:
-        return Pathway.parse(text, name=name)
-    except (NotationError, PathwayError) as exc:
-        raise PathwayError(f"{path}: {exc}") from None
-
-
-def _markdown(frame) -> str:
-    header = "| " + " | ".join(frame.columns) + " |"
-    rule = "|" + "|".join("---" for _ in frame.columns) + "|"
-    rows = ["| " + " | ".join("" if (isinstance(v, float) and v != v) else str(v) for v in row) + " |" for row in frame.itertuples(index=False)]
-    return "\n".join([header, rule] + rows)
+    return read_pathway_file(path)
 
 
 def run_pathways(args: argparse.Namespace) -> int:

@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
+import math
 
-from ecatlab.errors import ScalingError
+from ecatlab.cli import _options as opt
+from ecatlab.errors import ScalingError, clip, clip_path
 
 
 def register(sub: argparse._SubParsersAction) -> None:
@@ -20,17 +21,16 @@ def register(sub: argparse._SubParsersAction) -> None:
         ),
     )
     p.add_argument("file", help="energy table (CSV: surface, species, G or E + ZPE/CpdT/TS[/solvation], eV)")
-    p.add_argument("--pathway", "-p", required=True, metavar="KEY", help="built-in pathway key, e.g. orr-4e (see 'ecatlab pathways')")
+    opt.add_pathways(p, single=True)
     p.add_argument("--descriptor", "-d", required=True, help="descriptor adsorbate or combination, e.g. 'OH*' or 'O* - OH*'")
     p.add_argument("--fix-slope", nargs="+", default=[], metavar="X*=SLOPE", help="fix fitted slopes, e.g. OOH*=1 (fit only the intercept)")
     p.add_argument("--fit-against", metavar="X*", help="adsorbate to fit the other adsorbates against (default: the first adsorbate of the descriptor), e.g. OH* for -d 'O* - OH*'")
     p.add_argument("--relations", metavar="JSON", help="given scaling relations (list of ScalingRelation.to_dict() records); they take precedence over fits")
-    p.add_argument("--span", nargs=2, type=float, metavar=("LOW", "HIGH"), help="descriptor range in eV (default: surfaces ± 0.5 eV)")
-    p.add_argument("--pH", type=float, default=0.0, help="pH (default 0)")
-    p.add_argument("--scale", choices=("RHE", "SHE"), default="RHE", type=str.upper, help="potential scale (default RHE)")
-    p.add_argument("--temperature", type=float, default=298.15, help="temperature in K (default 298.15)")
+    p.add_argument("--span", nargs=2, type=opt.finite_float, metavar=("LOW", "HIGH"), help="descriptor range in eV (default: surfaces ± 0.5 eV)")
+    opt.add_conditions(p)
+    opt.add_surface(p)
     p.add_argument("--style", choices=("single", "double", "notebook"), default="notebook", help="figure size preset (default notebook)")
-    p.add_argument("--output", "-o", metavar="FIGURE", help="save the volcano (format from the extension: svg, pdf, png)")
+    opt.add_output(p, "volcano figure to save (.svg, .pdf or .png)", metavar="FIGURE")
     p.add_argument("--json", action="store_true", help="print the summary and the fit table as JSON instead of text")
     p.set_defaults(func=run)
 
@@ -42,9 +42,11 @@ def _fixed(items) -> dict[str, float]:
         try:
             out[key.strip()] = float(value)
         except ValueError:
-            raise ScalingError(f"--fix-slope {item!r}: write ADSORBATE=SLOPE, e.g. OOH*=1") from None
+            raise ScalingError(f"--fix-slope {clip(item)!r}: write ADSORBATE=SLOPE, e.g. OOH*=1") from None
         if not sep or not key.strip():
-            raise ScalingError(f"--fix-slope {item!r}: write ADSORBATE=SLOPE, e.g. OOH*=1")
+            raise ScalingError(f"--fix-slope {clip(item)!r}: write ADSORBATE=SLOPE, e.g. OOH*=1")
+        if not math.isfinite(out[key.strip()]):
+            raise ScalingError(f"--fix-slope {clip(item)!r}: the slope must be a finite number, e.g. OOH*=1")
     return out
 
 
@@ -53,28 +55,81 @@ def _relations(path: str | None):
 
     if not path:
         return []
+    shown = clip_path(path)
     try:
-        with open(path, encoding="utf-8") as fh:
-            data = json.load(fh)
+        with open(path, "rb") as fh:
+            raw = fh.read()
+    except FileNotFoundError:
+        raise ScalingError(f"--relations {shown}: file not found; give a JSON file of ScalingRelation.to_dict() records") from None
+    except IsADirectoryError:
+        raise ScalingError(f"--relations {shown}: is a folder; give a JSON file") from None
+    try:
+        data = json.loads(raw.decode("utf-8-sig"))
+    except UnicodeDecodeError as exc:
+        raise ScalingError(f"--relations {shown}: not UTF-8 text (byte offset {exc.start}); give a JSON file") from None
     except json.JSONDecodeError as exc:
-        raise ScalingError(f"{path}: not valid JSON ({exc.msg}, line {exc.lineno})") from None
+        raise ScalingError(f"{shown}: not valid JSON ({exc.msg}, line {exc.lineno})") from None
     if isinstance(data, dict):
         data = [data]
-    return [ScalingRelation.from_dict(d) for d in data]
+    if not isinstance(data, list):
+        raise ScalingError(f"--relations {shown}: expected a list of relation records (objects), found {type(data).__name__}")
+    out = []
+    for i, record in enumerate(data, start=1):
+        if not isinstance(record, dict):
+            raise ScalingError(f"--relations {shown}, record {i}: expected an object from ScalingRelation.to_dict(), found {type(record).__name__}")
+        try:
+            out.append(ScalingRelation.from_dict(record))
+        except ScalingError as exc:
+            raise ScalingError(f"--relations {shown}, record {i}: {exc}") from None
+        except (TypeError, ValueError, AttributeError, KeyError) as exc:
+            raise ScalingError(f"--relations {shown}, record {i}: a field has the wrong type ({clip(exc)}); "
+                               "write the records with ScalingRelation.to_dict()") from None
+    return out
 
 
 def run(args: argparse.Namespace) -> int:
+    opt.check_input_file(args.file)
+    inputs = [args.file, args.pathway_file, args.relations]
+    opt.output_target(args, ("svg", "pdf", "png"), inputs, what="volcano figure")
+    if bool(args.pathway) == bool(args.pathway_file):
+        raise ScalingError("give one pathway: --pathway KEY or --pathway-file FILE (see 'ecatlab pathways')")
+    (pathway,) = opt.pathway_list(args)
+    if args.span and not args.span[0] < args.span[1]:
+        raise ScalingError(f"--span {args.span[0]:g} {args.span[1]:g}: LOW must be below HIGH, e.g. --span -1 2")
+    relations = _relations(args.relations)
+    fixed = _fixed(args.fix_slope)
+
     from ecatlab.energies import read_energies
     from ecatlab.scaling import scaling_table
     from ecatlab.volcano import volcano
 
     table = read_energies(args.file, temperature=args.temperature)
+    surfaces = opt.check_surfaces(table, args.surface)
+    opt.check_species(table, opt.descriptor_species(args.descriptor), "--descriptor")
+    opt.check_species(table, [args.fit_against] if args.fit_against else [], "--fit-against")
+    opt.check_species(table, list(fixed), "--fix-slope")
+    if surfaces:
+        table = table.subset(surfaces)
     curve = volcano(
-        table, args.pathway, args.descriptor, relations=_relations(args.relations), fixed_slopes=_fixed(args.fix_slope),
+        table, pathway, args.descriptor, relations=relations, fixed_slopes=fixed,
         pH=args.pH, scale=args.scale, temperature=args.temperature, span=tuple(args.span) if args.span else None, fit_against=args.fit_against,
     )
     summary = curve.summary()
     fits = scaling_table(curve.relations)
+    if args.output:  # the figure is written before anything is printed: a failed write prints nothing
+        import matplotlib
+
+        matplotlib.use("Agg")
+        from ecatlab.plotting.export import save_figure
+        from ecatlab.plotting.volcano import plot_volcano
+
+        ax = plot_volcano(curve, style=args.style)
+        try:
+            save_figure(ax.figure, args.output, force=args.force, inputs=[i for i in inputs if i])
+        finally:
+            import matplotlib.pyplot as plt
+
+            plt.close(ax.figure)
     if args.json:
         print(json.dumps({"summary": json.loads(summary.to_json(orient="records")), "scaling": json.loads(fits.to_json(orient="records")),
                           "surfaces": json.loads(curve.surfaces.to_json(orient="records")), "conditions": curve.conditions}, indent=2, default=str))
@@ -98,15 +153,5 @@ def run(args: argparse.Namespace) -> int:
         print("surfaces (descriptor eV; exact and scaling-predicted limiting potential V):")
         print(surf.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
     if args.output:
-        import matplotlib
-
-        matplotlib.use("Agg")
-        from ecatlab.plotting.volcano import plot_volcano
-
-        ax = plot_volcano(curve, style=args.style)
-        folder = os.path.dirname(os.path.abspath(args.output))
-        if not os.path.isdir(folder):
-            raise ScalingError(f"{args.output}: folder {folder} does not exist")
-        ax.figure.savefig(args.output, bbox_inches="tight")
         print(f"figure written to {args.output}")
     return 0

@@ -173,24 +173,29 @@ def _stem(state: ExplorerState) -> str:
     return f"explorer_{name}_U{u}V{state.scale}_pH{state.pH:g}".replace(".", "p")
 
 
-def export_snapshot(state: ExplorerState, figure, folder: str | os.PathLike) -> list[pathlib.Path]:
+def export_snapshot(state: ExplorerState, figure, folder: str | os.PathLike, force: bool = False) -> list[pathlib.Path]:
     """Save the current diagram (PNG and SVG) and tables (CSV) into ``folder``.
 
     The CSV files start with ``#`` comment lines naming the pathway, the conditions, the reference
     scheme, the energy source, the units and the caution; :func:`ecatlab.read_energies`-style
-    readers and ``pandas.read_csv(comment="#")`` skip them.
+    readers and ``pandas.read_csv(comment="#")`` skip them. Text cells are neutralised against
+    spreadsheet formula injection; every file is written atomically, and existing files are
+    replaced only with ``force=True`` (all four targets are checked before anything is written).
 
     Returns
     -------
     list of Path
         Figure files, then ``*_steps.csv`` (dG per surface and step, eV) and ``*_limiting.csv``.
     """
+    from ecatlab import safe_io
     from ecatlab.plotting.export import save_figure
 
     folder = pathlib.Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
     stem = _stem(state)
-    paths = save_figure(figure, folder / stem, formats=("png", "svg"), dpi=200)
+    steps_path = folder / f"{stem}_steps.csv"
+    lim_path = folder / f"{stem}_limiting.csv"
+    for target in (folder / f"{stem}.png", folder / f"{stem}.svg", steps_path, lim_path):
+        safe_io.check_output(target, force=force, option="export folder", what="export file")
     header = [
         f"# ecatlab explorer export: pathway {state.pathway.name}"
         + (f" ({state.route.describe()}, network search)" if state.route is not None else ""),
@@ -200,16 +205,13 @@ def export_snapshot(state: ExplorerState, figure, folder: str | os.PathLike) -> 
         f"# {CAUTION}",
     ]
     steps = state.step_table()
-    steps_path = folder / f"{stem}_steps.csv"
-    with open(steps_path, "w", encoding="utf-8", newline="") as fh:
-        fh.write("\n".join(header + ["# values: step free energy dG_i in eV at the stated conditions; step equations:"]
-                           + [f"#   {i + 1}: {s.equation}" for i, s in enumerate(state.pathway.steps)]) + "\n")
-        steps.to_csv(fh)
     lim = state.limiting()
-    lim_path = folder / f"{stem}_limiting.csv"
-    with open(lim_path, "w", encoding="utf-8", newline="") as fh:
-        fh.write("\n".join(header + [f"# columns: {k} = {v}" for k, v in lim.attrs.get("columns", {}).items()]) + "\n")
-        lim.to_csv(fh, index=False, quoting=csv.QUOTE_MINIMAL)
+    paths = save_figure(figure, folder / stem, formats=("png", "svg"), dpi=200, force=force)
+    safe_io.write_csv(steps, steps_path, force=force, option="export folder",
+                      header_lines=header + ["# values: step free energy dG_i in eV at the stated conditions; step equations:"]
+                      + [f"#   {i + 1}: {s.equation}" for i, s in enumerate(state.pathway.steps)])
+    safe_io.write_csv(lim, lim_path, force=force, option="export folder", index=False, quoting=csv.QUOTE_MINIMAL,
+                      header_lines=header + [f"# columns: {k} = {v}" for k, v in lim.attrs.get("columns", {}).items()])
     return list(paths) + [steps_path, lim_path]
 
 
@@ -527,9 +529,14 @@ class Explorer:
         self._refresh()
 
     def _on_potential_entry(self, change) -> None:
-        value = float(change["new"])
+        from ecatlab.errors import ExplorerValueError
+
+        try:
+            value = float(change["new"])
+        except (TypeError, ValueError):
+            value = math.nan
         if not math.isfinite(value):
-            raise ValueError(f"potential {value!r} is not a number of volts")
+            raise ExplorerValueError(f"potential {change['new']!r} is not a finite number of volts; type a value such as 0.8")
         self.potential.value = value  # clamps (and says so); then _on_potential refreshes
         if self.potential.value != value:
             self._quiet += 1
@@ -617,10 +624,13 @@ class Explorer:
             self._quiet -= 1
         self._refresh()
 
-    def export(self, folder: str | os.PathLike | None = None) -> list[pathlib.Path]:
-        """Save the current figure and tables (see :func:`export_snapshot`); the paths are listed in the status line."""
+    def export(self, folder: str | os.PathLike | None = None, force: bool = False) -> list[pathlib.Path]:
+        """Save the current figure and tables (see :func:`export_snapshot`); the paths are listed in the status line.
+
+        Existing files are replaced only with ``force=True`` (the button never replaces them).
+        """
         with self.view.exporting() as figure:
-            self.exported = export_snapshot(self.state, figure, folder or self.export_folder.value)
+            self.exported = export_snapshot(self.state, figure, folder or self.export_folder.value, force=force)
         self._messages.append("exported: " + ", ".join(str(p) for p in self.exported))
         self._refresh()
         return self.exported

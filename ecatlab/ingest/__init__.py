@@ -78,6 +78,7 @@ def vibrational_corrections(
 def _correction_table(corrections) -> dict[str, dict[str, float]]:
     if corrections is None:
         return {}
+    from ecatlab.errors import NotationError
     from ecatlab.notation import Species
 
     frame = corrections if isinstance(corrections, pd.DataFrame) else None
@@ -86,7 +87,13 @@ def _correction_table(corrections) -> dict[str, dict[str, float]]:
         label = os.fspath(corrections)
         if not os.path.isfile(label):
             raise IngestError(label, "corrections file not found; expected CSV with columns species, ZPE, CpdT, TS (eV)")
-        frame = pd.read_csv(label, comment="#", skipinitialspace=True)
+        try:
+            frame = pd.read_csv(label, comment="#", skipinitialspace=True)
+        except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
+            from ecatlab.errors import clip
+
+            raise IngestError(label, f"not a readable CSV table ({clip(str(exc).strip(), 160)}); "
+                              "expected UTF-8 CSV with columns species, ZPE, CpdT, TS (eV)") from None
     missing = [c for c in ("species", "ZPE", "CpdT", "TS") if c not in frame.columns]
     if missing:
         raise IngestError(label, f"corrections table lacks column(s) {missing}; expected species, ZPE, CpdT, TS (eV)")
@@ -98,7 +105,13 @@ def _correction_table(corrections) -> dict[str, dict[str, float]]:
             raise IngestError(label, f"data row {i + 1}: ZPE, CpdT and TS must be numbers of eV") from None
         if any(v != v for v in values.values()):
             raise IngestError(label, f"data row {i + 1}: empty ZPE, CpdT or TS")
-        out[Species.parse(str(row["species"]).strip()).key] = values
+        if any(v in (float("inf"), float("-inf")) for v in values.values()):
+            raise IngestError(label, f"data row {i + 1}: ZPE, CpdT and TS must be finite numbers of eV")
+        try:
+            key = Species.parse(str(row["species"]).strip()).key
+        except NotationError as exc:
+            raise IngestError(label, f"data row {i + 1}, column species: {exc}") from None
+        out[key] = values
     return out
 
 

@@ -137,7 +137,9 @@ def _load_vasprun(path: Path):
                 exception_on_bad_xml=True,
             )
     except Exception as exc:  # pymatgen raises many types on broken files
-        raise IngestError(str(path), f"pymatgen cannot read this vasprun.xml ({type(exc).__name__}: {exc}); "
+        from ecatlab.errors import clip
+
+        raise IngestError(str(path), f"pymatgen cannot read this vasprun.xml ({type(exc).__name__}: {clip(exc, 160)}); "
                           "is the run finished and the file complete?") from None
 
 
@@ -246,8 +248,14 @@ def outcar_frequencies_cm(path: str | os.PathLike) -> np.ndarray:
     import gzip
 
     opener = gzip.open if p.suffix == ".gz" else open
-    with opener(p, "rt", errors="replace") as fh:
-        lines = fh.read().splitlines()
+    try:
+        with opener(p, "rb") as fh:
+            data = fh.read()
+    except (OSError, EOFError) as exc:  # a broken .gz
+        raise IngestError(str(p), f"cannot read this file ({type(exc).__name__}: {exc}); is it a complete OUTCAR?") from None
+    if bytes(1) in data[:65536]:
+        raise IngestError(str(p), "binary file (NUL bytes), not a VASP OUTCAR text file; give the OUTCAR of the vibration run")
+    lines = data.decode("utf-8", errors="replace").splitlines()
     start = next((i for i, line in enumerate(lines) if "Eigenvectors and eigenvalues of the dynamical matrix" in line), None)
     if start is None:
         raise IngestError(str(p), "no 'Eigenvectors and eigenvalues of the dynamical matrix' block; "

@@ -57,6 +57,8 @@ def save_figure(
     formats: str | Iterable[str] | None = None,
     dpi: float = 300,
     transparent: bool = False,
+    force: bool = False,
+    inputs: Iterable[str | os.PathLike] = (),
 ) -> list[pathlib.Path]:
     """Save a Figure (or the Figure of an Axes) as SVG, PDF and/or PNG.
 
@@ -74,6 +76,10 @@ def save_figure(
         element embedded in vector output).
     transparent : bool
         Transparent background.
+    force : bool
+        Replace existing files (default: refuse with :class:`~ecatlab.errors.OutputExistsError`).
+    inputs : iterable of path
+        Files the caller read; a target that is one of them is refused.
 
     Returns
     -------
@@ -82,30 +88,50 @@ def save_figure(
 
     Raises
     ------
-    ValueError
-        Unknown format or a suffix that is not one of :data:`FORMATS`.
+    OutputPathError
+        Unknown format or a suffix that is not one of :data:`FORMATS`, a folder, one of the
+        inputs; raised before anything is drawn. (Also a ``ValueError``.)
+    OutputExistsError
+        A target exists and ``force`` is false.
+
+    Notes
+    -----
+    Each file is written to a temporary file in its folder and moved into place with
+    ``os.replace``; a failure leaves any earlier file intact (see :mod:`ecatlab.safe_io`).
     """
+    from ecatlab import safe_io
+    from ecatlab.errors import OutputPathError, clip
+
     fig = getattr(fig, "figure", fig) if not hasattr(fig, "savefig") else fig
     target = pathlib.Path(path)
     if formats is None:
         suffix = target.suffix.lower().lstrip(".")
         if suffix not in FORMATS:
-            raise ValueError(f"cannot tell the format of {str(target)!r}: use a .svg, .pdf or .png suffix or pass formats=")
+            raise OutputPathError(
+                f"cannot tell the format of {clip(str(target))!r}: use a .svg, .pdf or .png suffix or pass formats="
+            )
         wanted = [suffix]
         paths = [target]
     else:
         wanted = [formats] if isinstance(formats, str) else list(formats)
         bad = [f for f in wanted if str(f).lower() not in FORMATS]
         if bad:
-            raise ValueError(f"unknown figure format(s) {bad}; use any of {list(FORMATS)}")
+            raise OutputPathError(f"unknown figure format(s) {[clip(b) for b in bad]}; use any of {list(FORMATS)}")
         wanted = [str(f).lower() for f in wanted]
         stem = target.with_suffix("") if target.suffix.lower().lstrip(".") in FORMATS else target
         paths = [stem.with_name(stem.name + "." + f) for f in wanted]
-    if dpi is None or not float(dpi) > 0:
-        raise ValueError(f"dpi must be a positive number, got {dpi!r}")
+    try:
+        ok = dpi is not None and float(dpi) > 0 and float(dpi) < 1e5
+    except (TypeError, ValueError):
+        ok = False
+    if not ok:
+        raise OutputPathError(f"dpi must be a positive number below 100000, got {clip(repr(dpi))}")
+    inputs = list(inputs)
+    for out in paths:
+        safe_io.check_output(out, force=force, inputs=inputs, suffixes=FORMATS, what="figure")
     for fmt, out in zip(wanted, paths):
-        out.parent.mkdir(parents=True, exist_ok=True)
-        _savefig(fig, out, fmt, float(dpi), transparent)
+        with safe_io.atomic_path(out, force=force, inputs=inputs, suffixes=FORMATS, what="figure") as tmp:
+            _savefig(fig, tmp, fmt, float(dpi), transparent)
     return paths
 
 
