@@ -534,9 +534,11 @@ class Pathway:
 
     @property
     def step_names(self) -> tuple[str, ...]:
-        """Short unique names of the steps: ``"1: OOH* -> O*"`` style, used as table columns."""
-        labels = self.labels
-        return tuple(f"{i + 1}: {labels[i]} → {labels[i + 1]}" for i in range(len(self.steps)))
+        """Short unique names of the steps, used as table columns: ``"2: OOH* → O* + H2O(l)"``.
+
+        Built from each step itself (what it consumes and what it forms, without H+, e- and empty
+        sites), not from the state labels, which count everything released so far."""
+        return tuple(f"{i + 1}: {_step_side(step.reactants)} → {_step_side(step.products)}" for i, step in enumerate(self.steps))
 
     def to_text(self) -> str:
         """One step per line, parseable by :meth:`parse`."""
@@ -578,6 +580,13 @@ class Pathway:
             f"<b>{escape(self.name)}</b> ({self.direction}, {abs(self.total_electrons):g} e<sup>-</sup>): "
             f"{escape(self.description)}<table><tr><th>#</th><th>step</th><th>kind</th></tr>{rows}</table>"
         )
+
+
+def _step_side(side: Iterable[tuple[Species, float]]) -> str:
+    """One side of a step for its short name: adsorbates and molecules with coefficients ('*' if none)."""
+    items = [(sp, c) for sp, c in side if not sp.is_charge_carrier and not sp.is_site]
+    ads = [(sp, c) for sp, c in items if sp.is_adsorbate] + [(sp, c) for sp, c in items if not sp.is_adsorbate]
+    return " + ".join(f"{_format_coef(c)}{sp.key}" for sp, c in ads) if ads else "*"
 
 
 def _state_label(side: Iterable[tuple[Species, float]]) -> str:

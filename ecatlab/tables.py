@@ -163,7 +163,7 @@ def limiting_potential_table(lp: pd.DataFrame, columns: Sequence[str] | None = N
     else:
         unknown = [k for k in columns if k not in _SPEC]
         if unknown:
-            raise ValueError(f"unknown column(s) {unknown}; choose from {list(_SPEC)}")
+            raise TableInputError(f"unknown column(s) {unknown}; choose from {list(_SPEC)}")
         cols = list(columns)
     frame = sort_by_ranking(lp) if sort else lp
     out = pd.DataFrame({_SPEC[k][0].format(scale=c["scale"]): frame[k].to_numpy() for k in cols})

@@ -43,7 +43,7 @@ def test_orr_apex_037(o_intercept):
     assert c.apex.descriptor[0] == pytest.approx(0.86, abs=0.01)
     assert c.apex.limiting_potential == pytest.approx(c.equilibrium_potential - c.apex.overpotential)
     assert not c.apex.at_boundary
-    assert set(c.apex.determining_steps) == {"1: O2 → OOH*", "4: OH* → H2O"}
+    assert set(c.apex.determining_steps) == {"1: O2(g) → OOH*", "4: OH* → H2O(l)"}
     # exact apex is at least as good as every grid point, and the grid gets close
     assert c.limiting_potential.max() <= c.apex.limiting_potential + 1e-12
     assert c.limiting_potential.max() == pytest.approx(c.apex.limiting_potential, abs=0.01)
@@ -193,4 +193,4 @@ def test_frames_carry_conditions(demo):
     f = c.to_frame()
     assert f.attrs["pH"] == 1.0 and f.attrs["scale"] == "RHE" and f.attrs["descriptor"] == "O* - OH*"
     assert np.all(np.diff(f["descriptor"]) > 0)
-    assert "onset 1: H2O → OH*" in f.columns
+    assert "onset 1: H2O(l) → OH*" in f.columns

@@ -289,7 +289,7 @@ def step_free_energies(
     Returns
     -------
     DataFrame
-        Index: surface; columns: step names (``"1: O2 → OOH*"``); values: dG_i(U) in eV.
+        Index: surface; columns: step names (``"1: O2(g) → OOH*"``); values: dG_i(U) in eV.
         ``.attrs`` holds the conditions, the pathway steps and the reference scheme.
     """
     sc = _check_conditions(scale, pH, temperature)

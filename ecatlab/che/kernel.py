@@ -51,6 +51,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from ecatlab.errors import OptionError, PathwayError
+
 __all__ = [
     "ELECTROCHEMICAL_TOLERANCE",
     "electrochemical_mask",
@@ -131,7 +133,7 @@ def envelope_of_lines(lines, direction: str, mask=None) -> tuple[np.ndarray, np.
     lines = np.asarray(lines, dtype=float)
     idx_all = np.arange(lines.shape[-1]) if mask is None else np.flatnonzero(np.asarray(mask, dtype=bool))
     if idx_all.size == 0:
-        raise ValueError("no step takes part in the envelope")
+        raise PathwayError("no step takes part in the envelope")
     part = lines[..., idx_all]
     nan = np.isnan(part)
     if direction == "reduction":
@@ -139,7 +141,7 @@ def envelope_of_lines(lines, direction: str, mask=None) -> tuple[np.ndarray, np.
     elif direction == "oxidation":
         local = np.argmax(np.where(nan, -np.inf, part), axis=-1)
     else:
-        raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+        raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
     value = np.take_along_axis(part, local[..., None], axis=-1)[..., 0]
     return np.where(nan.any(axis=-1), np.nan, value), idx_all[local]
 
@@ -161,7 +163,7 @@ def potential_equivalents(a, n, equilibrium_potential, direction: str) -> np.nda
         return u_eq - dG
     if direction == "oxidation":
         return u_eq + dG
-    raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+    raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
 
 
 def envelope(a, n, direction: str) -> tuple[np.ndarray, np.ndarray]:
@@ -185,10 +187,10 @@ def envelope(a, n, direction: str) -> tuple[np.ndarray, np.ndarray]:
     a = np.asarray(a, dtype=float)
     n = np.asarray(n, dtype=float)
     if n.ndim != 1:
-        raise ValueError("envelope takes one electron vector n (n_steps,) for all rows")
+        raise OptionError("envelope takes one electron vector n (n_steps,) for all rows")
     ec = electrochemical_mask(n)
     if not ec.any():
-        raise ValueError("a pathway without electrochemical steps has no limiting potential")
+        raise PathwayError("a pathway without electrochemical steps has no limiting potential")
     return envelope_of_lines(onset_potentials(a, n), direction, mask=ec)
 
 
@@ -197,7 +199,7 @@ def equilibrium_potential_from_affine(a, n) -> np.ndarray:
     a = np.asarray(a, dtype=float)
     total_n = float(np.sum(n))
     if abs(total_n) <= ELECTROCHEMICAL_TOLERANCE:
-        raise ValueError("the overall reaction transfers no electrons; it has no equilibrium potential")
+        raise PathwayError("the overall reaction transfers no electrons; it has no equilibrium potential")
     return -a.sum(axis=-1) / total_n
 
 
@@ -213,7 +215,7 @@ def signed_overpotential(limiting_potential, equilibrium_potential, direction: s
         return u_eq - u_l
     if direction == "oxidation":
         return u_l - u_eq
-    raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+    raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
 
 
 def chemical_obstacle(a, n) -> tuple[np.ndarray, np.ndarray]:
@@ -278,7 +280,7 @@ def is_blocked(max_chemical_dG, tolerance: float = BLOCKING_TOLERANCE_EV) -> np.
     m = np.asarray(max_chemical_dG, dtype=float)
     tol = float(tolerance)
     if not np.isfinite(tol) or tol < 0:
-        raise ValueError(f"blocking tolerance must be a finite number of eV >= 0, got {tolerance!r}")
+        raise OptionError(f"blocking tolerance must be a finite number of eV >= 0 (e.g. 0.1), got {tolerance!r}")
     return np.nan_to_num(m, nan=-np.inf) > tol
 
 
@@ -305,4 +307,4 @@ def effective_limiting_potential(g_max, equilibrium_potential, direction: str) -
         return u_eq - g
     if direction == "oxidation":
         return u_eq + g
-    raise ValueError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+    raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")

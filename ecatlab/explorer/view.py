@@ -43,7 +43,9 @@ _PRESET = "notebook"
 def render_mode(requested: str = "auto") -> str:
     """``"ipympl"`` when asked for or when the ipympl backend is active, else ``"inline"``."""
     if requested not in ("auto", "ipympl", "inline"):
-        raise ValueError(f"render must be 'auto', 'ipympl' or 'inline', got {requested!r}")
+        from ecatlab.errors import OptionError
+
+        raise OptionError(f"render must be 'auto', 'ipympl' or 'inline', got {requested!r}")
     if requested != "auto":
         return requested
     import matplotlib

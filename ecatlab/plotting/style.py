@@ -18,6 +18,8 @@ notebook    240     130      11
 
 from __future__ import annotations
 
+from ecatlab.errors import OptionError
+
 from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Iterator
@@ -102,7 +104,7 @@ def preset(name: str | Preset = "notebook") -> Preset:
     try:
         return PRESETS[name]
     except KeyError:
-        raise ValueError(f"unknown style preset {name!r}; use one of {sorted(PRESETS)}") from None
+        raise OptionError(f"unknown style preset {name!r}; use one of {sorted(PRESETS)}") from None
 
 
 @contextmanager

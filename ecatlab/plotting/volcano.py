@@ -7,6 +7,8 @@ and the theoretical-estimate caution (save with ``bbox_inches="tight"`` to keep 
 
 from __future__ import annotations
 
+from ecatlab.errors import OptionError
+
 import numpy as np
 
 from ecatlab.plotting.style import DASHES, MARKERS, PALETTE, figure, preset, style_context
@@ -196,7 +198,7 @@ def plot_activity_map(amap: ActivityMap, ax=None, style: str = "notebook", quant
     import matplotlib.pyplot as plt
 
     if quantity not in ("limiting_potential", "overpotential"):
-        raise ValueError(f"quantity must be 'limiting_potential' or 'overpotential', got {quantity!r}")
+        raise OptionError(f"quantity must be 'limiting_potential' or 'overpotential', got {quantity!r}")
     p = preset(style)
     sc = amap.conditions["scale"]
     with style_context(p):
