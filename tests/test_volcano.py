@@ -57,7 +57,7 @@ def test_oer_apex_037_with_difference_descriptor(oh_intercept):
     assert c.direction == "oxidation"
     assert c.apex.overpotential == pytest.approx(0.37, abs=0.005)
     assert c.apex.descriptor[0] == pytest.approx(1.6, abs=0.01)
-    assert set(c.apex.determining_steps) == {"2: OH* → O*", "3: O* → OOH*"}
+    assert set(c.apex.determining_steps) == {"2: OH* → O*", "3: O* + H2O(l) → OOH*"}
     assert c.limiting_potential.min() >= c.apex.limiting_potential - 1e-12
 
 
