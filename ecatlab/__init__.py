@@ -87,6 +87,16 @@ _EXPORTS: dict[str, str] = {
     "explore": "ecatlab.explorer",
     "Explorer": "ecatlab.explorer",
     "ExplorerState": "ecatlab.explorer",
+    # uncertainty (error models, propagation, ensemble readers)
+    "propagate_uncertainty": "ecatlab.uncertainty",
+    "GaussianErrors": "ecatlab.uncertainty",
+    "DescriptorErrors": "ecatlab.uncertainty",
+    "CovarianceErrors": "ecatlab.uncertainty",
+    "EnsembleErrors": "ecatlab.uncertainty",
+    "UncertaintyResult": "ecatlab.uncertainty",
+    "read_beef_ensemble": "ecatlab.ingest.ensembles",
+    "read_deviations": "ecatlab.ingest.ensembles",
+    "ensemble_from_structures": "ecatlab.ingest.ensembles",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

@@ -176,3 +176,7 @@ class CorrectionWarning(EcatlabWarning):
 class ScalingError(EcatlabError, ValueError):
     """A scaling-relation fit or a volcano/map built on scaling relations cannot be done
     (too few surfaces, an adsorbate not tied to the descriptors, dependent descriptors...)."""
+
+
+class UncertaintyError(EcatlabError, ValueError):
+    """An error model, ensemble or uncertainty request is inconsistent (names the item and the fix)."""
