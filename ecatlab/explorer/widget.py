@@ -318,6 +318,9 @@ class Explorer:
 
         self.volcano = VolcanoPanel(error_line=self.error)
         self.volcano.sync_options(s.reaction, s.pathway)
+        from ecatlab.explorer.uncertainty_tab import UncertaintyPanel
+
+        self.uncertainty = UncertaintyPanel(error_line=self.error, state_getter=lambda: self.state, visible_getter=lambda: self.tabs.selected_index == 0)
         self._wire()
         self._shown_heading = self._heading()
         self.view.rebuild(s, self._shown_heading)
@@ -332,6 +335,7 @@ class Explorer:
                 self.table,
                 w.HBox([self.export_folder, self.export_button]),
                 self.status,
+                self.uncertainty.widget,  # "show uncertainty" option (ecatlab.explorer.uncertainty_tab)
             ]
         )
         # the diagram tab comes first and is the one shown; the volcano tab is drawn when opened
@@ -481,6 +485,10 @@ class Explorer:
             self.volcano.refresh(self.state, self.volcano.descriptor.value, visible=self.tabs.selected_index == 1)
         except Exception as exc:  # the volcano tab shows a placeholder; the reason goes to the error line
             self._show_volcano_error(exc)
+        try:  # the uncertainty tab: sampled only while visible and ticked
+            self.uncertainty.refresh(self.state, visible=self.tabs.selected_index == 0)
+        except Exception as exc:
+            self._show_error(exc, "uncertainty")
 
     # -- callbacks (thin) ------------------------------------------------------------------------------
     def _on_potential(self, change) -> None:
