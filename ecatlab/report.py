@@ -639,6 +639,7 @@ def build_report(
     command: str | None = None,
     title: str | None = None,
     banner: str | None = None,
+    uncertainty: Sequence[tuple] = (),
 ) -> str:
     """Analyse and render in one call; returns the HTML text (figures are closed afterwards).
 
@@ -648,12 +649,19 @@ def build_report(
         One :func:`volcano_section` each, e.g. ``[("orr-4e", "OH*")]``.
     routes : sequence of (reactant, product)
         One :func:`routes_section` each, e.g. ``[("CO2", "CH4")]``.
+    uncertainty : sequence of (pathway, error model[, n_samples])
+        One :func:`ecatlab.uncertainty.report_section.uncertainty_section` each.
 
     The extra sections come after ``sections``; they use the same conditions and surfaces.
     """
     analysis = analyse(energies, pathways, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces, top=top)
     try:
         extra = _extra_sections(analysis.table, volcanoes, routes, pH, scale, temperature, surfaces, "double")
+        if uncertainty:  # (pathway, error model[, n_samples]) each: ecatlab.uncertainty.report_section
+            from ecatlab.uncertainty.report_section import uncertainty_section
+
+            extra += [uncertainty_section(analysis.table, u[0], u[1], n_samples=(u[2] if len(u) > 2 else 1000), pH=pH, scale=scale,
+                                          temperature=temperature, surfaces=surfaces) for u in uncertainty]
         if volcanoes:
             analysis.parameters["volcanoes"] = [tuple(v) for v in volcanoes]
         if routes:
