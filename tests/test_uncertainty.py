@@ -357,3 +357,17 @@ def test_probabilities_are_consistent(sigma, corr, rho_s, seed, top):
     s = res.summary()
     ok = s["std"].notna()
     assert (s.loc[ok, "std"] >= 0).all() and (s.loc[ok, "low"] <= s.loc[ok, "high"]).all()
+
+
+@pytest.mark.filterwarnings("ignore::ecatlab.errors.MissingDataWarning")
+def test_missing_adsorbate_gives_nan_and_ranks_last():
+    wide = pd.DataFrame({"OH*": [0.8, 1.0, 0.9], "O*": [1.9, 2.2, np.nan], "OOH*": [4.0, 4.2, 4.1]}, index=["A", "B", "C"])
+    table = EnergyTable.from_matrix(wide)
+    res = propagate(table, "orr-4e", GaussianErrors(0.1), n_samples=100, seed=0)
+    ps = res.results["orr-4e"]
+    assert np.isnan(ps.limiting_potential[:, 2]).all() and (ps.determining_step[:, 2] == -1).all()
+    rank = res.ranking("orr-4e")
+    assert rank.loc["C", "p_best"] == 0.0 and rank.loc["C", "mean_rank"] == 3.0
+    assert rank["p_best"].sum() == pytest.approx(1.0)
+    steps = res.determining_steps()
+    assert steps.loc[steps["surface"] == "C", "probability"].sum() == 0.0

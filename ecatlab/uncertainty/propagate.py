@@ -383,7 +383,8 @@ class UncertaintyResult:
     def state_samples(self, pathway, surface: str, potential: float = 0.0) -> np.ndarray:
         """Free energies of the states of ``pathway`` on one surface at ``potential`` (V vs scale),
         per sample: array (samples, n_states), first state 0 eV. The same samples as the tables
-        (the sampler is re-run with the same seed, surfaces and species)."""
+        (the sampler is re-run with the same seed, surfaces and species: one pass of the sampler,
+        about the cost of drawing the samples once)."""
         inp = self.inputs
         names = list(self.surfaces)
         if surface not in names:
