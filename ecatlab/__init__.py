@@ -97,6 +97,8 @@ _EXPORTS: dict[str, str] = {
     "read_beef_ensemble": "ecatlab.ingest.ensembles",
     "read_deviations": "ecatlab.ingest.ensembles",
     "ensemble_from_structures": "ecatlab.ingest.ensembles",
+    "network_uncertainty": "ecatlab.uncertainty.network",
+    "volcano_band": "ecatlab.uncertainty.volcano",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

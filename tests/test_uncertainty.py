@@ -371,3 +371,18 @@ def test_missing_adsorbate_gives_nan_and_ranks_last():
     assert rank["p_best"].sum() == pytest.approx(1.0)
     steps = res.determining_steps()
     assert steps.loc[steps["surface"] == "C", "probability"].sum() == 0.0
+
+
+def test_threads_give_the_same_numbers():
+    table = ecatlab.demo_energies()
+    keys = list(BUILTIN_PATHWAYS)
+    model = GaussianErrors(0.1, 0.5)
+    one = propagate(table, keys, model, n_samples=120, seed=6, keep_species=["OH*"])
+    two = propagate(table, keys, model, n_samples=120, seed=6, keep_species=["OH*"], workers=3)
+    for key in keys:
+        for q in ("limiting_potential", "G_max", "max_chemical_dG"):
+            assert np.array_equal(one.results[key].quantity(q), two.results[key].quantity(q), equal_nan=True)
+        assert np.array_equal(one.results[key].blocked, two.results[key].blocked)
+    assert np.array_equal(one.species_samples["OH*"], two.species_samples["OH*"])
+    with pytest.raises(UncertaintyError, match="workers"):
+        propagate(table, "orr-4e", model, n_samples=10, workers=0)

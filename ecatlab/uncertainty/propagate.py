@@ -431,6 +431,17 @@ def _molecule_matrix(steps, molecules: Sequence[str]) -> np.ndarray | None:
     return c
 
 
+def _balanced_groups(sizes: Sequence[int], workers: int) -> list[list[int]]:
+    """Split pathway indices into at most ``workers`` groups of similar total step count (largest first)."""
+    groups: list[list[int]] = [[] for _ in range(min(workers, len(sizes)))]
+    load = [0] * len(groups)
+    for i in sorted(range(len(sizes)), key=lambda k: -sizes[k]):
+        g = load.index(min(load))
+        groups[g].append(i)
+        load[g] += sizes[i]
+    return [sorted(g) for g in groups if g]
+
+
 def _single_threaded_blas():
     """Limit BLAS to one thread: the (rows x few) @ (few x few) products of the propagation run
     several times faster single-threaded than with threads competing for the cores."""
@@ -490,6 +501,7 @@ def propagate(
     members: str = "all",
     keep_species: Sequence[str] = (),
     progress: bool | None = None,
+    workers: int = 1,
 ) -> UncertaintyResult:
     """Propagate an error model through the CHE analysis of one or more pathways.
 
@@ -517,6 +529,9 @@ def propagate(
         Adsorbates whose sampled G (eV) to keep, e.g. a volcano descriptor.
     progress : bool, optional
         tqdm bar over the chunks; default on for long runs.
+    workers : int
+        Threads that share the pathways of each chunk (numpy releases the GIL in the kernel's
+        array operations); 1 (default) runs in the calling thread. Same numbers for any value.
 
     Returns
     -------
@@ -587,9 +602,25 @@ def propagate(
         from tqdm.auto import tqdm
 
         iterator = tqdm(iterator, total=p.n_chunks, desc="propagating samples", unit="chunk")
+    if not isinstance(workers, (int, np.integer)) or isinstance(workers, bool) or workers < 1:
+        raise UncertaintyError(f"workers must be a positive integer, got {workers!r}")
+    groups = _balanced_groups([len(pth.steps) for pth in paths], int(workers))
     with _single_threaded_blas():
-        for ch in iterator:
-            _propagate_chunk(ch, base, paths, compiled, cols, store, kept, kept_cols, pH, sc, temperature)
+        if len(groups) == 1:
+            for ch in iterator:
+                _propagate_chunk(ch, base, paths, compiled, cols, store, kept, kept_cols, pH, sc, temperature)
+        else:
+            from concurrent.futures import ThreadPoolExecutor
+
+            def part(ch, idx):
+                sel = lambda seq: [seq[i] for i in idx]  # noqa: E731
+                _propagate_chunk(ch, base, sel(paths), sel(compiled), sel(cols), sel(store), kept if idx == groups[0] else {},
+                                 kept_cols if idx == groups[0] else {}, pH, sc, temperature)
+
+            with ThreadPoolExecutor(max_workers=len(groups)) as pool:
+                for ch in iterator:
+                    for f in [pool.submit(part, ch, idx) for idx in groups]:
+                        f.result()
     results = {}
     for path, st in zip(paths, store):
         u_eq = st["U_eq"] if st["U_eq"] is not None else float(kernel.equilibrium_potential_from_affine(*st["eq_affine"])[0]) + 0.0
