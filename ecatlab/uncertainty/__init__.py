@@ -1,7 +1,11 @@
 """Uncertainty of CHE results: error models, one seeded sampler, propagation through the kernel.
 
-Pure computation (no files, plots or widgets). Readers for ensemble files live in
-:mod:`ecatlab.ingest.ensembles`, figures in :mod:`ecatlab.plotting.uncertainty`.
+Pure computation (no files, plots or widgets): :mod:`~ecatlab.uncertainty.models`,
+:mod:`~ecatlab.uncertainty.sampler`, :mod:`~ecatlab.uncertainty.propagate`, network read-outs in
+:mod:`~ecatlab.uncertainty.network`, the volcano band in :mod:`~ecatlab.uncertainty.volcano`.
+Readers for ensemble files live in :mod:`ecatlab.ingest.ensembles`, figures in
+:mod:`ecatlab.plotting.uncertainty`, the report section in
+:mod:`ecatlab.uncertainty.report_section` (presentation; the computation never imports it).
 Results are theoretical estimates.
 """
 
