@@ -128,7 +128,7 @@ class UncertaintyPanel:
         with style_context(p):
             plot_ranking_probabilities(self.result, state.pathway.name, top=min(3, len(state.surfaces)), ax=self.ax_rank, caption=False)
             plot_determining_step_probabilities(self.result, state.pathway.name, ax=self.ax_diagram, caption=False)
-        self.figure.tight_layout()
+        self.figure.subplots_adjust(left=0.2, right=0.62, top=0.94, bottom=0.07, hspace=0.45)  # fixed: no extra layout draw
         buf = io.BytesIO()
         self.figure.savefig(buf, format="png", dpi=_DPI, facecolor="white")
         self.last_png = buf.getvalue()
