@@ -386,3 +386,17 @@ def test_threads_give_the_same_numbers():
     assert np.array_equal(one.species_samples["OH*"], two.species_samples["OH*"])
     with pytest.raises(UncertaintyError, match="workers"):
         propagate(table, "orr-4e", model, n_samples=10, workers=0)
+
+
+@settings(max_examples=30, deadline=None)
+@given(
+    sig=st.lists(st.floats(0.0, 0.5), min_size=1, max_size=6),
+    rho=st.floats(0.0, 1.0),
+)
+def test_covariance_factor_reproduces_the_covariance(sig, rho):
+    """L L^T = Sigma for every model covariance (equicorrelated blocks are PSD for 0 <= rho <= 1)."""
+    species = ["OH*", "O*", "OOH*", "H*", "CO*", "NNH*"][: len(sig)]
+    model = GaussianErrors(dict(zip(species, sig)), correlation=rho)
+    cov = model.species_covariance(species)
+    L = sampler.covariance_factor(cov)
+    np.testing.assert_allclose(L @ L.T, cov, atol=1e-12)
