@@ -19,6 +19,7 @@ from ecatlab.plotting.uncertainty import (  # noqa: E402
 )
 from ecatlab.uncertainty import GaussianErrors, propagate  # noqa: E402
 from ecatlab.uncertainty.volcano import volcano_band  # noqa: E402
+from ecatlab.volcano import volcano  # noqa: E402
 
 
 @pytest.fixture(scope="module")
@@ -59,7 +60,7 @@ def test_volcano_band_without_errors_is_the_volcano_line():
     from ecatlab.uncertainty import DescriptorErrors
 
     table = ecatlab.demo_energies()
-    curve = ecatlab.volcano(table, "orr-4e", "OH*")
+    curve = volcano(table, "orr-4e", "OH*")
     band = volcano_band(curve, table, model=DescriptorErrors("OH*", 0.0, default_slope=0.0), n_samples=10)
     np.testing.assert_array_equal(band.median, curve.limiting_potential)
     default = volcano_band(curve, table, n_samples=200, seed=1)
