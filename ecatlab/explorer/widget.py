@@ -485,7 +485,7 @@ class Explorer:
             self.volcano.refresh(self.state, self.volcano.descriptor.value, visible=self.tabs.selected_index == 1)
         except Exception as exc:  # the volcano tab shows a placeholder; the reason goes to the error line
             self._show_volcano_error(exc)
-        try:  # the uncertainty tab: sampled only while visible and ticked
+        try:  # the "show uncertainty" option: sampled only when ticked, on the diagram tab
             self.uncertainty.refresh(self.state, visible=self.tabs.selected_index == 0)
         except Exception as exc:
             self._show_error(exc, "uncertainty")
