@@ -104,6 +104,18 @@ _EXPORTS: dict[str, str] = {
     # safe output and pathway files (hostile-input handling)
     "read_pathway_file": "ecatlab.notation",
     "render_table": "ecatlab.tables",
+    # uncertainty (error models, propagation, ensemble readers)
+    "propagate_uncertainty": "ecatlab.uncertainty",
+    "GaussianErrors": "ecatlab.uncertainty",
+    "DescriptorErrors": "ecatlab.uncertainty",
+    "CovarianceErrors": "ecatlab.uncertainty",
+    "EnsembleErrors": "ecatlab.uncertainty",
+    "UncertaintyResult": "ecatlab.uncertainty",
+    "read_beef_ensemble": "ecatlab.ingest.ensembles",
+    "read_deviations": "ecatlab.ingest.ensembles",
+    "ensemble_from_structures": "ecatlab.ingest.ensembles",
+    "network_uncertainty": "ecatlab.uncertainty.network",
+    "volcano_band": "ecatlab.uncertainty.volcano",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

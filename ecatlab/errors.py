@@ -274,3 +274,7 @@ def clip_path(value: Any, limit: int = 160) -> str:
         return clip(full, limit)
     tail = limit - 45
     return f"{clip(full[:40], 40)}...{clip(full[-tail:], tail)}"
+
+
+class UncertaintyError(EcatlabError, ValueError):
+    """An error model, ensemble or uncertainty request is inconsistent (names the item and the fix)."""

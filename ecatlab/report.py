@@ -683,6 +683,7 @@ def build_report(
     banner: str | None = None,
     descriptors: bool = False,
     surface_states=None,
+    uncertainty: Sequence[tuple] = (),
 ) -> str:
     """Analyse and render in one call; returns the HTML text (figures are closed afterwards).
 
@@ -692,6 +693,8 @@ def build_report(
         One :func:`volcano_section` each, e.g. ``[("orr-4e", "OH*")]``.
     routes : sequence of (reactant, product)
         One :func:`routes_section` each, e.g. ``[("CO2", "CH4")]``.
+    uncertainty : sequence of (pathway, error model[, n_samples])
+        One :func:`ecatlab.uncertainty.report_section.uncertainty_section` each.
 
     The extra sections come after ``sections``; they use the same conditions and surfaces.
     ``descriptors=True`` adds :func:`ecatlab.descriptors.descriptor_section`; ``surface_states``
@@ -703,6 +706,11 @@ def build_report(
             warnings.simplefilter("always")
             extra = _extra_sections(analysis.table, volcanoes, routes, pH, scale, temperature, surfaces, "double")
         _scientific_warnings(caught, into=analysis.warnings)
+        if uncertainty:  # (pathway, error model[, n_samples]) each: ecatlab.uncertainty.report_section
+            from ecatlab.uncertainty.report_section import uncertainty_section
+
+            extra += [uncertainty_section(analysis.table, u[0], u[1], n_samples=(u[2] if len(u) > 2 else 1000), pH=pH, scale=scale,
+                                          temperature=temperature, surfaces=surfaces) for u in uncertainty]
         if volcanoes:
             analysis.parameters["volcanoes"] = [tuple(v) for v in volcanoes]
         if routes:

@@ -85,6 +85,7 @@ def test_notebooks_exist():
         "03_co2_reduction_products.ipynb",
         "04_nitrogen_reduction.ipynb",
         "05_bring_your_own_data.ipynb",
+        "06_uncertainty.ipynb",
         "09_descriptors_and_pourbaix.ipynb",
     ]
 
@@ -221,3 +222,17 @@ def test_descriptors_and_pourbaix(python3_kernel, kernel_env, tmp_path):
     slope = float(check.split("slope ")[1].split(" V")[0])
     ref = float(check.split("e = ")[1].split(" V")[0])
     assert slope == pytest.approx(ref, abs=1e-6)  # -k_B T ln10 / e (Hansen, Rossmeisl, Norskov, PCCP 10, 3722 (2008))
+
+
+def test_uncertainty(python3_kernel, kernel_env, tmp_path):
+    from ecatlab.demo import demo_energies
+    from ecatlab.uncertainty import GaussianErrors, propagate
+
+    nb = run_notebook(ROOT / "notebooks" / "06_uncertainty.ipynb", tmp_path)
+    assert_figures(nb, "uncertainty")
+    assert "largest difference to limiting_potentials: 0.0" in text_of(tagged(nb, "uncertainty-check")[0])
+    # the ranking table shown equals the library's on the same model and seed
+    ref = propagate(demo_energies(), ["orr-4e", "oer-4e", "co2rr-co"], GaussianErrors(0.1, 0.5, surface_correlation=0.3),
+                    n_samples=2000, seed=2026).ranking("orr-4e", top=3)
+    shown = text_of(tagged(nb, "uncertainty-ranking")[0])
+    assert ref.index[0] in shown.splitlines()[2] and f"{ref['p_best'].iloc[0]:.3f}".rstrip("0") in shown

@@ -328,6 +328,9 @@ class Explorer:
         self.volcano = VolcanoPanel(error_line=self.error)
         self.volcano.sync_options(s.reaction, s.pathway)
         self.pourbaix = None  # the "surface states" tab, added by add_surface_states_tab()
+        from ecatlab.explorer.uncertainty_tab import UncertaintyPanel
+
+        self.uncertainty = UncertaintyPanel(error_line=self.error, state_getter=lambda: self.state, visible_getter=lambda: self.tabs.selected_index == 0)
         self._wire()
         self._shown_heading = self._heading()
         self.view.rebuild(s, self._shown_heading)
@@ -342,6 +345,7 @@ class Explorer:
                 self.table,
                 w.HBox([self.export_folder, self.export_button]),
                 self.status,
+                self.uncertainty.widget,  # "show uncertainty" option (ecatlab.explorer.uncertainty_tab)
             ]
         )
         # the diagram tab comes first and is the one shown; the volcano tab is drawn when opened
@@ -497,6 +501,10 @@ class Explorer:
             except Exception as exc:  # the surface-states tab shows a placeholder; the reason goes to the error line
                 self.errors.append(exc)
                 self.error.value = f'<div style="color:#9B1C1C"><b>{html.escape(type(exc).__name__)}</b> (surface states tab): {html.escape(str(exc))}</div>'
+        try:  # the "show uncertainty" option: sampled only when ticked, on the diagram tab
+            self.uncertainty.refresh(self.state, visible=self.tabs.selected_index == 0)
+        except Exception as exc:
+            self._show_error(exc, "uncertainty")
 
     def add_surface_states_tab(self, states=None):
         """Add a "surface states" tab: the surface Pourbaix diagram of the focus surface with the applied

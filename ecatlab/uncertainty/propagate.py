@@ -1,0 +1,635 @@
+r"""Propagation of energy errors through the CHE kernel, vectorised over samples.
+
+For every chunk of samples the sampled free energies :math:`G + \delta` (shape
+(samples, surfaces, adsorbates), eV) go through the same calls the deterministic engine makes:
+:meth:`ecatlab.che.CompiledPathway.affine` gives :math:`(a, n)` with
+:math:`\Delta G_i(U) = a_i + n_i U`, then :func:`ecatlab.che.kernel.envelope` (limiting potential
+and determining step), :func:`~ecatlab.che.kernel.signed_overpotential`,
+:func:`~ecatlab.che.kernel.gmax` (:math:`G_\mathrm{max}` at :math:`U_\mathrm{eq}`, Exner, ACS
+Catal. 10, 12607 (2020)), :func:`~ecatlab.che.kernel.chemical_obstacle` and
+:func:`~ecatlab.che.kernel.ranking_order`. The sample is just a leading array axis; no Python
+loop runs per sample. With zero deviations every number equals
+:func:`ecatlab.che.limiting_potentials`.
+
+Results are theoretical estimates (CHE thermodynamics with the stated error model); they do not
+replace measurements, and any experiment follows local safety codes and licensed practice.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Iterable, Mapping, Sequence
+
+import numpy as np
+import pandas as pd
+
+from ecatlab.che import kernel
+from ecatlab.che.conditions import check_pH, check_scale, check_temperature
+from ecatlab.che.engine import compile_pathway, compile_steps, limiting_potentials
+from ecatlab.constants import STANDARD_TEMPERATURE
+from ecatlab.energies import EnergyTable, as_energy_table
+from ecatlab.errors import EnergyTableError, UncertaintyError
+from ecatlab.notation import HYDROXIDE, Pathway, Species
+from ecatlab.pathways import resolve
+from ecatlab.uncertainty import sampler
+from ecatlab.uncertainty.models import ErrorModel
+
+__all__ = ["propagate", "PathwaySamples", "UncertaintyResult", "SUMMARY_COLUMNS", "QUANTITY_UNITS"]
+
+#: Long/progress threshold: show a tqdm bar when samples x surfaces x pathways exceeds this.
+PROGRESS_THRESHOLD = 20_000_000
+
+#: Units of the propagated quantities ("{scale}" is filled in with the potential scale).
+QUANTITY_UNITS: dict[str, str] = {
+    "limiting_potential": "V vs {scale}",
+    "overpotential": "V",
+    "G_max": "eV",
+    "max_chemical_dG": "eV",
+    "equilibrium_potential": "V vs {scale}",
+}
+
+#: Column documentation of :meth:`UncertaintyResult.summary`.
+SUMMARY_COLUMNS: dict[str, str] = {
+    "pathway": "pathway key",
+    "surface": "surface name",
+    "quantity": "limiting_potential, overpotential, G_max or max_chemical_dG (see ecatlab.LIMITING_POTENTIAL_COLUMNS)",
+    "unit": "unit of the numbers in this row",
+    "deterministic": "the value without errors (ecatlab.limiting_potentials) [unit]",
+    "mean": "mean over the samples [unit]",
+    "std": "standard deviation over the samples (ddof=1) [unit]",
+    "mean_se": "Monte-Carlo standard error of the mean, std/sqrt(samples) [unit]",
+    "median": "median over the samples [unit]",
+    "low": "lower end of the central percentile interval [unit]",
+    "high": "upper end of the central percentile interval [unit]",
+    "p_blocked": "fraction of samples in which an uphill chemical step blocks the pathway [-]",
+    "samples": "number of samples [-]",
+}
+
+
+@dataclass(frozen=True)
+class PathwaySamples:
+    """Per-sample results of one pathway, arrays of shape (samples, surfaces).
+
+    Attributes
+    ----------
+    pathway : Pathway
+    limiting_potential : ndarray float64, V vs the scale
+    equilibrium_potential : ndarray (samples,) or float, V vs the scale
+    G_max : ndarray float64, eV
+    determining_step : ndarray int8, 0-based step index (-1 where the data are missing)
+    G_max_step : ndarray int8, 0-based step index (-1 where missing)
+    blocked : ndarray bool
+    max_chemical_dG : ndarray float64, eV, or None when the pathway has no chemical step
+    """
+
+    pathway: Pathway
+    limiting_potential: np.ndarray
+    equilibrium_potential: np.ndarray | float
+    G_max: np.ndarray
+    determining_step: np.ndarray
+    G_max_step: np.ndarray
+    blocked: np.ndarray
+    max_chemical_dG: np.ndarray | None
+
+    @property
+    def overpotential(self) -> np.ndarray:
+        """Signed overpotential per sample and surface, V (kernel.signed_overpotential)."""
+        u_eq = self.equilibrium_potential
+        if np.ndim(u_eq):
+            u_eq = np.asarray(u_eq)[:, None]
+        return kernel.signed_overpotential(self.limiting_potential, u_eq, self.pathway.direction)
+
+    def quantity(self, name: str) -> np.ndarray:
+        """Samples of one quantity, (samples, surfaces)."""
+        if name == "overpotential":
+            return self.overpotential
+        if name == "equilibrium_potential":
+            u = np.asarray(self.equilibrium_potential, dtype=float)
+            return np.broadcast_to(u[:, None] if u.ndim else u, self.limiting_potential.shape)
+        if name == "max_chemical_dG":
+            if self.max_chemical_dG is None:
+                return np.full(self.limiting_potential.shape, np.nan)
+            return self.max_chemical_dG
+        if name in ("limiting_potential", "G_max"):
+            return getattr(self, name)
+        raise UncertaintyError(f"unknown quantity {name!r}; use one of {list(QUANTITY_UNITS)}")
+
+    def ranks(self) -> np.ndarray:
+        """Rank of every surface in every sample (0 = best), by :func:`kernel.ranking_order`."""
+        order = kernel.ranking_order(self.G_max, self.blocked)  # lexsort along the surface axis
+        ranks = np.empty_like(order)
+        np.put_along_axis(ranks, order, np.broadcast_to(np.arange(order.shape[-1]), order.shape), axis=-1)
+        return ranks
+
+
+@dataclass(frozen=True)
+class UncertaintyResult:
+    """Samples of every pathway and the tables that answer "how sure is it".
+
+    Attributes
+    ----------
+    surfaces : tuple of str
+    results : dict of str to PathwaySamples
+        Keyed by pathway name.
+    deterministic : DataFrame
+        :func:`ecatlab.limiting_potentials` on the same table and conditions.
+    n_samples : int
+    conditions : dict
+        scale, pH, temperature (K), references, energy source, error model, seed.
+    species_samples : dict of str to ndarray (samples, surfaces)
+        Sampled free energies (eV) of the species asked for with ``keep_species``.
+    """
+
+    surfaces: tuple[str, ...]
+    results: Mapping[str, PathwaySamples]
+    deterministic: pd.DataFrame = field(repr=False)
+    n_samples: int = 0
+    conditions: Mapping = field(default_factory=dict)
+    species_samples: Mapping[str, np.ndarray] = field(default_factory=dict, repr=False)
+    inputs: Mapping = field(default_factory=dict, repr=False)
+
+    # -- helpers --------------------------------------------------------------------------------
+    @property
+    def pathways(self) -> list[str]:
+        return list(self.results)
+
+    def _path(self, pathway) -> PathwaySamples:
+        key = pathway if isinstance(pathway, str) else getattr(pathway, "name", str(pathway))
+        if key not in self.results:
+            try:
+                key = resolve(pathway).name
+            except Exception:  # noqa: BLE001 - reported below with the known names
+                pass
+        if key not in self.results:
+            raise UncertaintyError(f"pathway {pathway!r} was not propagated; propagated: {self.pathways}")
+        return self.results[key]
+
+    def _attrs(self, quantity: str, columns: dict) -> dict:
+        out = dict(self.conditions)
+        out.update({"quantity": quantity, "columns": columns, "samples": self.n_samples,
+                    "note": "theoretical estimates (CHE model with the stated error model)"})
+        return out
+
+    def _det(self, path: str) -> pd.DataFrame:
+        d = self.deterministic
+        d = d[(d["pathway"] == path).to_numpy()].copy()
+        d["surface"] = d["surface"].astype(str)
+        return d.set_index("surface").reindex(list(self.surfaces))
+
+    # -- tables ---------------------------------------------------------------------------------
+    def summary(self, quantities: Sequence[str] = ("limiting_potential", "overpotential", "G_max", "max_chemical_dG"),
+                interval: float = 0.9) -> pd.DataFrame:
+        """Mean, standard deviation, median and central percentile interval per (pathway, surface, quantity).
+
+        Parameters
+        ----------
+        quantities : sequence of str
+            From :data:`QUANTITY_UNITS`.
+        interval : float
+            Probability content of the central interval (0.9: 5th to 95th percentile).
+
+        Returns
+        -------
+        DataFrame, long form; columns in :data:`SUMMARY_COLUMNS`; ``.attrs`` hold units and conditions.
+        """
+        if not 0.0 < float(interval) < 1.0:
+            raise UncertaintyError(f"interval must lie strictly between 0 and 1, got {interval!r}")
+        lo_q, hi_q = 50.0 * (1.0 - interval), 50.0 * (1.0 + interval)
+        frames = []
+        scale = self.conditions.get("scale", "RHE")
+        for name, ps in self.results.items():
+            det = self._det(name)
+            for q in quantities:
+                x = ps.quantity(q)
+                unit = QUANTITY_UNITS[q].format(scale=scale)
+                with np.errstate(invalid="ignore"):
+                    lo, med, hi = np.percentile(x, [lo_q, 50.0, hi_q], axis=0)
+                    std = x.std(axis=0, ddof=1) if x.shape[0] > 1 else np.zeros(x.shape[1])
+                frames.append(pd.DataFrame({
+                    "pathway": name, "surface": list(self.surfaces), "quantity": q, "unit": unit,
+                    "deterministic": det[q].to_numpy(dtype=float) if q in det.columns else np.nan,
+                    "mean": x.mean(axis=0), "std": std, "mean_se": std / np.sqrt(x.shape[0]),
+                    "median": med, "low": lo, "high": hi, "p_blocked": ps.blocked.mean(axis=0),
+                    "samples": x.shape[0],
+                }))
+        out = pd.concat(frames, ignore_index=True)
+        out.attrs.update(self._attrs("uncertainty summary", SUMMARY_COLUMNS))
+        out.attrs["interval"] = f"central {100 * interval:g}% ({lo_q:g}th to {hi_q:g}th percentile)"
+        out.attrs["units"] = {q: QUANTITY_UNITS[q].format(scale=scale) for q in quantities}
+        return out
+
+    def determining_steps(self) -> pd.DataFrame:
+        """Probability that each step determines the potential (and that it carries G_max).
+
+        Returns
+        -------
+        DataFrame with columns pathway, surface, step_index (1-based), step (equation),
+        probability (of being the potential-determining step), probability_se (Monte-Carlo
+        standard error sqrt(p(1-p)/N)), p_G_max_step, deterministic (True for the step the
+        deterministic analysis names). Probabilities over a surface's steps sum to 1 (surfaces
+        with missing data: 0).
+        """
+        frames = []
+        n = self.n_samples
+        for name, ps in self.results.items():
+            steps = ps.pathway.steps
+            k = np.arange(len(steps))
+            p = (ps.determining_step[..., None] == k).mean(axis=0)
+            pg = (ps.G_max_step[..., None] == k).mean(axis=0)
+            det = self._det(name)["determining_step_index"].to_numpy()
+            S = len(self.surfaces)
+            frames.append(pd.DataFrame({
+                "pathway": name,
+                "surface": np.repeat(list(self.surfaces), len(steps)),
+                "step_index": np.tile(k + 1, S),
+                "step": np.tile([s.equation for s in steps], S),
+                "probability": p.ravel(),
+                "probability_se": np.sqrt(p * (1 - p) / n).ravel(),
+                "p_G_max_step": pg.ravel(),
+                "deterministic": (np.asarray(det, dtype=float)[:, None] == (k + 1)[None, :]).ravel(),
+            }))
+        out = pd.concat(frames, ignore_index=True)
+        out.attrs.update(self._attrs("probability of each potential-determining step", {
+            "probability": "fraction of samples in which the step is the potential-determining step [-]",
+            "probability_se": "Monte-Carlo standard error of probability [-]",
+            "p_G_max_step": "fraction of samples in which the step carries G_max [-]",
+            "deterministic": "the deterministic analysis names this step",
+        }))
+        return out
+
+    def ranking(self, pathway, top: int = 3) -> pd.DataFrame:
+        """Probability that each surface is best and in the top ``top``, by the kernel's ranking rule.
+
+        The rule is :func:`ecatlab.che.kernel.ranking_order`: unblocked before blocked, then
+        lower G_max, applied in every sample.
+
+        Returns
+        -------
+        DataFrame indexed by surface, sorted by p_best then mean rank: p_best, p_best_se,
+        p_top (in the top ``top``), p_top_se, mean_rank (1 = best), deterministic_rank, p_blocked.
+        """
+        ps = self._path(pathway)
+        top = int(top)
+        if top < 1:
+            raise UncertaintyError(f"top must be >= 1, got {top}")
+        ranks = ps.ranks()
+        n = ranks.shape[0]
+        p_best = (ranks == 0).mean(axis=0)
+        p_top = (ranks < top).mean(axis=0)
+        det = self._det(ps.pathway.name)
+        det_order = kernel.ranking_order(det["G_max"].to_numpy(dtype=float), det["blocked"].to_numpy(dtype=bool))
+        det_rank = np.empty(len(det_order), dtype=int)
+        det_rank[det_order] = np.arange(len(det_order))
+        out = pd.DataFrame({
+            "p_best": p_best, "p_best_se": np.sqrt(p_best * (1 - p_best) / n),
+            f"p_top{top}": p_top, f"p_top{top}_se": np.sqrt(p_top * (1 - p_top) / n),
+            "mean_rank": ranks.mean(axis=0) + 1.0, "deterministic_rank": det_rank + 1,
+            "p_blocked": ps.blocked.mean(axis=0),
+        }, index=pd.Index(list(self.surfaces), name="surface"))
+        out = out.sort_values(["p_best", "mean_rank"], ascending=[False, True], kind="stable")
+        out.attrs.update(self._attrs(f"ranking probabilities, {ps.pathway.name}", {
+            "p_best": "fraction of samples in which the surface ranks first [-]",
+            f"p_top{top}": f"fraction of samples in which the surface is among the best {top} [-]",
+            "mean_rank": "mean rank over the samples (1 = best) [-]",
+            "deterministic_rank": "rank without errors (1 = best) [-]",
+            "p_blocked": "fraction of samples in which an uphill chemical step blocks the pathway [-]",
+        }))
+        out.attrs["ranking_rule"] = "kernel.ranking_order: unblocked first, then lower G_max (per sample)"
+        out.attrs["pathway"] = ps.pathway.name
+        return out
+
+    def pairwise(self, pathway, surfaces: Sequence[str] | None = None, max_surfaces: int = 40) -> pd.DataFrame:
+        """P(row surface ranks before column surface), over the samples, by the kernel's ranking rule.
+
+        ``surfaces`` defaults to all when there are at most ``max_surfaces`` of them, else to the
+        ``max_surfaces`` with the best mean rank (``.attrs['selection']`` says so). The diagonal is NaN.
+        """
+        ps = self._path(pathway)
+        ranks = ps.ranks()
+        names = list(self.surfaces)
+        selection = "all surfaces"
+        if surfaces is None:
+            idx = np.arange(len(names))
+            if len(names) > max_surfaces:
+                idx = np.argsort(ranks.mean(axis=0), kind="stable")[:max_surfaces]
+                selection = f"the {max_surfaces} surfaces with the best mean rank"
+        else:
+            pos = {s: i for i, s in enumerate(names)}
+            bad = [s for s in surfaces if s not in pos]
+            if bad:
+                raise UncertaintyError(f"unknown surface(s) {bad}; known: {names}")
+            idx = np.array([pos[s] for s in surfaces], dtype=int)
+            selection = "given surfaces"
+        r = ranks[:, idx]
+        m = len(idx)
+        counts = np.zeros((m, m))
+        step = max(1, 4_000_000 // max(1, m * m))
+        for start in range(0, r.shape[0], step):
+            block = r[start:start + step]
+            counts += (block[:, :, None] < block[:, None, :]).sum(axis=0)
+        p = counts / r.shape[0]
+        np.fill_diagonal(p, np.nan)
+        labels = [names[i] for i in idx]
+        out = pd.DataFrame(p, index=pd.Index(labels, name="surface"), columns=pd.Index(labels, name="beats"))
+        out.attrs.update(self._attrs(f"P(row beats column), {ps.pathway.name}", {"value": "fraction of samples in which the row surface ranks before the column surface [-]"}))
+        out.attrs["selection"] = selection
+        out.attrs["standard_error"] = "sqrt(p(1-p)/samples)"
+        return out
+
+    def samples(self, pathway, quantity: str = "limiting_potential") -> pd.DataFrame:
+        """The samples of one quantity as a DataFrame (rows: samples, columns: surfaces); unit in attrs."""
+        ps = self._path(pathway)
+        frame = pd.DataFrame(ps.quantity(quantity), columns=pd.Index(list(self.surfaces), name="surface"))
+        frame.index.name = "sample"
+        frame.attrs.update(self._attrs(quantity, {}))
+        frame.attrs["unit"] = QUANTITY_UNITS.get(quantity, "").format(scale=self.conditions.get("scale", "RHE"))
+        return frame
+
+    def volcano_points(self, pathway, descriptor: str, interval: float = 0.9) -> pd.DataFrame:
+        """Each surface's position on a volcano with intervals: descriptor G (x, eV) and the
+        limiting potential and effective limiting potential from G_max (y, V), per sample.
+
+        Needs ``keep_species=[descriptor]`` in :func:`propagate`.
+        """
+        key = Species.parse(descriptor).key
+        if key not in self.species_samples:
+            raise UncertaintyError(f"descriptor {key} was not kept; call propagate(..., keep_species=['{key}'])")
+        ps = self._path(pathway)
+        lo_q, hi_q = 50.0 * (1.0 - interval), 50.0 * (1.0 + interval)
+        x = self.species_samples[key]
+        u_eq = ps.equilibrium_potential
+        u_eq = np.asarray(u_eq)[:, None] if np.ndim(u_eq) else u_eq
+        y_eff = kernel.effective_limiting_potential(ps.G_max, u_eq, ps.pathway.direction)
+        cols = {}
+        for label, arr in (("x", x), ("U_L", ps.limiting_potential), ("U_eff", y_eff)):
+            with np.errstate(invalid="ignore"):
+                lo, hi = np.percentile(arr, [lo_q, hi_q], axis=0)
+            cols[f"{label}_mean"] = arr.mean(axis=0)
+            cols[f"{label}_std"] = arr.std(axis=0, ddof=1)
+            cols[f"{label}_low"] = lo
+            cols[f"{label}_high"] = hi
+        det = self._det(ps.pathway.name)
+        cols["U_L_deterministic"] = det["limiting_potential"].to_numpy(dtype=float)
+        out = pd.DataFrame(cols, index=pd.Index(list(self.surfaces), name="surface"))
+        out.attrs.update(self._attrs(f"volcano positions, {ps.pathway.name} vs {key}", {
+            "x_*": f"free energy of {key} [eV]", "U_L_*": f"limiting potential [V vs {self.conditions.get('scale')}]",
+            "U_eff_*": "effective limiting potential from G_max, kernel.effective_limiting_potential [V vs scale]",
+        }))
+        out.attrs["descriptor"] = key
+        out.attrs["pathway"] = ps.pathway.name
+        out.attrs["interval"] = f"central {100 * interval:g}%"
+        return out
+
+    def state_samples(self, pathway, surface: str, potential: float = 0.0) -> np.ndarray:
+        """Free energies of the states of ``pathway`` on one surface at ``potential`` (V vs scale),
+        per sample: array (samples, n_states), first state 0 eV. The same samples as the tables
+        (the sampler is re-run with the same seed, surfaces and species: one pass of the sampler,
+        about the cost of drawing the samples once)."""
+        inp = self.inputs
+        names = list(self.surfaces)
+        if surface not in names:
+            raise UncertaintyError(f"unknown surface {surface!r}; known: {names}")
+        path = self._path(pathway).pathway
+        table: EnergyTable = inp["table"]
+        compiled = compile_pathway(path, table.scheme)
+        species = list(inp["species"])
+        cols = [species.index(a) for a in compiled.adsorbates]
+        s = names.index(surface)
+        base = table.values([surface], species)[0]
+        cmol = _molecule_matrix(path.steps, inp["molecules"])
+        out = []
+        for ch in sampler.chunks(inp["plan"]):
+            g = base[None, :] + ch.adsorbates[:, s, :]
+            a, n = compiled.affine(g[:, cols], self.conditions["pH"], self.conditions["scale"], self.conditions["temperature"])
+            if cmol is not None:
+                a = a + ch.molecules @ cmol.T
+            dG = kernel.step_free_energy(a, n, float(potential))
+            out.append(np.concatenate([np.zeros((dG.shape[0], 1)), np.cumsum(dG, axis=1)], axis=1))
+        return np.concatenate(out, axis=0)
+
+    def _repr_html_(self) -> str:
+        c = self.conditions
+        return (
+            f"<p><b>Uncertainty</b>: {self.n_samples} samples, {len(self.surfaces)} surfaces, pathways "
+            f"{', '.join(self.pathways)}; {c.get('model')}; {c.get('scale')}, pH {c.get('pH')}, "
+            f"{c.get('temperature')} K. Theoretical estimates.</p>"
+        )
+
+
+def _molecule_matrix(steps, molecules: Sequence[str]) -> np.ndarray | None:
+    """Net coefficient of each error-carrying molecule in each step (n_steps, n_molecules); None if none."""
+    if not molecules:
+        return None
+    pos = {m: j for j, m in enumerate(molecules)}
+    c = np.zeros((len(steps), len(molecules)))
+    for i, step in enumerate(steps):
+        for sp, coef in step.net().items():
+            if sp.is_molecule and sp.key in pos:
+                c[i, pos[sp.key]] += coef
+            elif sp == HYDROXIDE and "H2O(l)" in pos:  # OH- carries G(H2O(l)) in the CHE bookkeeping
+                c[i, pos["H2O(l)"]] += coef
+    return c
+
+
+def _balanced_groups(sizes: Sequence[int], workers: int) -> list[list[int]]:
+    """Split pathway indices into at most ``workers`` groups of similar total step count (largest first)."""
+    groups: list[list[int]] = [[] for _ in range(min(workers, len(sizes)))]
+    load = [0] * len(groups)
+    for i in sorted(range(len(sizes)), key=lambda k: -sizes[k]):
+        g = load.index(min(load))
+        groups[g].append(i)
+        load[g] += sizes[i]
+    return [sorted(g) for g in groups if g]
+
+
+def _single_threaded_blas():
+    """Limit BLAS to one thread: the (rows x few) @ (few x few) products of the propagation run
+    several times faster single-threaded than with threads competing for the cores."""
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:  # pragma: no cover - threadpoolctl is a dependency
+        import contextlib
+
+        return contextlib.nullcontext()
+    return threadpool_limits(limits=1, user_api="blas")
+
+
+def _propagate_chunk(ch, base, paths, compiled, cols, store, kept, kept_cols, pH, sc, temperature) -> None:
+    """Push one chunk of samples through the kernel for every pathway (no loop over samples)."""
+    S = base.shape[0]
+    rows = slice(ch.start, ch.start + ch.size)
+    for k, j in kept_cols.items():
+        kept[k][rows] = base[None, :, j] + ch.adsorbates[:, :, j]
+    for path, c, col, st in zip(paths, compiled, cols, store):
+        g = base[None, :, col] + ch.adsorbates[:, :, col]  # (c, S, A_p), eV, float64
+        a, n = c.affine(g.reshape(-1, g.shape[-1]), pH, sc, temperature)
+        a = a.reshape(ch.size, S, -1)
+        if st["cmol"] is not None:
+            a += (ch.molecules @ st["cmol"].T)[:, None, :]
+            a_eq = st["eq_affine"][0] + ch.molecules @ st["eq_mol"].T  # (c, 1)
+            u_eq = kernel.equilibrium_potential_from_affine(a_eq, st["eq_affine"][1])  # (c,)
+            st["U_eq"][rows] = u_eq
+            u_eq_b = u_eq[:, None, None]
+        else:
+            u_eq_b = float(kernel.equilibrium_potential_from_affine(*st["eq_affine"])[0]) + 0.0
+        u_l, idx = kernel.envelope(a, n, path.direction)
+        g_max, g_idx = kernel.gmax(a, n, u_eq_b)
+        missing = np.isnan(u_l)
+        st["U_L"][rows] = u_l
+        st["G"][rows] = g_max
+        st["det"][rows] = np.where(missing, -1, idx)
+        st["gst"][rows] = np.where(missing, -1, g_idx)
+        if st["chem"] is not None:
+            max_chem, _ = kernel.chemical_obstacle(a, n)
+            st["blk"][rows] = kernel.is_blocked(max_chem)
+            st["chem"][rows] = max_chem
+        else:
+            st["blk"][rows] = False
+
+
+def propagate(
+    energies,
+    pathways,
+    model: ErrorModel,
+    n_samples: int | None = None,
+    pH: float = 0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    surfaces: Iterable[str] | None = None,
+    seed: int = 0,
+    chunk_size: int | None = None,
+    members: str = "all",
+    keep_species: Sequence[str] = (),
+    progress: bool | None = None,
+    workers: int = 1,
+) -> UncertaintyResult:
+    """Propagate an error model through the CHE analysis of one or more pathways.
+
+    Parameters
+    ----------
+    energies : EnergyTable, DataFrame or path
+        Central free energies (eV); read at ``temperature`` with :func:`ecatlab.energies.as_energy_table`.
+    pathways : str, Pathway or list of them
+        Built-in keys, Pathway objects or step text.
+    model : ErrorModel
+        :class:`~ecatlab.uncertainty.GaussianErrors`, :class:`~ecatlab.uncertainty.DescriptorErrors`,
+        :class:`~ecatlab.uncertainty.CovarianceErrors` or :class:`~ecatlab.uncertainty.EnsembleErrors`.
+    n_samples : int, optional
+        Default 1000 (Gaussian) or the ensemble size.
+    pH, scale, temperature
+        Conditions as in :func:`ecatlab.limiting_potentials` (pH, "RHE"/"SHE", K).
+    surfaces : list of str, optional
+    seed : int
+        Seed; the same seed gives the same numbers, whatever ``chunk_size``.
+    chunk_size : int, optional
+        Samples per chunk (memory bound); see :func:`ecatlab.uncertainty.sampler.plan`.
+    members : {"all", "bootstrap"}
+        Ensembles: every member once, or members drawn with replacement.
+    keep_species : sequence of str
+        Adsorbates whose sampled G (eV) to keep, e.g. a volcano descriptor.
+    progress : bool, optional
+        tqdm bar over the chunks; default on for long runs.
+    workers : int
+        Threads that share the pathways of each chunk (numpy releases the GIL in the kernel's
+        array operations); 1 (default) runs in the calling thread. Same numbers for any value.
+
+    Returns
+    -------
+    UncertaintyResult
+
+    Notes
+    -----
+    Memory: per pathway the result keeps, per sample and surface, U_L, G_max and (for pathways with
+    a chemical step) the chemical-step measure (float64), the two step indices (int8) and the
+    blocked flag: 27 bytes, e.g. 54 MB for 1,000 surfaces x 2,000 samples; the sampled deviations
+    exist one chunk at a time.
+    """
+    sc = check_scale(scale)
+    check_temperature(temperature)
+    check_pH(pH)
+    if np.ndim(pH) != 0:
+        raise UncertaintyError("propagate takes one pH value")
+    table = as_energy_table(energies, temperature)
+    paths = [resolve(p) for p in ([pathways] if isinstance(pathways, (str, Pathway)) else list(pathways))]
+    if not paths:
+        raise UncertaintyError("no pathway given")
+    if len({p.name for p in paths}) != len(paths):
+        raise UncertaintyError(f"pathway names repeat in {[p.name for p in paths]}; give each pathway once")
+    if surfaces is None:
+        names = list(table.surfaces)
+    else:
+        names = [surfaces] if isinstance(surfaces, str) else list(surfaces)
+        unknown = [s for s in names if s not in set(table.surfaces)]
+        if unknown:
+            raise EnergyTableError(table.source, f"unknown surface(s) {unknown}; known: {table.surfaces}")
+    compiled = [compile_pathway(p, table.scheme) for p in paths]
+    keep = [Species.parse(k).key for k in keep_species]
+    species: list[str] = []
+    for c in compiled:
+        species.extend(a for a in c.adsorbates if a not in species)
+    species.extend(k for k in keep if k not in species)
+    refs = set(table.scheme.references)
+    mols = tuple(m for m in model.molecules_with_errors())
+    bad_refs = [m for m in mols if m in refs]
+    if bad_refs:
+        raise UncertaintyError(
+            f"reference molecule(s) {bad_refs} are 0 by definition in every sample; fold their member energies into the "
+            "adsorbates (ecatlab.ingest.ensembles.ensemble_from_structures) instead of giving them errors"
+        )
+    p = sampler.plan(model, names, species, mols, n_samples, seed, chunk_size, members)
+    base = table.values(names, species)  # (S, A), NaN where missing
+    cols = [np.array([species.index(a) for a in c.adsorbates], dtype=int) for c in compiled]
+    deterministic = limiting_potentials(table, paths, pH=pH, scale=sc, temperature=temperature, surfaces=names, on_missing="report")
+
+    N, S = p.n_samples, len(names)
+    store = []
+    for path, c in zip(paths, compiled):
+        chem = ~c.electrochemical
+        store.append({
+            "U_L": np.empty((N, S)), "G": np.empty((N, S)), "det": np.empty((N, S), dtype=np.int8),
+            "gst": np.empty((N, S), dtype=np.int8), "blk": np.empty((N, S), dtype=bool),
+            "chem": np.empty((N, S)) if chem.any() else None,
+            "cmol": _molecule_matrix(path.steps, mols),
+            "eq_affine": compile_steps((path.overall_step(),), (), table.scheme).affine(np.zeros((1, 0)), pH, sc, temperature),
+            "eq_mol": _molecule_matrix((path.overall_step(),), mols),
+            "U_eq": np.empty(N) if mols else None,
+        })
+    kept = {k: np.empty((N, S)) for k in keep}
+    kept_cols = {k: species.index(k) for k in keep}
+    show = progress if progress is not None else N * S * len(paths) > PROGRESS_THRESHOLD
+    iterator = sampler.chunks(p)
+    if show:
+        from tqdm.auto import tqdm
+
+        iterator = tqdm(iterator, total=p.n_chunks, desc="propagating samples", unit="chunk")
+    if not isinstance(workers, (int, np.integer)) or isinstance(workers, bool) or workers < 1:
+        raise UncertaintyError(f"workers must be a positive integer, got {workers!r}")
+    groups = _balanced_groups([len(pth.steps) for pth in paths], int(workers))
+    with _single_threaded_blas():
+        if len(groups) == 1:
+            for ch in iterator:
+                _propagate_chunk(ch, base, paths, compiled, cols, store, kept, kept_cols, pH, sc, temperature)
+        else:
+            from concurrent.futures import ThreadPoolExecutor
+
+            def part(ch, idx):
+                sel = lambda seq: [seq[i] for i in idx]  # noqa: E731
+                _propagate_chunk(ch, base, sel(paths), sel(compiled), sel(cols), sel(store), kept if idx == groups[0] else {},
+                                 kept_cols if idx == groups[0] else {}, pH, sc, temperature)
+
+            with ThreadPoolExecutor(max_workers=len(groups)) as pool:
+                for ch in iterator:
+                    for f in [pool.submit(part, ch, idx) for idx in groups]:
+                        f.result()
+    results = {}
+    for path, st in zip(paths, store):
+        u_eq = st["U_eq"] if st["U_eq"] is not None else float(kernel.equilibrium_potential_from_affine(*st["eq_affine"])[0]) + 0.0
+        results[path.name] = PathwaySamples(path, st["U_L"], u_eq, st["G"], st["det"], st["gst"], st["blk"], st["chem"])
+    conditions = {
+        "scale": sc, "pH": float(pH), "temperature": float(temperature),
+        "references": table.scheme.describe(), "energy_source": table.source,
+        "model": model.describe(), "seed": int(seed), "samples": N,
+        "sampling": "ensemble members in order" if (getattr(model, "kind", "") == "ensemble" and members == "all") else f"seeded draws (seed {seed})",
+    }
+    inputs = {"table": table, "species": tuple(species), "molecules": mols, "plan": p}
+    return UncertaintyResult(tuple(names), results, deterministic, N, conditions, kept, inputs)

@@ -1,0 +1,64 @@
+"""Tests of the explorer's uncertainty tab (ecatlab.explorer.uncertainty_tab), driven by `.value`.
+
+Cross-check outside the tab: its ranking probabilities equal ecatlab.uncertainty.propagate on the
+same inputs and seed; the PNG is decoded with Pillow (an independent PNG decoder).
+"""
+
+from __future__ import annotations
+
+import io
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import pytest  # noqa: E402
+
+from ecatlab.demo import demo_energies  # noqa: E402
+from ecatlab.explorer import explore  # noqa: E402
+from ecatlab.explorer.uncertainty_tab import DEFAULT_SAMPLES  # noqa: E402
+from ecatlab.uncertainty import GaussianErrors, propagate  # noqa: E402
+
+
+@pytest.fixture(scope="module")
+def table():
+    return demo_energies()
+
+
+def test_option_samples_only_when_ticked_and_the_diagram_tab_is_shown(table):
+    ex = explore(table, reaction="ORR", render="inline")
+    panel = ex.uncertainty
+    assert panel.widget in ex.main.children and ex.tabs.titles == ("diagram", "volcano")
+    assert panel.propagations == 0 and panel.draws == 0  # not ticked: nothing sampled
+    ex.tabs.selected_index = 1
+    panel.show.value = True  # ticked while the volcano tab is shown: nothing sampled
+    assert panel.propagations == 0 and panel.draws == 0
+    ex.tabs.selected_index = 0
+    assert panel.propagations == 1 and panel.draws == 1 and not ex.errors
+    from PIL import Image
+
+    img = Image.open(io.BytesIO(panel.image.value))
+    assert img.size[0] > 300 and img.size[1] > 300
+    # a potential move neither samples nor redraws (the figures do not depend on U)
+    ex.potential.value = 0.4
+    assert panel.propagations == 1 and panel.draws == 1
+    # a change of sigma or pH samples again
+    panel.sigma.value = 0.2
+    assert panel.propagations == 2 and panel.draws == 2
+    ex.pH.value = 1.0
+    assert panel.propagations == 3 and panel.draws == 3
+    assert "Theoretical estimates" in panel.info.value and f"{DEFAULT_SAMPLES} samples" in panel.info.value
+    # unticked: nothing more is drawn
+    panel.show.value = False
+    ex.pH.value = 2.0
+    assert panel.draws == 3 and panel.propagations == 3
+
+
+def test_tab_numbers_equal_propagate(table):
+    ex = explore(table, reaction="ORR", render="inline")
+    ex.uncertainty.show.value = True
+    s = ex.state
+    mine = ex.uncertainty.result.ranking(s.pathway.name)
+    ref = propagate(table, s.pathway, GaussianErrors(0.1, 0.5), n_samples=DEFAULT_SAMPLES, pH=s.pH, scale=s.scale,
+                    temperature=s.temperature, surfaces=list(s.surfaces), seed=0).ranking(s.pathway.name)
+    assert mine.equals(ref)
