@@ -113,6 +113,25 @@ def onset_potentials(a, n) -> np.ndarray:
     return np.where(ec, -a / safe, np.nan)
 
 
+def _extreme(part: np.ndarray, direction: str) -> tuple[np.ndarray, np.ndarray]:
+    """min (reduction) or max (oxidation) over the last axis and its position; a row with a NaN gives NaN.
+
+    One pass to detect NaN; the common case (no NaN) then needs no masked copies."""
+    if direction == "reduction":
+        arg, fill = np.argmin, np.inf
+    elif direction == "oxidation":
+        arg, fill = np.argmax, -np.inf
+    else:
+        raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+    nan = np.isnan(part)
+    if not nan.any():
+        local = arg(part, axis=-1)
+        return np.take_along_axis(part, local[..., None], axis=-1)[..., 0], local
+    local = arg(np.where(nan, fill, part), axis=-1)
+    value = np.take_along_axis(part, local[..., None], axis=-1)[..., 0]
+    return np.where(nan.any(axis=-1), np.nan, value), local
+
+
 def envelope_of_lines(lines, direction: str, mask=None) -> tuple[np.ndarray, np.ndarray]:
     """Lower (reduction) or upper (oxidation) envelope of per-step potentials over the last axis.
 
@@ -131,19 +150,16 @@ def envelope_of_lines(lines, direction: str, mask=None) -> tuple[np.ndarray, np.
         step attaining it among all steps. A NaN among the masked steps gives NaN.
     """
     lines = np.asarray(lines, dtype=float)
-    idx_all = np.arange(lines.shape[-1]) if mask is None else np.flatnonzero(np.asarray(mask, dtype=bool))
+    if mask is None or np.all(mask):
+        idx_all = np.arange(lines.shape[-1])
+        part = lines
+    else:
+        idx_all = np.flatnonzero(np.asarray(mask, dtype=bool))
+        part = lines[..., idx_all]
     if idx_all.size == 0:
         raise PathwayError("no step takes part in the envelope")
-    part = lines[..., idx_all]
-    nan = np.isnan(part)
-    if direction == "reduction":
-        local = np.argmin(np.where(nan, np.inf, part), axis=-1)
-    elif direction == "oxidation":
-        local = np.argmax(np.where(nan, -np.inf, part), axis=-1)
-    else:
-        raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
-    value = np.take_along_axis(part, local[..., None], axis=-1)[..., 0]
-    return np.where(nan.any(axis=-1), np.nan, value), idx_all[local]
+    value, local = _extreme(part, direction)
+    return value, idx_all[local]
 
 
 def potential_equivalents(a, n, equilibrium_potential, direction: str) -> np.ndarray:
@@ -188,10 +204,12 @@ def envelope(a, n, direction: str) -> tuple[np.ndarray, np.ndarray]:
     n = np.asarray(n, dtype=float)
     if n.ndim != 1:
         raise OptionError("envelope takes one electron vector n (n_steps,) for all rows")
-    ec = electrochemical_mask(n)
-    if not ec.any():
+    ec = np.flatnonzero(electrochemical_mask(n))
+    if ec.size == 0:
         raise PathwayError("a pathway without electrochemical steps has no limiting potential")
-    return envelope_of_lines(onset_potentials(a, n), direction, mask=ec)
+    onset = a[..., ec] / (-n[ec])  # onsets of the electrochemical steps only
+    value, local = _extreme(onset, direction)
+    return value, ec[local]
 
 
 def equilibrium_potential_from_affine(a, n) -> np.ndarray:
@@ -233,10 +251,7 @@ def chemical_obstacle(a, n) -> tuple[np.ndarray, np.ndarray]:
     shape = a.shape[:-1]
     if chem.size == 0:
         return np.full(shape, np.nan), np.full(shape, -1, dtype=np.int64)
-    part = a[..., chem]
-    local = np.argmax(np.where(np.isnan(part), -np.inf, part), axis=-1)
-    value = np.take_along_axis(part, local[..., None], axis=-1)[..., 0]
-    value = np.where(np.isnan(part).any(axis=-1), np.nan, value)
+    value, local = _extreme(a[..., chem], "oxidation")  # the largest value
     return value, chem[local]
 
 
@@ -263,10 +278,7 @@ def gmax(a, n, equilibrium_potential) -> tuple[np.ndarray, np.ndarray]:
     :math:`\\eta = 0`. For one-electron steps only, :math:`G_\\mathrm{max} = e\\eta`.
     """
     dG = step_free_energy(a, n, equilibrium_potential)
-    local = np.argmax(np.where(np.isnan(dG), -np.inf, dG), axis=-1)
-    value = np.take_along_axis(dG, local[..., None], axis=-1)[..., 0]
-    value = np.where(np.isnan(dG).any(axis=-1), np.nan, value)
-    return value, local
+    return _extreme(dG, "oxidation")  # the largest step free energy and its step
 
 
 #: A chemical step uphill by more than this (eV) blocks a pathway at every potential. Default 0:
