@@ -345,15 +345,35 @@ def build_network(
     queue = deque([0])
     conserved_mols = {m for m in mols if any(e in conserved for e in elements_of(m))}
 
+    species_cache: dict[str, Species] = {}
+
+    def make_step(text: str) -> Step:
+        """Step from our own text: sides split on ' + ' (never inside a name); balance checked by Step."""
+        sides = []
+        for side in text.split(" -> "):
+            terms: dict[Species, float] = {}
+            for tok in side.split(" + "):
+                coef, _, rest = tok.partition(" ")
+                if rest and coef.isdigit():
+                    c, name = float(coef), rest
+                else:
+                    c, name = 1.0, tok
+                sp = species_cache.get(name)
+                if sp is None:
+                    sp = species_cache[name] = Species.parse(name)
+                terms[sp] = terms.get(sp, 0.0) + c
+            sides.append(tuple(terms.items()))
+        return Step(sides[0], sides[1], text=text)
+
     def add(src: int, new_ads, new_mols, text: str, kind: str, delta_e: int, bond: str, change: str, rule: str) -> None:
-        if ("bond", bond) in classes or ("rule", rule) in classes or ("kind", kind) in classes:
+        if classes and (("bond", bond) in classes or ("rule", rule) in classes or ("kind", kind) in classes):
             return
         target = state_of(new_ads, new_mols)
         if target is None:
             return
         step = step_cache.get(text)
         if step is None:
-            step = Step.parse(text)  # checks element, charge and site balance
+            step = make_step(text)  # checks element, charge and site balance
             if abs(step.electrons_transferred - delta_e) > 1e-9:
                 raise PathwayError(f"internal check failed: {text!r} transfers {step.electrons_transferred} e-")
             step_cache[text] = step
@@ -378,6 +398,15 @@ def build_network(
         seen_edges.add(key)
         edges.append(NetworkEdge(src, tgt, step, kind, bond, change, rule))
 
+    text_cache: dict = {}
+
+    def step_text(unit: str, extra: int, p_ads, p_mols, water) -> str:
+        k = (unit, extra, p_ads, p_mols, water)
+        t = text_cache.get(k)
+        if t is None:
+            t = text_cache[k] = _step_text([unit], extra, True, p_ads, p_mols, water)
+        return t
+
     while queue:
         src = queue.popleft()
         if max_steps is not None and depth[src] >= max_steps:
@@ -392,7 +421,7 @@ def build_network(
             for rule, bond, change, p_ads, p_mols, water in transitions(a):
                 if len(p_ads) > free + 1:
                     continue
-                text = _step_text([a], 0, True, p_ads, p_mols, water)
+                text = step_text(a, 0, p_ads, p_mols, water)
                 add(src, rest + list(p_ads), list(st.molecules) + list(p_mols), text, "electrochemical", 1, bond, change, rule)
             m = desorbed(a)
             if m is not None:
@@ -404,7 +433,7 @@ def build_network(
             for rule, bond, change, p_ads, p_mols, water in transitions(r_key):
                 if not p_ads or len(p_ads) > free:
                     continue
-                text = _step_text([r_key], 1, True, p_ads, p_mols, water)
+                text = step_text(r_key, 1, p_ads, p_mols, water)
                 add(src, list(st.adsorbates) + list(p_ads), rest_m + list(p_mols), text, "electrochemical", 1, bond, change, rule)
         # adsorption of released molecules
         if free >= 1:
@@ -477,7 +506,7 @@ def _prune(net: ReactionNetwork, wanted: list[str] | None) -> ReactionNetwork:
         NetworkEdge(remap[e.source], remap[e.target], e.step, e.kind, e.bond, e.change, e.rule)
         for e in net.edges if e.source in remap and e.target in remap
     )
-    used = {sp.key for e in edges for sp in e.step.species if sp.is_adsorbate}
+    used = {sp.key for st in {id(e.step): e.step for e in edges}.values() for sp in st.species if sp.is_adsorbate}
     ads = tuple(a for a in net.adsorbates if a in used or a in (net.computed or ()))
     return ReactionNetwork(net.reactant, net.reactant_count, tuple(net.states[i] for i in keep), edges, ads, net.molecules, net.sites,
                            remap[net.start], net.notes, structures=net.structures, computed=net.computed, direction=net.direction)

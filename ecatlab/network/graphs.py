@@ -78,10 +78,10 @@ class Skeleton:
 
     def __post_init__(self) -> None:
         if len(self.atoms) != len(self.hydrogens):
-            raise NotationError("skeleton: one hydrogen count per heavy atom")
+            raise NotationError("skeleton", "one hydrogen count per heavy atom")
         for a in self.atoms:
             if a not in VALENCE:
-                raise NotationError(f"skeleton: element {a!r} not supported (C, N, O, S)")
+                raise NotationError("skeleton", f"element {a!r} not supported (C, N, O, S)")
         object.__setattr__(self, "bonds", tuple(sorted((min(i, j), max(i, j)) for i, j in self.bonds)))
 
     # -- derived structure ------------------------------------------------------------------------
@@ -314,7 +314,7 @@ def parse_name(text: str) -> Skeleton:
     pos = 0
     for m in _TOKEN.finditer(core):
         if m.start() != pos:
-            raise NotationError(f"cannot read {raw!r} as a condensed formula at {core[pos:]!r}; give a SMILES with '*' on the binding atom")
+            raise NotationError(raw, f"cannot read {raw!r} as a condensed formula at {core[pos:]!r}; give a SMILES with '*' on the binding atom")
         pos = m.end()
         if m.group(0) == "(":
             tokens.append(("(", 1))
@@ -323,7 +323,7 @@ def parse_name(text: str) -> Skeleton:
         else:
             tokens.append((m.group(2), int(m.group(3) or 1)))
     if pos != len(core) or not tokens:
-        raise NotationError(f"cannot read {raw!r} as a condensed formula; give a SMILES with '*' on the binding atom")
+        raise NotationError(raw, f"cannot read {raw!r} as a condensed formula; give a SMILES with '*' on the binding atom")
 
     pending_h = 0
 
@@ -341,7 +341,7 @@ def parse_name(text: str) -> Skeleton:
                 start = len(atoms)
                 k2, sub = parse_group(k + 1, last if last >= 0 else current)
                 if k2 >= len(tokens):
-                    raise NotationError(f"unbalanced parentheses in {raw!r}")
+                    raise NotationError(raw, f"unbalanced parentheses in {raw!r}")
                 mult = tokens[k2][1]
                 block = (start, len(atoms))
                 for _ in range(mult - 1):  # repeat the group
@@ -365,7 +365,7 @@ def parse_name(text: str) -> Skeleton:
                 k += 1
                 continue
             if sym not in VALENCE:
-                raise NotationError(f"{raw!r}: element {sym!r} is not supported in structures (C, N, O, S)")
+                raise NotationError(raw, f"{raw!r}: element {sym!r} is not supported in structures (C, N, O, S)")
             nxt = tokens[k + 1][0] if k + 1 < len(tokens) else None
             if nxt == "H":
                 nxt = tokens[k + 2][0] if k + 2 < len(tokens) else None
@@ -388,12 +388,12 @@ def parse_name(text: str) -> Skeleton:
 
     k, _ = parse_group(0, -1)
     if k < len(tokens):
-        raise NotationError(f"unbalanced parentheses in {raw!r}")
+        raise NotationError(raw, f"unbalanced parentheses in {raw!r}")
     if pending_h and not atoms:
-        raise NotationError(f"{raw!r} has no heavy atom; species made of hydrogen alone have no skeleton")
+        raise NotationError(raw, f"{raw!r} has no heavy atom; species made of hydrogen alone have no skeleton")
     sk = Skeleton(tuple(atoms), tuple(hyd), tuple(bonds))
     if not sk.valid:
-        raise NotationError(f"{raw!r}: read as {sk.name() if sk.atoms else '?'} the valences do not close (too many H or bonds); give a SMILES")
+        raise NotationError(raw, f"{raw!r}: read as {sk.name() if sk.atoms else '?'} the valences do not close (too many H or bonds); give a SMILES")
     return sk
 
 
@@ -406,7 +406,7 @@ def skeleton_from_smiles(smiles: str) -> Skeleton:
 
     mol = Chem.MolFromSmiles(smiles)
     if mol is None:
-        raise NotationError(f"RDKit cannot read the SMILES {smiles!r}")
+        raise NotationError(smiles, "RDKit cannot read this SMILES")
     keep = [a.GetIdx() for a in mol.GetAtoms() if a.GetAtomicNum() > 1]
     index = {old: new for new, old in enumerate(keep)}
     atoms, hyd = [], []
@@ -414,7 +414,7 @@ def skeleton_from_smiles(smiles: str) -> Skeleton:
         a = mol.GetAtomWithIdx(old)
         sym = a.GetSymbol()
         if sym not in VALENCE:
-            raise NotationError(f"SMILES {smiles!r}: element {sym} not supported (C, N, O, S)")
+            raise NotationError(smiles, f"element {sym} not supported (C, N, O, S)")
         atoms.append(sym)
         hyd.append(a.GetTotalNumHs())
     bonds = [(index[b.GetBeginAtomIdx()], index[b.GetEndAtomIdx()]) for b in mol.GetBonds()
