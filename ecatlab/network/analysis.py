@@ -275,7 +275,7 @@ class NetworkAnalysis:
         S = len(self.surfaces)
         rows = np.arange(S)
         cost = d[:, t]
-        ok = np.isfinite(cost)
+        ok = cost < np.inf
         edges = self._search.routes(pred, t)  # (S, L), -1 padded
         res = self._evaluate(edges, ok)
         # cost-carrying step: argmax of the step costs along the route

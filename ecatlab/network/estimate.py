@@ -181,12 +181,14 @@ class EnergyEstimator:
     def _predict(self, params, feats, allow_unknown: bool = False, keep: np.ndarray | None = None) -> np.ndarray:
         S = len(self.surfaces)
         intr, surf, offset, unknown = self._rows(feats, np.arange(S))
-        # a group that no fitted species carries cannot be estimated
+        # identifiable only if the species' group vector lies in the span of the fitted species' vectors
         ti, ts, _, _ = self._rows(self._feats, np.arange(S))
         k = np.ones(len(self._feats), dtype=bool) if keep is None else keep
-        support = np.concatenate([(ti[k] != 0).any(axis=0), (ts[k] != 0).any(axis=0)])
-        uses = np.concatenate([intr != 0, surf != 0], axis=1)
-        unknown = unknown | (uses & ~support[None, :]).any(axis=1)
+        X = np.concatenate([ti[k], ts[k]], axis=1)
+        x = np.concatenate([intr, surf], axis=1)
+        if len(x):
+            resid = x - (x @ np.linalg.pinv(X)) @ X
+            unknown = unknown | (np.abs(resid).max(axis=1) > 1e-8)
         nG, nB = intr.shape[1], surf.shape[1]
         base = intr @ params[:nG]
         if self.method == "additivity":
