@@ -29,6 +29,9 @@ from ecatlab.notation import Pathway
 
 __all__ = ["NetworkAnalysis", "RankedRoute", "ROUTE_COLUMNS", "RANKING_COLUMNS", "STUCK_COLUMNS"]
 
+#: Stoichiometry matrices larger than this (steps x adsorbates) are evaluated sparsely.
+_SPARSE_ABOVE = 2_000_000
+
 #: Column documentation of :meth:`NetworkAnalysis.best_routes` (units in brackets).
 ROUTE_COLUMNS: dict[str, str] = {
     "surface": "surface name",
@@ -162,16 +165,20 @@ class NetworkAnalysis:
         self.temperature = float(temperature)
         self.surfaces = che._select_surfaces(self.table, surfaces)
         self.chemical_limit = chemical_limit
-        # one compiled row per distinct step
-        edge_steps = [e.step for e in network.edges]
-        uniq: dict[str, int] = {}
-        step_of_edge = np.empty(len(edge_steps), dtype=np.int64)
+        # one compiled row per distinct step (edges share Step objects; spectators cancel)
+        uniq: dict[int, int] = {}
+        by_text: dict[str, int] = {}
+        step_of_edge = np.empty(len(network.edges), dtype=np.int64)
         distinct = []
-        for j, st in enumerate(edge_steps):
-            k = uniq.get(st.equation)
+        for j, e in enumerate(network.edges):
+            k = uniq.get(id(e.step))
             if k is None:
-                k = uniq[st.equation] = len(distinct)
-                distinct.append(st)
+                eq = e.step.text or e.step.equation
+                k = by_text.get(eq)
+                if k is None:
+                    k = by_text[eq] = len(distinct)
+                    distinct.append(e.step)
+                uniq[id(e.step)] = k
             step_of_edge[j] = k
         self._step_of_edge = step_of_edge
         self.compiled = che.compile_steps(distinct, network.adsorbates, self.table.scheme)
@@ -194,11 +201,32 @@ class NetworkAnalysis:
                 self.estimate_error[:, todo] = err
                 self.estimated_mask[todo] = True
         missing = np.isnan(values)
-        a_step, n_step = self.compiled.affine(np.where(missing, 0.0, values), self.pH, self.scale, self.temperature)
-        a_step = np.asarray(a_step, dtype=float).reshape(S, len(distinct))
-        uses = np.abs(self.compiled.adsorbate_stoichiometry) > 0  # (n_steps, n_adsorbates)
-        a_step[(missing.astype(float) @ uses.T.astype(float)) > 0] = np.nan
+        filled = np.where(missing, 0.0, values)
+        stoich = self.compiled.adsorbate_stoichiometry  # (n_steps, n_adsorbates)
+        if stoich.size > _SPARSE_ABOVE:
+            # the engine's affine map is linear in G: a(G) = a(0) + G @ stoich.T; evaluate the
+            # product with a sparse stoichiometry (each step touches <= 3 adsorbates) and check one
+            # surface against the engine's own dense evaluation
+            from scipy import sparse
+
+            a0, n_step = self.compiled.affine(np.zeros((1, A)), self.pH, self.scale, self.temperature)
+            a_step = np.asarray(a0, dtype=float).reshape(1, -1) + np.asarray((sparse.csr_matrix(stoich) @ filled.T).T)
+            sample = np.unique(np.linspace(0, len(distinct) - 1, 64).astype(int))
+            check = che.compile_steps([distinct[i] for i in sample], network.adsorbates, self.table.scheme)
+            ref, _ = check.affine(filled[:1], self.pH, self.scale, self.temperature)
+            if not np.allclose(np.asarray(ref).reshape(-1), a_step[0, sample], atol=1e-9, equal_nan=True):
+                raise EcatlabError("internal check failed: sparse step free energies differ from the engine's")
+        else:
+            a_step, n_step = self.compiled.affine(filled, self.pH, self.scale, self.temperature)
+            a_step = np.asarray(a_step, dtype=float).reshape(S, len(distinct))
+        uses = np.abs(stoich) > 0  # (n_steps, n_adsorbates)
+        if missing.any():
+            from scipy import sparse
+
+            bad = np.asarray((sparse.csr_matrix(uses.astype(float)) @ missing.T.astype(float)).T) > 0
+            a_step[bad] = np.nan
         n_step = np.asarray(n_step, dtype=float)
+        self._a_step, self._n_step = a_step, n_step
         #: a_e (eV): dG of every edge at U = 0 on the scale, shape (n_surfaces, n_edges); NaN = missing data.
         self.a = a_step[:, step_of_edge]
         #: electrons n_e of every edge (reduction positive).
@@ -207,16 +235,18 @@ class NetworkAnalysis:
 
         self.electrochemical = kernel.electrochemical_mask(self.n)
         self._missing = missing
+        self._uses_step = uses
         self._uses_edge = uses[step_of_edge]  # (n_edges, n_adsorbates) bool
         #: bottleneck cost of every edge (eV), see :func:`ecatlab.network.routes.step_costs`.
-        self.weight = step_costs(self.a, self.n, 0.0, chemical_limit)
+        self.weight = step_costs(a_step, n_step, 0.0, chemical_limit)[:, step_of_edge]
         self._search = RouteSearch([e.source for e in network.edges], [e.target for e in network.edges], network.layers,
                                    len(network.states), network.start)
         self._src = self._search.src
         self._tgt = self._search.tgt
         self._runs: dict = {}
         self._route_cache: dict = {}
-        self._equations = np.array([e.step.equation for e in network.edges] + [""], dtype=object)
+        self._distinct = distinct
+        self._equations = _LazyEquations(distinct, step_of_edge)
 
     # -- per-edge table ----------------------------------------------------------------------------
     def edge_table(self, potential: float = 0.0) -> pd.DataFrame:
@@ -408,7 +438,7 @@ class NetworkAnalysis:
                 route = tuple(int(x) for x in row[row >= 0])
                 if route not in name_cache:
                     name_cache[route] = (net.route_name(route) if route else "no route with complete data",
-                                         "; ".join(net.edges[j].step.equation for j in route), len(route))
+                                         "; ".join(self._equations._one(j) for j in route), len(route))
                 info.append(name_cache[route])
             names = np.array([i[0] for i in info], dtype=object)[inv]
             texts = np.array([i[1] for i in info], dtype=object)[inv]
@@ -419,7 +449,8 @@ class NetworkAnalysis:
                 uphill[i] = "; ".join(f"{self._equations[j]} ({self.a[i, j]:+.2f} eV)" for j in route
                                       if not self.electrochemical[j] and self.a[i, j] > 0)
             bott = r["bottleneck"]
-            stuck = np.array([net.states[self._src[b]].label if b >= 0 else "" for b in bott], dtype=object)
+            labels = self._state_labels()
+            stuck = np.where(bott >= 0, labels[self._src[np.maximum(bott, 0)]], "")
             frame = pd.DataFrame(
                 {
                     "surface": self.surfaces,
@@ -447,11 +478,17 @@ class NetworkAnalysis:
                     "estimate_error": np.where(ok, r["err"], 0.0),
                 }
             )
+            if top == 1:
+                frames.append(frame)
+                break
             keep = ok | (rank == 1)
             frame["_order"] = np.arange(S) * (top + 1) + rank
             frames.append(frame[keep])
-        out = pd.concat(frames, ignore_index=True).sort_values("_order", kind="stable").drop(columns="_order").reset_index(drop=True)
-        out = out[list(ROUTE_COLUMNS)]
+        if top == 1:
+            out = frames[0]
+        else:
+            out = pd.concat(frames, ignore_index=True).sort_values("_order", kind="stable").drop(columns="_order").reset_index(drop=True)
+            out = out[list(ROUTE_COLUMNS)]
         out.attrs.update(self._attrs(f"best routes {self.network.reactant} -> {key}"))
         out.attrs["columns"] = ROUTE_COLUMNS
         return out
@@ -685,6 +722,11 @@ class NetworkAnalysis:
         return out
 
     # -- helpers ---------------------------------------------------------------------------------------
+    def _state_labels(self) -> np.ndarray:
+        if getattr(self, "_labels", None) is None:
+            self._labels = np.array([s.label for s in self.network.states], dtype=object)
+        return self._labels
+
     def _her(self, her: str | None):
         if her is None or "H*" not in self.table.species:
             return None
@@ -703,8 +745,10 @@ class NetworkAnalysis:
             raise EnergyTableError(self.table.source, f"unknown surface {surface!r}; known: {self.surfaces}") from None
 
     def _missing_text(self) -> list[str]:
+        if getattr(self, "_missing_cache", None) is not None:
+            return self._missing_cache
         ads = np.array(self.network.adsorbates, dtype=object)
-        used = np.array([a in set(self.network.used_adsorbates) for a in ads], dtype=bool)
+        used = self._uses_step.any(axis=0)
         miss = self._missing & used[None, :]
         cache: dict = {}
         out = []
@@ -713,6 +757,7 @@ class NetworkAnalysis:
             if k not in cache:
                 cache[k] = ", ".join(ads[row])
             out.append(cache[k])
+        self._missing_cache = out
         return out
 
     def _attrs(self, quantity: str) -> dict:
@@ -732,6 +777,32 @@ class NetworkAnalysis:
             "notes": list(self.table.notes) + list(self.network.notes)
             + ([f"energies of {len(est)} adsorbates are estimated ({getattr(self.estimator, 'method', '')}), not computed"] if est else []),
         }
+
+
+class _LazyEquations:
+    """Equation text per edge index (array-like; index -1 or n_edges gives ""), built on demand."""
+
+    def __init__(self, steps, step_of_edge):
+        self._steps = steps
+        self._of = step_of_edge
+        self._cache: dict[int, str] = {}
+
+    def _one(self, j: int) -> str:
+        if j < 0 or j >= len(self._of):
+            return ""
+        k = int(self._of[j])
+        t = self._cache.get(k)
+        if t is None:
+            t = self._cache[k] = self._steps[k].equation
+        return t
+
+    def __getitem__(self, idx):
+        if np.ndim(idx) == 0:
+            return self._one(int(idx))
+        arr = np.asarray(idx)
+        uniq, inv = np.unique(arr, return_inverse=True)
+        vals = np.array([self._one(int(j)) for j in uniq], dtype=object)
+        return vals[inv.reshape(arr.shape)]
 
 
 __all__ += ["BLOCKED_OFFSET"]

@@ -46,7 +46,7 @@ class NetworkState:
     electrons: int
     water: int
 
-    @property
+    @cached_property
     def label(self) -> str:
         """Readable label: adsorbates then molecules (``"O* + CH4(g)"``); ``"*"`` when empty."""
         parts = [_count_text(k, c) for k, c in Counter(self.adsorbates).items()]
@@ -169,10 +169,11 @@ class ReactionNetwork:
     def _state_index(self) -> dict[NetworkState, int]:
         return {s: i for i, s in enumerate(self.states)}
 
-    @property
+    @cached_property
     def used_adsorbates(self) -> tuple[str, ...]:
         """Adsorbates that appear in at least one edge, in :attr:`adsorbates` order."""
-        used = {sp.key for e in self.edges for sp in e.step.species if sp.is_adsorbate}
+        steps = {id(e.step): e.step for e in self.edges}.values()
+        used = {sp.key for st in steps for sp in st.species if sp.is_adsorbate}
         return tuple(a for a in self.adsorbates if a in used)
 
     @cached_property
