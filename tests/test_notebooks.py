@@ -85,6 +85,7 @@ def test_notebooks_exist():
         "03_co2_reduction_products.ipynb",
         "04_nitrogen_reduction.ipynb",
         "05_bring_your_own_data.ipynb",
+        "08_c2_c3_network.ipynb",
     ]
 
 
@@ -187,3 +188,15 @@ def test_bring_your_own_data(python3_kernel, kernel_env, tmp_path):
     assert len(shown) == len(lp) == 6
     for r in lp.itertuples():
         assert shown[f"{r.surface} {r.pathway}"] == pytest.approx(r.limiting_potential, abs=1e-6)
+
+
+def test_c2_c3_network(python3_kernel, kernel_env, tmp_path):
+    nb = run_notebook(ROOT / "notebooks" / "08_c2_c3_network.ipynb", tmp_path)
+    assert_figures(nb, "c2c3")
+    iso = text_of(tagged(nb, "isomers")[0])
+    assert "COOH*     -> *C(=O)O" in iso and "OCHO*     -> *OC=O" in iso  # carboxyl vs formate
+    assert "C2H5OH(aq)" in text_of(tagged(nb, "c2-network")[0])
+    c3 = text_of(tagged(nb, "c3")[0])
+    n_int = int(c3.split(" intermediates")[0].split()[-1])
+    assert n_int >= 500  # the C3 network of the size
+    assert "ILLUSTRATIVE" in "".join(c.source for c in nb.cells if c.cell_type == "markdown")
