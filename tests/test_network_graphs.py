@@ -183,6 +183,10 @@ def test_filters(table):
     only = build_network(table, "CO2", products=["CH3OH"])
     assert only.products == ("CH3OH(aq)",)
     assert all(s.electrons <= 6 for s in only.states)
+    ch4 = build_network(table, "CO2", products=["CH4"])
+    assert ch4.products == ("CH4(g)",)
+    # released CO(g) stays in the network: it re-adsorbs on the way to CH4
+    assert "CO(g)" in {s.label for s in ch4.states} and any(e.step.equation == "CO(g) + * -> CO*" for e in ch4.edges)
     pat = build_network(table, "CO2", forbid_patterns=["[#6]-[OX2H1]"])  # no C-OH groups (COOH*, COH*)
     assert "COOH*" not in pat.used_adsorbates and "COH*" not in pat.used_adsorbates and "OCHO*" in pat.used_adsorbates
     with pytest.raises(PathwayError, match="SMARTS"):

@@ -565,7 +565,8 @@ class NetworkAnalysis:
                       for e in (net.edges[j] for j in keep_edges))
         notes = net.notes + (f"pruned at U = {U:g} V vs {self.scale} (pH {self.pH:g})" + (f" on {surface}" if surface else ""),)
         return ReactionNetwork(net.reactant, net.reactant_count, tuple(net.states[i] for i in keep), edges, net.adsorbates, net.molecules,
-                               net.sites, remap[net.start], notes, structures=net.structures, computed=net.computed, direction=net.direction)
+                               net.sites, remap[net.start], notes, structures=net.structures, computed=net.computed, direction=net.direction,
+                               product_filter=net.product_filter)
 
     def stuck_points(self, product: str, potential: float | None = None) -> pd.DataFrame:
         """Where each surface gets stuck on its best route to ``product``: the state before the

@@ -496,9 +496,8 @@ def _prune(net: ReactionNetwork, wanted: list[str] | None) -> ReactionNetwork:
                 alive.add(u)
                 stack.append(u)
     alive.add(net.start)
-    if wanted is not None:  # drop other product states (their routes lead nowhere wanted)
-        alive -= {i for p, i in ps.items() if p not in wanted} - targets
-    if len(alive) == len(net.states):
+    filt = tuple(wanted) if wanted is not None else None
+    if len(alive) == len(net.states) and filt is None:
         return net
     keep = sorted(alive)
     remap = {old: new for new, old in enumerate(keep)}
@@ -509,4 +508,5 @@ def _prune(net: ReactionNetwork, wanted: list[str] | None) -> ReactionNetwork:
     used = {sp.key for st in {id(e.step): e.step for e in edges}.values() for sp in st.species if sp.is_adsorbate}
     ads = tuple(a for a in net.adsorbates if a in used or a in (net.computed or ()))
     return ReactionNetwork(net.reactant, net.reactant_count, tuple(net.states[i] for i in keep), edges, ads, net.molecules, net.sites,
-                           remap[net.start], net.notes, structures=net.structures, computed=net.computed, direction=net.direction)
+                           remap[net.start], net.notes, structures=net.structures, computed=net.computed, direction=net.direction,
+                           product_filter=filt)

@@ -136,6 +136,8 @@ class ReactionNetwork:
     computed: tuple[str, ...] | None = None
     #: "reduction" (electrons taken up) or "oxidation".
     direction: str = "reduction"
+    #: products of interest (None: every product the network reaches).
+    product_filter: tuple[str, ...] | None = None
 
     @property
     def uncomputed(self) -> tuple[str, ...]:
@@ -192,6 +194,8 @@ class ReactionNetwork:
             elif len(kinds) == 1:
                 key = next(iter(kinds))
             else:
+                continue
+            if self.product_filter is not None and key not in self.product_filter:
                 continue
             if key not in out or s.electrons < self.states[out[key]].electrons:
                 out[key] = i
