@@ -311,8 +311,7 @@ class NetworkAnalysis:
         # cost-carrying step: argmax of the step costs along the route
         E = len(self.network.edges)
         safe = np.where(edges >= 0, edges, E)
-        wpad = np.concatenate([self.weight, np.full((S, 1), -np.inf)], axis=1)
-        along = np.take_along_axis(wpad, safe, axis=1) if edges.shape[1] else np.full((S, 0), -np.inf)
+        along = np.where(edges >= 0, self.weight[rows[:, None], np.minimum(safe, E - 1)], -np.inf) if edges.shape[1] else np.full((S, 0), -np.inf)
         if edges.shape[1]:
             kk = along.argmax(axis=1)
             bott = np.where(ok, safe[rows, kk], -1)
