@@ -329,10 +329,15 @@ class NetworkAnalysis:
         return res
 
     def _evaluate(self, edges: np.ndarray, ok: np.ndarray) -> dict:
-        """Kernel read-outs of per-surface routes (grouped by identical routes)."""
+        """Kernel read-outs of per-surface routes, grouped by the routes' electron pattern.
+
+        Routes are padded with zero-electron (chemical) dummy steps: a = 0 for the equilibrium
+        potential and G_max (a zero step changes neither: sum(dG at U_eq) = 0 so G_max >= 0), and
+        a = -inf for the chemical obstacle (never the largest; all-dummy = no chemical step).
+        """
         from ecatlab.che import kernel
 
-        S = edges.shape[0]
+        S, L = edges.shape
         u_l = np.full(S, np.nan)
         det = np.full(S, -1, dtype=np.int64)
         chem = np.full(S, np.nan)
@@ -340,31 +345,47 @@ class NetworkAnalysis:
         u_eq = np.full(S, np.nan)
         est = np.zeros(S, dtype=bool)
         err = np.zeros(S)
-        if edges.shape[1] == 0 or not ok.any():
+        if L == 0 or not ok.any():
             return dict(u_l=u_l, det=det, chem=chem, g_max=g_max, u_eq=u_eq, est=est, err=err)
-        uniq, inv = np.unique(edges, axis=0, return_inverse=True)
+        rows = np.arange(S)[:, None]
+        pad = edges < 0
+        safe = np.where(pad, 0, edges)
+        a_r = np.where(pad, 0.0, self.a[rows, safe])
+        n_r = np.where(pad, 0.0, self.n[safe])
+        a_chem = np.where(pad, -np.inf, a_r)
+        patterns, inv = np.unique(n_r, axis=0, return_inverse=True)
         inv = inv.reshape(-1)
-        for g, row in enumerate(uniq):
-            route = row[row >= 0]
+        for g, n in enumerate(patterns):
             sel = np.flatnonzero((inv == g) & ok)
-            if route.size == 0 or sel.size == 0:
+            if sel.size == 0 or not kernel.electrochemical_mask(n).any():
                 continue
-            a = self.a[np.ix_(sel, route)]
-            n = self.n[route]
-            ul, k = kernel.envelope(a, n, self.network.direction)
+            ul, k = kernel.envelope(a_r[sel], n, self.network.direction)
             u_l[sel] = ul
-            det[sel] = route[k]
-            mc, _ = kernel.chemical_obstacle(a, n)
-            chem[sel] = mc
-            ueq = kernel.equilibrium_potential_from_affine(a, n)
+            det[sel] = edges[sel, k]
+            mc, _ = kernel.chemical_obstacle(a_chem[sel], n)
+            chem[sel] = np.where(np.isneginf(mc), np.nan, mc)
+            ueq = kernel.equilibrium_potential_from_affine(a_r[sel], n)
             u_eq[sel] = ueq
-            gm, _ = kernel.gmax(a, n, ueq)
+            gm, _ = kernel.gmax(a_r[sel], n, ueq[:, None])
             g_max[sel] = gm
-            used = self._uses_edge[route].any(axis=0) & self.estimated_mask
-            if used.any():
-                est[sel] = True
-                err[sel] = self.estimate_error[np.ix_(sel, np.flatnonzero(used))].max(axis=1)
+        if self.estimated_mask.any():
+            est_edge, err_edge = self._estimated_edges()
+            est = (est_edge[safe] & ~pad).any(axis=1) & ok
+            err = np.where(est, np.where(pad, 0.0, err_edge[rows, safe]).max(axis=1), 0.0)
         return dict(u_l=u_l, det=det, chem=chem, g_max=g_max, u_eq=u_eq, est=est, err=err)
+
+    def _estimated_edges(self):
+        """Per edge: uses an estimated adsorbate (n_edges,), and the largest error of those (n_surfaces, n_edges), eV."""
+        if getattr(self, "_est_edges", None) is None:
+            cols = np.flatnonzero(self.estimated_mask)
+            step, k = np.nonzero(self._uses_step[:, cols])
+            K = self._uses_step.shape[0]
+            est_step = np.zeros(K, dtype=bool)
+            est_step[step] = True
+            err_t = np.zeros((K, len(self.surfaces)))
+            np.maximum.at(err_t, step, np.nan_to_num(self.estimate_error[:, cols[k]]).T)
+            self._est_edges = (est_step[self._step_of_edge], err_t.T[:, self._step_of_edge])
+        return self._est_edges
 
     # -- public route read-outs --------------------------------------------------------------------------
     def route_costs(self, product: str, max_routes: int = 50_000) -> pd.DataFrame:
@@ -448,8 +469,9 @@ class NetworkAnalysis:
                 uphill[i] = "; ".join(f"{self._equations[j]} ({self.a[i, j]:+.2f} eV)" for j in route
                                       if not self.electrochemical[j] and self.a[i, j] > 0)
             bott = r["bottleneck"]
-            labels = self._state_labels()
-            stuck = np.where(bott >= 0, labels[self._src[np.maximum(bott, 0)]], "")
+            src_b = np.where(bott >= 0, self._src[np.maximum(bott, 0)], -1)
+            uniq_s, inv_s = np.unique(src_b, return_inverse=True)
+            stuck = np.array([net.states[int(x)].label if x >= 0 else "" for x in uniq_s], dtype=object)[inv_s.reshape(-1)]
             frame = pd.DataFrame(
                 {
                     "surface": self.surfaces,
