@@ -72,6 +72,9 @@ _EXPORTS: dict[str, str] = {
     "best_routes": "ecatlab.network",
     "product_ranking": "ecatlab.network",
     "selectivity": "ecatlab.network",
+    "EnergyEstimator": "ecatlab.network.estimate",
+    "RouteSearch": "ecatlab.network.routes",
+    "skeleton_from_smiles": "ecatlab.network.graphs",
     # scaling relations and volcanoes
     "fit_scaling": "ecatlab.scaling",
     "fit_scaling_relations": "ecatlab.scaling",

@@ -616,7 +616,7 @@ def routes_section(
                                           np.where(h2 > best["limiting_potential"].to_numpy(), "yes", "no"))
     shown = shown.sort_values(f"U_L [V vs {sc}]", ascending=False, kind="stable", na_position="last").reset_index(drop=True)
     shown.attrs["caption"] = (
-        f"Best route {network.reactant} -> {key} per surface (network search over {len(network.routes(key))} routes), "
+        f"Best route {network.reactant} -> {key} per surface (bottleneck search over {len(network.states)} states, {len(network.edges)} steps), "
         f"pH {analysis.pH:g}, {analysis.temperature:.2f} K, {table.scheme.describe().split(';')[0]}. "
         "'HER first' = hydrogen evolution has the less negative limiting potential (a thermodynamic indicator only)."
     )
@@ -625,13 +625,14 @@ def routes_section(
         "potential-determining step": "the electrochemical step that sets U_L",
         "max chemical dG [eV]": "largest free energy of a chemical (potential-independent) step on the route, eV; n/a = none",
         "route": "intermediates in order (after 'via' in NetworkAnalysis.best_routes)",
-        "tied routes": "other routes with the same limiting potential (within 1e-9 eV)",
+        "tied routes": "other steps into the product state reached at the same route cost (within 1e-9 eV)",
     }
     anchor = _anchor(f"routes {network.reactant} {key}")
     intro = (
-        f"<p>Every route from {_esc(network.reactant)} to {_esc(key)} through the adsorbates in the table, searched "
-        "per surface for the least negative limiting potential (bottleneck over electrochemical steps; chemical steps "
-        "reported separately). Surfaces lacking an adsorbate use only the routes their data allow.</p>"
+        f"<p>Routes from {_esc(network.reactant)} to {_esc(key)} through the adsorbates in the table (intermediates as "
+        "molecular graphs, one bond changed per step), searched per surface by a bottleneck shortest path: a route with "
+        "an uphill chemical step is used only when no open route exists, then the least negative limiting potential. "
+        "Surfaces lacking an adsorbate use only the routes their data allow.</p>"
     )
     parts = [intro, to_html(shown)]
     ok = best.dropna(subset=["limiting_potential"])

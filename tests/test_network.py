@@ -71,9 +71,17 @@ def test_builtin_pathway_is_a_route_and_never_beats_the_network(table, reactant,
     product = [sp.key for sp, c in fixed.overall_net().items() if c > 0 and sp.is_molecule and sp.key != "H2O(l)"]
     product = product[0] if product else "H2O(l)"
     an = NetworkAnalysis(net, table)
-    best = an.best_routes(product).set_index("surface")["limiting_potential"]
-    ref = che.limiting_potentials(table, key).set_index("surface")["limiting_potential"]
-    assert (best.loc[ref.index] >= ref - 1e-12).all()
+    best = an.best_routes(product).set_index("surface")
+    ref = che.limiting_potentials(table, key).set_index("surface")
+    best = best.loc[ref.index]
+    # never worse in the kernel's order: an open route beats a blocked one; among open routes the
+    # network's U_L is at least the pathway's; among blocked ones its chemical barrier is no larger
+    open_ref = ~ref["blocked"].to_numpy()
+    assert not (best["blocked"].to_numpy() & open_ref).any()
+    both_open = open_ref & ~best["blocked"].to_numpy()
+    assert (best["limiting_potential"].to_numpy()[both_open] >= ref["limiting_potential"].to_numpy()[both_open] - 1e-12).all()
+    both_blocked = ~open_ref & best["blocked"].to_numpy()
+    assert (best["max_chemical_dG"].to_numpy()[both_blocked] <= ref["max_chemical_dG"].to_numpy()[both_blocked] + 1e-12).all()
 
 
 def test_route_limiting_potential_equals_engine(table, co2):
@@ -119,16 +127,22 @@ def test_hand_computed_network_and_tie_break():
     assert edges["CO* -> * + CO(g)"] == pytest.approx(g_co + 0.2, abs=2e-4)
     assert edges["COOH* + H+ + e- -> * + CO(g) + H2O(l)"] == pytest.approx(g_co - 0.3, abs=2e-4)
     rows = an.best_routes("CO", top=2)
-    # both routes are limited by the first step (0.3 eV): a tie, broken by the uphill desorption
-    assert rows["limiting_potential"].tolist() == pytest.approx([-0.3, -0.3])
-    assert rows["tied_routes"].tolist() == [1, 1]
+    # both routes are limited by the first step (0.3 eV), but CO* -> * + CO(g) is uphill: the route
+    # through it is blocked at every potential, so the concerted release wins outright
+    assert rows.iloc[0]["limiting_potential"] == pytest.approx(-0.3)
     assert rows.iloc[0]["route_steps"].endswith("* + CO(g) + H2O(l)")
-    assert np.isnan(rows.iloc[0]["max_chemical_dG"])
-    assert rows.iloc[1]["max_chemical_dG"] == pytest.approx(g_co + 0.2, abs=2e-4)
-    assert "CO* -> * + CO(g)" in rows.iloc[1]["uphill_chemical_steps"]
-    # a chemical limit below the desorption dG blocks the second route
-    blocked = NetworkAnalysis(an.network, t, chemical_limit=0.0).best_routes("CO", top=2)
-    assert len(blocked) == 1
+    assert not rows.iloc[0]["blocked"] and np.isnan(rows.iloc[0]["max_chemical_dG"])
+    assert rows.iloc[0]["stuck_at"] == "CO2(g)"  # stuck before the first (bottleneck) step
+    # the alternative avoids the bottleneck step CO2 -> COOH*; OH* (for CO2 -> OH* + CO(g)) has no data
+    assert len(rows) == 1
+    # with the concerted step forbidden, only the blocked route is left: returned, flagged blocked
+    only = NetworkAnalysis(build_network(t, "CO2", forbid=["COOH* + H+ + e- -> * + CO(g) + H2O(l)"]), t).best_routes("CO")
+    assert bool(only.iloc[0]["blocked"]) and only.iloc[0]["limiting_potential"] == pytest.approx(-0.3)
+    assert only.iloc[0]["max_chemical_dG"] == pytest.approx(g_co + 0.2, abs=2e-4)
+    assert "CO* -> * + CO(g)" in only.iloc[0]["uphill_chemical_steps"]
+    # a chemical limit below the desorption dG excludes it: no route with data
+    blocked = NetworkAnalysis(build_network(t, "CO2", forbid=["COOH* + H+ + e- -> * + CO(g) + H2O(l)"]), t, chemical_limit=0.0).best_routes("CO")
+    assert np.isnan(blocked.iloc[0]["limiting_potential"])
 
 
 def test_equilibrium_potentials_against_published_values(table, co2):
@@ -243,7 +257,7 @@ def test_networkx_export_and_she_scale(table):
 def test_two_site_coupling_network():
     # invented energies; C2 chemistry on two sites with CO* + CO* -> OCCO* coupling
     t = EnergyTable.from_matrix(pd.DataFrame({"COOH*": [0.2], "CO*": [-0.3], "OCCO*": [0.1], "OCCOH*": [-0.2]}, index=["X"]))
-    net = build_network(t, "2 CO2", sites=2, coupling=True)
+    net = build_network(t, "2 CO2", sites=2, coupling=True, prune=False)  # no C2 product here: keep dead ends
     kinds = {e.kind for e in net.edges}
     assert "coupling" in kinds
     assert any(e.step.equation == "2 CO* -> OCCO* + *" for e in net.edges)

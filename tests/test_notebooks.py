@@ -86,6 +86,7 @@ def test_notebooks_exist():
         "04_nitrogen_reduction.ipynb",
         "05_bring_your_own_data.ipynb",
         "06_uncertainty.ipynb",
+        "08_c2_c3_network.ipynb",
         "09_descriptors_and_pourbaix.ipynb",
     ]
 
@@ -236,3 +237,15 @@ def test_uncertainty(python3_kernel, kernel_env, tmp_path):
                     n_samples=2000, seed=2026).ranking("orr-4e", top=3)
     shown = text_of(tagged(nb, "uncertainty-ranking")[0])
     assert ref.index[0] in shown.splitlines()[2] and f"{ref['p_best'].iloc[0]:.3f}".rstrip("0") in shown
+
+
+def test_c2_c3_network(python3_kernel, kernel_env, tmp_path):
+    nb = run_notebook(ROOT / "notebooks" / "08_c2_c3_network.ipynb", tmp_path)
+    assert_figures(nb, "c2c3")
+    iso = text_of(tagged(nb, "isomers")[0])
+    assert "COOH*     -> *C(=O)O" in iso and "OCHO*     -> *OC=O" in iso  # carboxyl vs formate
+    assert "C2H5OH(aq)" in text_of(tagged(nb, "c2-network")[0])
+    c3 = text_of(tagged(nb, "c3")[0])
+    n_int = int(c3.split(" intermediates")[0].split()[-1])
+    assert n_int >= 500  # the C3 network of the size
+    assert "ILLUSTRATIVE" in "".join(c.source for c in nb.cells if c.cell_type == "markdown")

@@ -38,6 +38,18 @@ def smap(demo):
     return selectivity_map(demo, ("CO*", "OH*"), points=(41, 37))
 
 
+#: With the concerted releases of CO(g) (from COOH* and from CO2(g) with OH*) left out, CO(g) leaves only by
+#: desorption of CO*, uphill on strong-CO-binding surfaces: every CO route there is blocked, so the
+#: map shows a winner whose route has an uphill chemical step (the network search prefers open
+#: routes whenever one exists, so the full network has none there).
+DESORB_ONLY = {"forbid": ["COOH* + H+ + e- -> * + CO(g) + H2O(l)", "CO2(g) + * + H+ + e- -> OH* + CO(g)"]}
+
+
+@pytest.fixture(scope="module")
+def smap_desorb(demo):
+    return selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), network_options=DESORB_ONLY)
+
+
 def _one_surface(smap, i, j):
     D = np.array([[smap.x[j], smap.y[i]]])
     return EnergyTable.from_matrix(smap.space.frame(D, index=["point"]))
@@ -198,7 +210,10 @@ def test_plot_caption_names_basis(demo, smap, tmp_path):
 
 
 # -- chemical steps of the winner's route, chemical_limit, overlay -------------------------------------
-def test_winner_chemical_dG_equals_direct_network_and_engine(demo, smap):
+def test_winner_chemical_dG_equals_direct_network_and_engine(demo, smap, smap_desorb):
+    # full network: no winner needs an uphill chemical step (open routes are preferred)
+    assert not np.any(smap.winner_max_chemical_dG > 0)
+    smap = smap_desorb
     w = smap.winner_max_chemical_dG
     assert w.shape == smap.winner.shape
     # the demo's strong-CO-binding corner: CO wins there, but CO* -> * + CO(g) is uphill
@@ -212,7 +227,7 @@ def test_winner_chemical_dG_equals_direct_network_and_engine(demo, smap):
         if product == "H2(g)":
             expect = che.limiting_potentials(table, "her-volmer-heyrovsky")["max_chemical_dG"].iloc[0]
         else:
-            expect = NetworkAnalysis(build_network(table, "CO2"), table).best_routes(product).iloc[0]["max_chemical_dG"]
+            expect = NetworkAnalysis(build_network(table, "CO2", **DESORB_ONLY), table).best_routes(product).iloc[0]["max_chemical_dG"]
         if np.isnan(expect):
             assert np.isnan(w[i, j])
         else:
@@ -229,10 +244,11 @@ def test_winner_chemical_dG_equals_direct_network_and_engine(demo, smap):
         assert (np.isnan(p.winner_max_chemical_dG[i, j]) and np.isnan(expect)) or p.winner_max_chemical_dG[i, j] == pytest.approx(expect, abs=1e-12)
 
 
-def test_chemical_limit_excludes_uphill_routes(demo, smap):
+def test_chemical_limit_excludes_uphill_routes(demo, smap_desorb):
+    smap = smap_desorb
     limit = 0.3
     assert np.nanmax(smap.winner_max_chemical_dG) > limit  # without the limit some winners have such a step
-    s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=limit)
+    s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=limit, network_options=DESORB_ONLY)
     assert s.conditions["chemical_limit"] == limit and "chemical_limit = 0.3 eV" in s.conditions["rule"]
     assert not np.any(s.winner_max_chemical_dG > limit)  # NaN: no chemical step at all
     assert not np.any(s.max_chemical_dG > limit)
@@ -245,7 +261,7 @@ def test_chemical_limit_excludes_uphill_routes(demo, smap):
     checked_routes = 0
     for i, j in points:
         table = _one_surface(s, i, j)
-        an = NetworkAnalysis(build_network(table, "CO2"), table, chemical_limit=limit)
+        an = NetworkAnalysis(build_network(table, "CO2", **DESORB_ONLY), table, chemical_limit=limit)
         top = an.product_ranking().iloc[0]
         assert s.products[s.winner[i, j]] == top["product"]
         assert s.onset[s.winner[i, j], i, j] == pytest.approx(top["onset_potential"], abs=1e-12)
@@ -273,7 +289,8 @@ def test_chemical_limit_excludes_uphill_routes(demo, smap):
         selectivity_map(demo, ("CO*", "OH*"), points=5, chemical_limit="high")
 
 
-def test_plot_marks_uphill_chemical_step(demo, smap, tmp_path):
+def test_plot_marks_uphill_chemical_step(demo, smap_desorb, tmp_path):
+    smap = smap_desorb
     from ecatlab.plotting.volcano import CHEMICAL_OVERLAY_GID, plot_selectivity_map
 
     def overlay(ax):
@@ -286,6 +303,6 @@ def test_plot_marks_uphill_chemical_step(demo, smap, tmp_path):
     assert "0.5 eV" in ax.get_legend().get_texts()[0].get_text()
     ax.figure.savefig(tmp_path / "chem.png", bbox_inches="tight")
     assert overlay(plot_selectivity_map(smap, chemical_threshold=None)) == []
-    s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=0.3)
+    s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=0.3, network_options=DESORB_ONLY)
     ax = plot_selectivity_map(s)  # no winner above 0.5 eV: no overlay, the caption names the limit
     assert overlay(ax) == [] and "above 0.3 eV excluded" in " ".join(t.get_text() for t in ax.texts).replace("\n", " ")

@@ -21,7 +21,8 @@ def register(subparsers) -> None:
         help="best route from a reactant to a product on every surface (reaction network search)",
         description=(
             "Build the reaction network from the adsorbates in FILE and the molecules the reference scheme knows, "
-            "and report the route with the least negative limiting potential per surface (and runners-up). "
+            "and report per surface the best route: no uphill chemical step if possible, then the least negative limiting "
+            "potential (and alternatives avoiding the better routes' bottleneck steps). "
             "Without --to, rank all products (hydrogen evolution included) by onset potential."
         ),
     )
@@ -35,12 +36,23 @@ def register(subparsers) -> None:
     p.add_argument("--sites", type=opt.int_range(1, 4), default=1, metavar="N", help="adsorbates on the surface at once (1 to 4, default 1; 2 for C-C coupling)")
     p.add_argument("--coupling", action="store_true", help="add chemical coupling steps X* + Y* -> Z* + * (needs --sites 2 or more), e.g. 2 CO* -> OCCO* + *")
     p.add_argument("--top", type=opt.int_range(1, 50), default=1, help="routes per surface: 1 = best only, 3 = best and two runners-up (1 to 50)")
-    p.add_argument("--chemical-limit", type=opt.finite_float, metavar="EV", help="block chemical steps with dG above this (eV, finite); default: keep and report them")
+    p.add_argument("--chemical-limit", type=opt.finite_float, metavar="EV", help="block chemical steps with dG above this (eV, finite); any uphill chemical step already makes a route 'blocked'; default: keep and report them")
     p.add_argument("--edges", action="store_true", help="print the table of all network steps with dG at 0 V instead")
     p.add_argument("--format", type=str.lower, choices=FORMATS, default=None, help="output format (default: from the -o extension, else csv)")
     p.add_argument("--decimals", type=opt.int_range(0, 12), default=4, help="decimals of the numbers in csv/markdown/latex/html (0 to 12, default 4)")
     p.add_argument("--figure", metavar="OUT", help="save a network figure (first surface, best route drawn) to OUT (.svg/.pdf/.png)")
     opt.add_output(p, "table file to write instead of printing (.csv, .tsv, .md, .tex, .html, .json)")
+    g = p.add_argument_group("network from molecular structure")
+    g.add_argument("--uncomputed", action="store_true", help="also use intermediates the table lacks (energies estimated, see --estimate)")
+    g.add_argument("--estimate", choices=["additivity", "scaling"], help="estimate missing adsorbate energies: group additivity or binding-atom scaling fitted on the table (implies --uncomputed)")
+    g.add_argument("--computed-only", action="store_true", help="keep only routes through computed (tabulated) species")
+    g.add_argument("--max-carbons", type=opt.int_range(0, 12), metavar="N", help="largest number of carbon atoms of any intermediate")
+    g.add_argument("--max-steps", type=opt.int_range(1, 100), metavar="N", help="largest number of steps from the reactant")
+    g.add_argument("--products", nargs="+", metavar="P", help="products of interest: drop states that reach none of them")
+    g.add_argument("--forbid-pattern", action="append", default=[], metavar="SMARTS", help="leave out intermediates matching a SMARTS pattern (surface = *), repeatable")
+    g.add_argument("--structure", action="append", default=[], metavar="NAME=SMILES", help="structure of a table species, binding atom marked with *, e.g. 'HCOO*=*OC=O' (repeatable)")
+    g.add_argument("--stuck", type=opt.finite_float, metavar="U", help="with --to: where each surface gets stuck at potential U (V on the scale)")
+    g.add_argument("--prune", type=opt.finite_float, metavar="U", help="print the steps of the network pruned at potential U (V) on the first surface")
     p.set_defaults(func=run)
 
 
@@ -61,12 +73,22 @@ def run(args: argparse.Namespace) -> int:
     from ecatlab.energies import read_energies
     from ecatlab.network import NetworkAnalysis, build_network
 
+    from ecatlab.errors import EcatlabError
+
     table = read_energies(args.file, temperature=args.temperature)
     surfaces = opt.check_surfaces(table, args.surface)
     opt.check_species(table, args.allow or [], "--allow")
+    structures = {}
+    for item in args.structure:
+        name, sep, smiles = item.partition("=")
+        if not sep or not name.strip() or not smiles.strip():
+            raise OptionError(f"--structure {item!r}: write NAME=SMILES, e.g. 'HCOO*=*OC=O'")
+        structures[name.strip()] = smiles.strip()
     options = dict(allow=args.allow, forbid=args.forbid, sites=args.sites, coupling=args.coupling)
+    extra = dict(structures=structures or None, uncomputed=bool(args.uncomputed or args.estimate), max_carbons=args.max_carbons,
+                 max_steps=args.max_steps, products=args.products, forbid_patterns=args.forbid_pattern)
     try:
-        net = build_network(table, args.reactant, **options)
+        net = build_network(table, args.reactant, **options, **extra)
     except PathwayError as exc:
         raise opt.suggest_known(exc, args.reactant.split()[-1]) from None
     if args.product:
@@ -74,10 +96,19 @@ def run(args: argparse.Namespace) -> int:
             _check_reachable(table, args.reactant, args.product, net, options)
         except PathwayError as exc:
             raise opt.suggest_known(exc, args.product) from None
+    if args.stuck is not None and not args.product:
+        raise OptionError("--stuck needs --to PRODUCT")
     an = NetworkAnalysis(net, table, pH=args.pH, scale=args.scale, temperature=args.temperature, surfaces=surfaces,
-                         chemical_limit=args.chemical_limit)
-    if args.edges:
+                         chemical_limit=args.chemical_limit, estimates=args.estimate, computed_only=args.computed_only)
+    if args.prune is not None:
+        pruned = an.pruned(args.prune, surface=an.surfaces[0])
+        frame = NetworkAnalysis(pruned, table, pH=an.pH, scale=an.scale, temperature=an.temperature, surfaces=[an.surfaces[0]],
+                                estimates=args.estimate, computed_only=args.computed_only).edge_table(args.prune)
+        frame.attrs["quantity"] = f"steps downhill at U = {args.prune:g} V on {an.surfaces[0]} ({len(pruned.states)} of {len(net.states)} states)"
+    elif args.edges:
         frame = an.edge_table(0.0)
+    elif args.stuck is not None:
+        frame = an.stuck_points(args.product, potential=args.stuck)
     elif args.product:
         frame = an.best_routes(args.product, top=args.top)
     else:

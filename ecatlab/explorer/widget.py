@@ -331,6 +331,11 @@ class Explorer:
         from ecatlab.explorer.uncertainty_tab import UncertaintyPanel
 
         self.uncertainty = UncertaintyPanel(error_line=self.error, state_getter=lambda: self.state, visible_getter=lambda: self.tabs.selected_index == 0)
+        from ecatlab.explorer.network_tab import NetworkPanel
+
+        self.network_panel = NetworkPanel(s.table, error_line=self.error)
+        self.network_panel.conditions = lambda: (self.state.pH, self.state.scale, self.state.temperature)
+        self.network_panel.is_visible = lambda: self.tabs.selected_index == 2
         self._wire()
         self._shown_heading = self._heading()
         self.view.rebuild(s, self._shown_heading)
@@ -349,7 +354,8 @@ class Explorer:
             ]
         )
         # the diagram tab comes first and is the one shown; the volcano tab is drawn when opened
-        self.tabs = w.Tab(children=[self.main, self.volcano.widget], titles=("diagram", "volcano"), selected_index=0)
+        self.tabs = w.Tab(children=[self.main, self.volcano.widget, self.network_panel.widget], titles=("diagram", "volcano", "network"),
+                          selected_index=0)
         self.tabs.observe(self._guard(self._on_tab), names="selected_index")
         self.widget = self.tabs
         self._refresh()
@@ -601,6 +607,7 @@ class Explorer:
 
     def _on_tab(self, change) -> None:
         self._refresh_volcano()
+        self.network_panel.refresh(self.state.pH, self.state.scale, self.state.temperature, visible=self.tabs.selected_index == 2)
 
     def _on_descriptor(self, change) -> None:
         self._refresh_volcano()

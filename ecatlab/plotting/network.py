@@ -1,5 +1,7 @@
 """Figure of a reaction network: states in columns by proton-electron pairs added, steps coloured
-by their free energy at a potential, the best route drawn on top.
+by their free energy at a potential, the best route and alternatives drawn on top, the state where
+the surface gets stuck ringed. Readable at hundreds of states: background steps are one line
+collection per kind, unlabelled states are dots, and the default view is filtered to the routes.
 
 The plotter only draws; all numbers come from :class:`ecatlab.network.NetworkAnalysis`.
 """
@@ -12,7 +14,7 @@ import numpy as np
 
 from ecatlab.plotting.style import HIGHLIGHT, PALETTE, preset, style_context
 
-__all__ = ["plot_network", "state_mathtext"]
+__all__ = ["plot_network", "state_mathtext", "network_view"]
 
 
 def state_mathtext(label: str) -> str:
@@ -31,16 +33,20 @@ def state_mathtext(label: str) -> str:
     return "\n+ ".join(parts)
 
 
-def _layout(network, route_states: list[int], shown: list[int]) -> dict[int, tuple[float, float]]:
-    """x = proton-electron pairs added; within a column the route state sits at y = 0, others
-    alternate above and below in label order."""
+def _layout(network, route_states: list[int], shown: list[int], extra_routes: list[list[int]] = ()) -> dict[int, tuple[float, float]]:
+    """x = proton-electron pairs added; within a column the best-route state sits at y = 0, states of
+    the alternative routes next to it, the others alternate above and below in label order (the
+    spacing shrinks for crowded columns so hundreds of states fit)."""
     columns: dict[int, list[int]] = {}
     for i in shown:
         columns.setdefault(network.states[i].electrons, []).append(i)
     on_route = set(route_states)
+    alt = {i: k + 1 for k, r in enumerate(extra_routes) for i in r}
     pos = {}
+    tallest = max((len(m) for m in columns.values()), default=1)
+    gap = 1.0 if tallest <= 12 else 12.0 / tallest
     for k, members in columns.items():
-        members = sorted(members, key=lambda i: (i not in on_route, network.states[i].label))
+        members = sorted(members, key=lambda i: (i not in on_route, alt.get(i, 99), network.states[i].label))
         offsets = [0.0]
         step = 1
         while len(offsets) < len(members):
@@ -51,10 +57,47 @@ def _layout(network, route_states: list[int], shown: list[int]) -> dict[int, tup
         if not any(i in on_route for i in members):
             offsets = [o + 0.5 if len(members) % 2 == 0 else o for o in offsets]
         for i, y in zip(members, offsets):
-            if i not in on_route and k % 2:
+            if i not in on_route and k % 2 and gap == 1.0:
                 y += 0.3 if y > 0 else -0.3  # stagger neighbouring columns so labels do not collide
-            pos[i] = (float(k), y)
+            pos[i] = (float(k), y * gap)
     return pos
+
+
+def network_view(analysis, surface: str, product: str | None, alternatives: int = 2, neighbours: int = 0, full: bool = False):
+    """States and steps to draw: the best route (and ``alternatives`` more) to ``product`` plus the
+    states within ``neighbours`` steps of them; everything when ``full`` or no product.
+
+    Returns ``(route_edges, alt_routes, shown_states, shown_edges)`` (edge / state indices).
+    """
+    net = analysis.network
+    route_edges: list[int] = []
+    alt_routes: list[list[int]] = []
+    if product is not None:
+        key = net.resolve_product(product)
+        i_s = analysis._surface_index(surface)
+        for rank in range(1, 2 + max(0, int(alternatives))):
+            r = analysis._route_arrays(key, rank)
+            if not r["ok"][i_s]:
+                break
+            edges = [int(j) for j in r["edges"][i_s] if j >= 0]
+            if rank == 1:
+                route_edges = edges
+            else:
+                alt_routes.append(edges)
+    if full or product is None:
+        return route_edges, alt_routes, list(range(len(net.states))), list(range(len(net.edges)))
+    states = {net.start} | {net.edges[j].target for r in [route_edges] + alt_routes for j in r}
+    frontier = set(states)
+    src = np.array([e.source for e in net.edges])
+    tgt = np.array([e.target for e in net.edges])
+    for _ in range(max(0, int(neighbours))):
+        nxt = set(tgt[np.isin(src, list(frontier))].tolist()) | set(src[np.isin(tgt, list(frontier))].tolist())
+        frontier = nxt - states
+        states |= nxt
+    shown_edges = [j for j in range(len(net.edges)) if src[j] in states and tgt[j] in states]
+    if not neighbours:  # only the routes themselves
+        shown_edges = sorted({j for r in [route_edges] + alt_routes for j in r})
+    return route_edges, alt_routes, sorted(states), shown_edges
 
 
 def plot_network(
@@ -68,89 +111,110 @@ def plot_network(
     dG_range: float | None = None,
     caption: bool = True,
     full: bool = False,
+    alternatives: int = 2,
+    neighbours: int = 0,
+    max_labels: int = 60,
 ):
-    """Draw the network of ``analysis`` on one surface.
+    """Draw the network of ``analysis`` on one surface, layered by proton-electron pairs transferred.
 
     Parameters
     ----------
     analysis : NetworkAnalysis
     surface : str
     product : str, optional
-        Product whose best route is drawn (thick, highlighted). None: no route drawn.
+        Product whose best route is drawn (thick, highlighted) with ``alternatives`` runner-up
+        routes (thinner); the state where the surface gets stuck (before the bottleneck step)
+        is ringed. None: no route drawn.
     potential : float
-        U in V on the analysis scale at which the step colours (dG, eV) are evaluated.
+        U in V on the analysis scale at which the step colours (dG, eV, from the CHE kernel) are evaluated.
     ax : matplotlib Axes, optional
     style : str
         Preset of :mod:`ecatlab.plotting.style`.
     cmap : str
         Diverging colour map for dG (centred on 0 eV: downhill blue, uphill red).
     dG_range : float, optional
-        Colour range +/- eV (default: the largest |dG| on the surface, at least 0.5 eV).
+        Colour range +/- eV (default: the largest |dG| shown, at least 0.5 eV).
     caption : bool
         Write the conditions (scale, pH, U, references) under the axes.
     full : bool
-        Draw the whole network. Default: when ``product`` is given, only the states and steps
-        lying on some route to it.
+        Draw the whole network (states as dots, labels only for route states when there are more
+        than ``max_labels``). Default with a product: the routes and their ``neighbours``.
+    alternatives, neighbours : int
+        Filtered view: number of alternative routes, and how many steps around them to include.
+    max_labels : int
+        Label every state when at most this many are drawn.
 
     Returns
     -------
     matplotlib Axes
     """
     import matplotlib.pyplot as plt
+    from matplotlib.collections import LineCollection
     from matplotlib.colors import TwoSlopeNorm
     from matplotlib.lines import Line2D
     from matplotlib.transforms import offset_copy
 
+    from ecatlab.che import kernel
+
     net = analysis.network
     i_s = analysis._surface_index(surface)
     p = preset(style)
-    route_edges: list[int] = []
     title = f"{net.reactant} network on {surface}"
+    route_edges, alt_routes, shown_states, shown_edges = network_view(analysis, surface, product, alternatives, neighbours, full)
+    stuck = None
     if product is not None:
         key = net.resolve_product(product)
         ranked = analysis.ranked_routes(surface, key, top=1)[0]
-        steps = [s.equation for s in ranked.pathway.steps]
-        # map the route steps back to edge indices along the states
-        state = net.start
-        for eq in steps:
-            j = next(j for j, e in enumerate(net.edges) if e.source == state and e.step.equation == eq)
-            route_edges.append(j)
-            state = net.edges[j].target
         title += f": best route to {key}, $U_L$ = {ranked.limiting_potential:+.2f} V vs {analysis.scale}"
+        if ranked.blocked:
+            title += " (blocked by an uphill chemical step)"
+        b = int(analysis._route_arrays(key, 1)["bottleneck"][i_s])
+        stuck = net.edges[b].source if b >= 0 else None
     route_states = [net.start] + [net.edges[j].target for j in route_edges]
-    shown_edges = list(range(len(net.edges)))
-    if product is not None and not full:
-        shown_edges = sorted({j for r in net.routes(key) for j in r})
-    shown_states = sorted({net.start} | {net.edges[j].source for j in shown_edges} | {net.edges[j].target for j in shown_edges})
-    pos = _layout(net, route_states, shown_states)
-    dG = analysis.a[i_s] + analysis.n * float(potential)
-    finite = dG[shown_edges][np.isfinite(dG[shown_edges])]
+    alt_states = [[net.edges[j].target for j in r] for r in alt_routes]
+    pos = _layout(net, route_states, shown_states, alt_states)
+    dG = kernel.step_free_energy(analysis.a[i_s], analysis.n, float(potential))
+    finite = dG[shown_edges][np.isfinite(dG[shown_edges])] if shown_edges else np.array([])
     span = dG_range or max(0.5, float(np.max(np.abs(finite))) if finite.size else 0.5)
     norm = TwoSlopeNorm(vcenter=0.0, vmin=-span, vmax=span)
     colormap = plt.get_cmap(cmap)
+    labelled = set(shown_states) if len(shown_states) <= max_labels else set(route_states) | {i for r in alt_states for i in r}
+    on_any = set(route_edges) | {j for r in alt_routes for j in r}
     with style_context(p):
         if ax is None:
             fig, ax = plt.subplots(figsize=p.figsize)
         fig = ax.figure
-        for j in shown_edges:
-            e = net.edges[j]
-            (x0, y0), (x1, y1) = pos[e.source], pos[e.target]
-            colour = colormap(norm(dG[j])) if np.isfinite(dG[j]) else "#BBBBBB"
-            on_route = j in route_edges
-            bend = "arc3,rad=0.0" if x1 != x0 else "arc3,rad=0.35"
-            if on_route:
-                ax.annotate("", xy=(x1, y1), xytext=(x0, y0), zorder=1,
-                            arrowprops=dict(arrowstyle="-", lw=p.level_width_pt * 2.4, color=HIGHLIGHT, shrinkA=9, shrinkB=9,
-                                            connectionstyle=bend))
-            ax.annotate(
-                "", xy=(x1, y1), xytext=(x0, y0), zorder=2,
-                arrowprops=dict(
-                    arrowstyle="-|>", mutation_scale=8 + 2 * on_route, lw=p.connector_width_pt * (2.4 if on_route else 1.3),
-                    color=colour, shrinkA=11, shrinkB=11, linestyle="-" if e.is_electrochemical else (0, (3, 2)),
-                    connectionstyle=bend,
-                ),
-            )
+        # background steps: one collection per kind (electrochemical solid, chemical dashed)
+        for chem in (False, True):
+            sel = [j for j in shown_edges if (not net.edges[j].is_electrochemical) == chem and j not in on_any]
+            if not sel:
+                continue
+            segs = [(pos[net.edges[j].source], pos[net.edges[j].target]) for j in sel]
+            cols = [colormap(norm(dG[j])) if np.isfinite(dG[j]) else "#BBBBBB" for j in sel]
+            ax.add_collection(LineCollection(segs, colors=cols, linewidths=p.connector_width_pt * (1.3 if len(sel) < 200 else 0.5),
+                                             linestyles="dashed" if chem else "solid", alpha=1.0 if len(sel) < 200 else 0.5, zorder=1))
+        for rank, edges in enumerate([route_edges] + alt_routes):
+            for j in edges:
+                e = net.edges[j]
+                (x0, y0), (x1, y1) = pos[e.source], pos[e.target]
+                colour = colormap(norm(dG[j])) if np.isfinite(dG[j]) else "#BBBBBB"
+                bend = "arc3,rad=0.0" if x1 != x0 else "arc3,rad=0.35"
+                if rank == 0:
+                    ax.annotate("", xy=(x1, y1), xytext=(x0, y0), zorder=1,
+                                arrowprops=dict(arrowstyle="-", lw=p.level_width_pt * 2.4, color=HIGHLIGHT, shrinkA=9, shrinkB=9,
+                                                connectionstyle=bend))
+                ax.annotate(
+                    "", xy=(x1, y1), xytext=(x0, y0), zorder=2,
+                    arrowprops=dict(arrowstyle="-|>", mutation_scale=9 if rank == 0 else 7, lw=p.connector_width_pt * (2.4 if rank == 0 else 1.4),
+                                    color=colour, shrinkA=11, shrinkB=11, linestyle="-" if e.is_electrochemical else (0, (3, 2)),
+                                    connectionstyle=bend),
+                )
+        dots = [i for i in shown_states if i not in labelled]
+        if dots:
+            ax.scatter([pos[i][0] for i in dots], [pos[i][1] for i in dots], s=6, color="#777777", zorder=2, linewidths=0)
         for i in shown_states:
+            if i not in labelled:
+                continue
             s = net.states[i]
             x, y = pos[i]
             on_route = i in route_states
@@ -158,6 +222,9 @@ def plot_network(
                 x, y, state_mathtext(s.label), ha="center", va="center", fontsize=p.font_pt - 2, zorder=3, linespacing=1.0,
                 bbox=dict(boxstyle="round,pad=0.25", fc="white", ec=PALETTE[0] if on_route else "#999999", lw=1.1 if on_route else 0.6),
             )
+        if stuck is not None and stuck in pos:
+            ax.scatter([pos[stuck][0]], [pos[stuck][1]], s=900, facecolors="none", edgecolors=PALETTE[3 % len(PALETTE)],
+                       linewidths=1.6, zorder=4, label="stuck here (before the bottleneck step)")
         xs = [xy[0] for xy in pos.values()]
         ys = [xy[1] for xy in pos.values()]
         ax.set_xlim(min(xs) - 0.6, max(xs) + 0.6)
@@ -174,13 +241,17 @@ def plot_network(
                    Line2D([], [], color="#555555", lw=1.2, ls=(0, (3, 2)), label="chemical step (potential independent)")]
         if route_edges:
             handles.append(Line2D([], [], color=HIGHLIGHT, lw=5, label="best route"))
+        if stuck is not None:
+            handles.append(Line2D([], [], ls="", marker="o", mfc="none", mec=PALETTE[3 % len(PALETTE)], ms=10, label="stuck here"))
         below = offset_copy(ax.transAxes, fig=fig, y=-3.6 * p.font_pt, units="points")  # under the x label
-        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(0.0, 0.0), bbox_transform=below, ncol=3, frameon=False,
+        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(0.0, 0.0), bbox_transform=below, ncol=4, frameon=False,
                   borderaxespad=0.0)
         if caption:
+            est = int(analysis.estimated_mask.sum())
             ax.annotate(
-                f"CHE, pH {analysis.pH:g}, {analysis.temperature:g} K; energies: {analysis.table.source}. "
-                "Theoretical estimate (thermodynamics only).",
+                f"CHE, pH {analysis.pH:g}, {analysis.temperature:g} K; energies: {analysis.table.source}"
+                + (f"; {est} adsorbate energies estimated ({getattr(analysis.estimator, 'method', '')})" if est else "")
+                + f"; {len(shown_states)} of {len(net.states)} states shown. Theoretical estimate (thermodynamics only).",
                 xy=(0, 0), xycoords="axes fraction", xytext=(0, -5.6 * p.font_pt), textcoords="offset points",
                 fontsize=p.font_pt - 2, color="#444444", va="top",
             )
