@@ -176,3 +176,12 @@ class CorrectionWarning(EcatlabWarning):
 class ScalingError(EcatlabError, ValueError):
     """A scaling-relation fit or a volcano/map built on scaling relations cannot be done
     (too few surfaces, an adsorbate not tied to the descriptors, dependent descriptors...)."""
+
+
+class KineticsInputError(EcatlabError, ValueError):
+    """Bad input to a microkinetic model (barrier table, activities, interactions, potentials)."""
+
+
+class KineticsConvergenceWarning(EcatlabWarning):
+    """A steady state was not found (or several were) at some (surface, potential) points; they
+    are flagged in the result (``converged``, ``steady_states``) and never silently filled."""
