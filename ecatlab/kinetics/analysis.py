@@ -141,6 +141,12 @@ def _barrier_label(result: SteadyState) -> np.ndarray:
     return np.where(u.all(axis=1), "user", np.where(u.any(axis=1), "mixed", "estimated"))
 
 
+def _first_reaction(result: SteadyState):
+    if not result.model.pathways:
+        raise KineticsInputError("this model was built from bare steps and has no overall reaction; build it from pathways for this read-out")
+    return result.model.pathways[0]
+
+
 def _grid(result: SteadyState):
     S, P = result.converged.shape
     surf = np.repeat(np.asarray(result.model.surfaces, dtype=object), P)
@@ -176,9 +182,49 @@ def _attrs(result: SteadyState, quantity: str, columns: dict, units: dict) -> di
     }
 
 
+def _conditioned(result: SteadyState, weights: np.ndarray) -> np.ndarray:
+    """Equivalent step weights c = w + N_ads v that avoid the cancellation of fast steps, (S, P, steps, K).
+
+    At a steady state sum_i N_ij r_i = 0 for every adsorbate j, so sum_i w_i r_i = sum_i c_i r_i
+    for any c = w + N_ads v. Choosing v by weighted least squares, min sum_i (g_i c_i)^2 with g_i
+    the gross rate r_f + r_b of step i, moves the weight off quasi-equilibrated steps, whose net
+    rate r_f - r_b is a small difference of large numbers; the read-out then keeps full precision
+    (e.g. a Heyrovsky-limited current behind a Volmer step 1e15 times faster).
+    """
+    m = result.model
+    S, P = result.converged.shape
+    w = np.asarray(weights, dtype=float)
+    w2 = w[:, None] if w.ndim == 1 else w
+    N = m.net_stoichiometry[:, : m.n_species - 1]  # (steps, m)
+    g = np.nan_to_num(result.forward_rates + result.backward_rates, nan=1.0).reshape(S * P, m.n_steps)
+    g = g / np.maximum(g.max(axis=1, keepdims=True), 1e-300)
+    g2 = g * g
+    M = np.einsum("ij,bi,ik->bjk", N, g2, N)
+    M = M + 1e-300 * np.eye(N.shape[1])[None]
+    rhs = -np.einsum("ij,bi,ik->bjk", N, g2, w2)
+    try:
+        v = np.linalg.solve(M, rhs)
+    except np.linalg.LinAlgError:
+        v = np.stack([np.linalg.lstsq(Mb, rb, rcond=None)[0] for Mb, rb in zip(M, rhs)])
+    c = w2[None] + np.einsum("ij,bjk->bik", N, v)
+    c = np.where(np.isfinite(c), c, w2[None])
+    out = c.reshape(S, P, m.n_steps, w2.shape[1])
+    return out[..., 0] if w.ndim == 1 else out
+
+
 def _electron_rate(result: SteadyState) -> np.ndarray:
-    """Electrons consumed per site per second, (S, P)."""
-    return np.einsum("spi,i->sp", result.net_rates, result.model.electrons)
+    """Electrons consumed per site per second, (S, P) (well-conditioned sum, see _conditioned)."""
+    c = _conditioned(result, result.model.electrons)
+    return np.einsum("spi,spi->sp", result.net_rates, c)
+
+
+def _formation_rates(result: SteadyState) -> np.ndarray:
+    """Net formation rate of each product per site, (S, P, K) (well-conditioned)."""
+    m = result.model
+    if not m.products:
+        return np.zeros(result.converged.shape + (0,))
+    c = _conditioned(result, m.product_stoichiometry)
+    return np.einsum("spi,spik->spk", result.net_rates, c)
 
 
 def current_density(result: SteadyState) -> np.ndarray:
@@ -216,7 +262,8 @@ def _tafel(result: SteadyState) -> np.ndarray:
     dlnrf = (-(slope * n) / kT)[:, None, :]
     dlnrb = (-((slope - 1.0) * n) / kT)[:, None, :]
     dnet = _sensitivity(result, dlnrf, dlnrb)[:, 0, :]  # d r_net / dU
-    de = dnet @ n  # d(electron rate)/dU
+    c = _conditioned(result, n).reshape(S * P, m.n_steps)
+    de = np.einsum("bi,bi->b", dnet, c)  # d(electron rate)/dU
     e = _electron_rate(result).reshape(S * P)
     with np.errstate(divide="ignore", invalid="ignore"):
         dlnj = de / e
@@ -230,7 +277,7 @@ def polarization_curve(result: SteadyState) -> pd.DataFrame:
     S, P = result.converged.shape
     j = current_density(result)
     e = _electron_rate(result)
-    R = np.einsum("spi,ik->spk", result.net_rates, m.product_stoichiometry)
+    R = _formation_rates(result)
     surf, pot = _grid(result)
     labels = np.repeat(_barrier_label(result), P)
     frame = pd.DataFrame(
@@ -288,7 +335,7 @@ def faradaic_efficiencies(result: SteadyState, min_current_density: float = 1e-1
     m = result.model
     S, P = result.converged.shape
     K = len(m.products)
-    R = np.einsum("spi,ik->spk", result.net_rates, m.product_stoichiometry)  # (S, P, K)
+    R = _formation_rates(result)  # (S, P, K)
     z = m.electrons_per_product
     e = _electron_rate(result)
     j = current_density(result)
@@ -331,14 +378,14 @@ def degree_of_rate_control(result: SteadyState, output: str = "current") -> pd.D
     dnet = _sensitivity(result, eye, eye)  # (B, K=steps scaled, steps)
     if output == "current":
         weights = m.electrons
-        base = _electron_rate(result).reshape(S * P)
     elif output in m.products:
         weights = m.product_stoichiometry[:, m.products.index(output)]
-        base = np.einsum("spi,i->sp", result.net_rates, weights).reshape(S * P)
     else:
         raise KineticsInputError(f"output must be 'current' or one of the products {list(m.products)}, got {output!r}")
+    c = _conditioned(result, weights).reshape(S * P, n_steps)
+    base = np.einsum("bi,bi->b", np.nan_to_num(result.net_rates).reshape(S * P, n_steps), c)
     with np.errstate(divide="ignore", invalid="ignore"):
-        X = (dnet @ weights) / base[:, None]
+        X = np.einsum("bki,bi->bk", dnet, c) / base[:, None]
     X = np.where(result.converged.reshape(S * P)[:, None], X, np.nan)
     surf, pot = _grid(result)
     frame = pd.DataFrame(
@@ -366,7 +413,7 @@ def onset_potentials(result: SteadyState, current_density: float = DEFAULT_ONSET
     if not (np.isfinite(current_density) and current_density > 0):
         raise KineticsInputError(f"onset current density must be a positive number of mA/cm^2, got {current_density!r}")
     m = result.model
-    info = m.pathways[0]
+    info = _first_reaction(result)
     u_eq = info.equilibrium_potential_at_activities
     order = np.argsort(result.potentials)
     u = result.potentials[order]
@@ -424,7 +471,7 @@ def gmax_descriptor(result: SteadyState) -> pd.DataFrame:
     """
     m = result.model
     S, P = result.converged.shape
-    info = m.pathways[0]
+    info = _first_reaction(result)
     u_eq = info.equilibrium_potential
     a = np.broadcast_to(m.affine_a[:, None, :], (S, P, m.n_steps))
     g, gi = kernel.gmax(a, m.electrons, np.broadcast_to(result.potentials[None, :], (S, P)))

@@ -244,6 +244,10 @@ def _collect_steps(model_input) -> tuple[list[Step], list[tuple[str, str, dict, 
             state = model_input.states[model_input.product_state(product)]
             count = max(1, list(state.molecules).count(product)) if state.molecules else max(1, state.water)
             overall.append((f"{model_input.reactant}->{product}", "reduction", {"product": product}, state.electrons / count))
+    elif not isinstance(model_input, (str, Pathway)) and len(list(model_input)) and all(isinstance(s, Step) for s in model_input):
+        # a bare mechanism: elementary steps without a pathway (no product bookkeeping)
+        raw_steps = list(model_input)
+        notes.append("model built from bare steps: no overall reaction, so no faradaic efficiency, onset or G_max read-out")
     else:
         items = [model_input] if isinstance(model_input, (str, Pathway)) else list(model_input)
         if not items:
