@@ -200,7 +200,9 @@ def _conditioned(result: SteadyState, weights: np.ndarray) -> np.ndarray:
     g = g / np.maximum(g.max(axis=1, keepdims=True), 1e-300)
     g2 = g * g
     M = np.einsum("ij,bi,ik->bjk", N, g2, N)
-    M = M + 1e-300 * np.eye(N.shape[1])[None]
+    # Tikhonov term: any v keeps sum_i c_i r_i = sum_i w_i r_i, so regularising only picks a c
+    diag = np.einsum("bjj->b", M) / max(N.shape[1], 1)
+    M = M + (1e-12 * diag + 1e-300)[:, None, None] * np.eye(N.shape[1])[None]
     rhs = -np.einsum("ij,bi,ik->bjk", N, g2, w2)
     try:
         v = np.linalg.solve(M, rhs)

@@ -46,7 +46,7 @@ import numpy as np
 from ecatlab.che.conditions import check_potential
 from ecatlab.errors import KineticsConvergenceWarning, KineticsInputError
 from ecatlab.kinetics.model import KineticModel
-from ecatlab.kinetics.rates import rate_constants
+from ecatlab.kinetics.rates import RateConstants, rate_constants
 
 __all__ = ["SteadyState", "solve_steady_state", "LN_FLOOR", "METHODS"]
 
@@ -143,7 +143,7 @@ class SteadyState:
 class _Batch:
     """Per-point arrays of B independent systems (rows of a flattened surface x potential grid)."""
 
-    def __init__(self, model: KineticModel, dG, offset, slope, lnA):
+    def __init__(self, model: KineticModel, dG, offset, slope, lnA, _cached=None):
         self.model = model
         self.dG, self.offset, self.slope, self.lnA = dG, offset, slope, lnA
         self.R = model.reactant_orders
@@ -159,17 +159,32 @@ class _Batch:
         self.kT = model.kT
         eps = model.interactions
         self.NE = None if eps is None else self.N @ eps  # (steps, species): d dG_i / d theta_l
+        # without lateral interactions the rate constants do not depend on the coverages: once per batch
+        if self.NE is None:
+            if _cached is None:
+                rc = rate_constants(dG, offset, slope, lnA, self.T)
+                _cached = (rc, rc.ln_kf + self.lnf, rc.ln_kb + self.lnb)
+            self._rc, self._lkf, self._lkb = _cached
+        else:
+            self._rc = None
 
     def take(self, idx) -> "_Batch":
-        return _Batch(self.model, self.dG[idx], self.offset[idx], self.slope[idx], self.lnA[idx])
+        cached = None
+        if self._rc is not None:
+            rc = self._rc
+            sub = RateConstants(rc.ln_kf[idx], rc.ln_kb[idx], rc.dG[idx], rc.G_f[idx], rc.dGf_ddG[idx], rc.clipped[idx])
+            cached = (sub, self._lkf[idx], self._lkb[idx])
+        return _Batch(self.model, self.dG[idx], self.offset[idx], self.slope[idx], self.lnA[idx], cached)
 
     def constants(self, x):
-        dG = self.dG
-        if self.NE is not None:
-            dG = dG + np.exp(x) @ self.NE.T
+        if self._rc is not None:
+            return self._rc
+        dG = self.dG + np.exp(x) @ self.NE.T
         return rate_constants(dG, self.offset, self.slope, self.lnA, self.T)
 
     def rates(self, x):
+        if self._rc is not None:
+            return np.exp(self._lkf + x @ self.R.T), np.exp(self._lkb + x @ self.P.T), self._rc
         rc = self.constants(x)
         lf = rc.ln_kf + self.lnf + x @ self.R.T
         lb = rc.ln_kb + self.lnb + x @ self.P.T
@@ -413,9 +428,15 @@ def _sweep(batch_at, order, S, ns, tol, max_iter):
     for step_no, p in enumerate(order):
         batch = batch_at(p)
         if guess is None:
-            xs, cs, ms = _multistart(batch, tol, max_iter)
-            x, c, m = _best_of(xs, cs, ms)
+            x0 = _picard(batch, np.tile(_starts(ns)[0], (S, 1)))
+            x, c, m = _newton(batch, x0, tol, max_iter)
             meth_p = np.where(c, 1, 3)
+            if not c.all():
+                idx = np.flatnonzero(~c)
+                xs, cs, ms = _multistart(batch.take(idx), tol, max_iter)
+                x2, c2, m2 = _best_of(xs, cs, ms)
+                x[idx], c[idx], m[idx] = x2, c2, m2
+                meth_p[idx] = np.where(c2, 1, 3)
         else:
             x0 = _predict(batch, guess)
             x, c, m = _newton(batch, x0, tol, max_iter)
@@ -530,6 +551,14 @@ def solve_steady_state(
     def batch_at(p):
         return _Batch(model, dG_all[:, p], model.raw_offset, model.raw_slope, model.ln_prefactor)
 
+    _flat_cache: list = []
+
+    def flat_batch():
+        if not _flat_cache:
+            _flat_cache.append(_Batch(model, dG_all.reshape(S * P, n_steps), np.repeat(model.raw_offset, P, axis=0),
+                                      np.repeat(model.raw_slope, P, axis=0), np.repeat(model.ln_prefactor, P, axis=0)))
+        return _flat_cache[0]
+
     order = np.argsort(u, kind="stable")
     X, C, M, meth = _sweep(batch_at, order, S, ns, tol, max_iter)
     n_states = np.where(C, 1, 0).astype(np.int16)
@@ -551,8 +580,7 @@ def solve_steady_state(
         X[take], C[take], M[take], meth[take] = Xb[take], True, Mb[take], 0
         n_states[take] = 1
     if check == "thorough":
-        flat = _Batch(model, dG_all.reshape(S * P, n_steps), np.repeat(model.raw_offset, P, axis=0),
-                      np.repeat(model.raw_slope, P, axis=0), np.repeat(model.ln_prefactor, P, axis=0))
+        flat = flat_batch()
         xs, cs, ms = _multistart(flat, tol, max_iter)
         xs = xs.reshape(len(xs), S, P, ns)
         cs = cs.reshape(len(cs), S, P)
@@ -584,10 +612,12 @@ def solve_steady_state(
 
     # stability of the reported state; prefer a stable alternative
     stable = np.zeros((S, P), dtype=bool)
-    for p in range(P):
-        ok = C[:, p]
-        if ok.any():
-            stable[ok, p] = _reduced_jacobian_stable(model, batch_at(p).take(np.flatnonzero(ok)), X[ok, p])
+    if C.any():
+        flat_all = flat_batch()
+        ok = np.flatnonzero(C.reshape(S * P))
+        st = np.zeros(S * P, dtype=bool)
+        st[ok] = _reduced_jacobian_stable(model, flat_all.take(ok), X.reshape(S * P, ns)[ok])
+        stable = st.reshape(S, P)
     for (s, p), alts in list(alternatives.items()):
         if not stable[s, p]:
             b = batch_at(p).take([s])
@@ -601,8 +631,7 @@ def solve_steady_state(
     X = np.where(C[..., None], X, np.nan)
     floored = int(np.sum(C[..., None] & (X <= LN_FLOOR + 1e-9)))
     below = int(np.sum(C[..., None] & (X < np.log(1e-30))))
-    flat = _Batch(model, dG_all.reshape(S * P, n_steps), np.repeat(model.raw_offset, P, axis=0),
-                  np.repeat(model.raw_slope, P, axis=0), np.repeat(model.ln_prefactor, P, axis=0))
+    flat = flat_batch()
     xf = np.nan_to_num(X.reshape(S * P, ns), nan=-np.log(ns))
     rf, rb, rc = flat.rates(xf)
     F, _ = flat.system(xf, jac=False)
