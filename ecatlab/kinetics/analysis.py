@@ -107,7 +107,7 @@ DRC_COLUMNS = {
 }
 ONSET_COLUMNS = {
     "surface": "surface name",
-    "onset_potential": "potential where |j| first reaches the target, moving from U_eq in the driving direction [V vs scale]; NaN if not reached",
+    "onset_potential": "potential where the current in the driving direction (cathodic for a reduction, anodic for an oxidation) first reaches the target, moving from U_eq [V vs scale]; NaN if not reached",
     "target_current_density": "the target |j| [mA/cm^2]",
     "reached": "True when the target is reached inside the potential grid",
     "equilibrium_potential": "U_eq of the model's first reaction at the model's activities [V vs scale]",
@@ -232,6 +232,10 @@ def _formation_rates(result: SteadyState) -> np.ndarray:
 def current_density(result: SteadyState) -> np.ndarray:
     """Net current density (S, P) in mA/cm^2, IUPAC sign (anodic positive)."""
     return -ELEMENTARY_CHARGE * result.model.settings.site_density * _electron_rate(result) * 1e3
+
+
+def _current(result: SteadyState) -> np.ndarray:
+    return current_density(result)
 
 
 def _sensitivity(result: SteadyState, dlnrf: np.ndarray, dlnrb: np.ndarray) -> np.ndarray:
@@ -409,7 +413,8 @@ def onset_potentials(result: SteadyState, current_density: float = DEFAULT_ONSET
 
     Moving from the equilibrium potential of the model's first reaction (at the model's
     activities) in its driving direction (down for a reduction, up for an oxidation), the first
-    potential of the grid where |j| >= target; interpolated linearly in log|j| between the two
+    potential of the grid where the current in that direction (cathodic -j for a reduction,
+    anodic +j for an oxidation) reaches the target; interpolated linearly in log j between the two
     grid points that bracket it.
     """
     if not (np.isfinite(current_density) and current_density > 0):
@@ -419,7 +424,9 @@ def onset_potentials(result: SteadyState, current_density: float = DEFAULT_ONSET
     u_eq = info.equilibrium_potential_at_activities
     order = np.argsort(result.potentials)
     u = result.potentials[order]
-    j = np.abs(current_density_arr := current_density_(result))[:, order]
+    # the current in the driving direction: cathodic (-j) for a reduction, anodic (+j) for an oxidation
+    sign = -1.0 if info.direction == "reduction" else 1.0
+    j = (sign * _current(result))[:, order]
     if info.direction == "reduction":
         u, j = u[::-1], j[:, ::-1]
         side = u <= u_eq + 1e-12
@@ -453,12 +460,7 @@ def onset_potentials(result: SteadyState, current_density: float = DEFAULT_ONSET
     )
     frame.attrs.update(_attrs(result, "onset potentials", ONSET_COLUMNS, {"onset_potential": f"V vs {m.conditions.scale}", "target_current_density": "mA/cm^2", "onset_overpotential": "V"}))
     frame.attrs["reaction"] = info.name
-    del current_density_arr
     return frame
-
-
-def current_density_(result: SteadyState) -> np.ndarray:
-    return current_density(result)
 
 
 def gmax_descriptor(result: SteadyState) -> pd.DataFrame:
