@@ -335,8 +335,13 @@ class Explorer:
             ]
         )
         # the diagram tab comes first and is the one shown; the volcano tab is drawn when opened
-        self.tabs = w.Tab(children=[self.main, self.volcano.widget], titles=("diagram", "volcano"), selected_index=0)
+        from ecatlab.explorer.kinetics_tab import KineticsPanel
+
+        self.kinetics = KineticsPanel(error_line=self.error)
+        self.tabs = w.Tab(children=[self.main, self.volcano.widget, self.kinetics.widget], titles=("diagram", "volcano", "kinetics"), selected_index=0)
         self.tabs.observe(self._guard(self._on_tab), names="selected_index")
+        for control in (self.kinetics.intrinsic_barrier, self.kinetics.symmetry_factor, self.kinetics.onset_current):
+            control.observe(self._guard(lambda change: self._refresh_kinetics()), names="value")
         self.widget = self.tabs
         self._refresh()
 
@@ -474,6 +479,7 @@ class Explorer:
         notes = list(s.notices) + self._messages[-3:]
         self.status.value = "".join(f'<div style="color:#7A5A00">\N{WARNING SIGN} {html.escape(n)}</div>' for n in notes)
         self._refresh_volcano()
+        self._refresh_kinetics()
 
     def _refresh_volcano(self) -> None:
         """Redraw the volcano if its tab is visible and its inputs changed (never for a potential move)."""
@@ -547,6 +553,14 @@ class Explorer:
 
     def _on_tab(self, change) -> None:
         self._refresh_volcano()
+        self._refresh_kinetics()
+
+    def _refresh_kinetics(self) -> None:
+        """Redraw the kinetics tab if it is visible and its inputs changed (never for a potential move)."""
+        try:
+            self.kinetics.refresh(self.state, visible=self.tabs.selected_index == 2)
+        except Exception as exc:  # the kinetics tab shows a placeholder; the reason goes to the error line
+            self.error.value = f"<b>{html.escape(type(exc).__name__)}</b> (kinetics tab): {html.escape(str(exc))}"
 
     def _on_descriptor(self, change) -> None:
         self._refresh_volcano()

@@ -55,10 +55,13 @@ def _surfaces(frame, surfaces):
     return wanted
 
 
-def plot_polarization(data, ax=None, surfaces=None, style: str = "notebook", title: str | None = None, caption: bool = True):
+def plot_polarization(data, ax=None, surfaces=None, style: str = "notebook", title: str | None = None, caption: bool = True,
+                      current_limit: float | None = None):
     """Current density (mA/cm^2, IUPAC sign) vs potential, one line per surface (at most 8 by default).
 
     Non-converged points are gaps; points with several steady states are marked with a ring.
+    ``current_limit`` (mA/cm^2) sets the y range to +/- that value (kinetic currents without mass
+    transport grow without bound; default: autoscale).
     """
     frame = _frame(data, "polarization")
     p = preset(style)
@@ -74,6 +77,8 @@ def plot_polarization(data, ax=None, surfaces=None, style: str = "notebook", tit
             if multi.any():
                 ax.plot(f["potential"][multi], y[multi.to_numpy()], ls="none", marker="o", mfc="none", mec="#222222", ms=5)
         ax.axhline(0.0, color="#999999", lw=0.8)
+        if current_limit is not None:
+            ax.set_ylim(-abs(current_limit), abs(current_limit))
         ax.set_xlabel(f"potential U (V vs {sc})")
         ax.set_ylabel("current density j (mA cm$^{-2}$)")
         ax.set_title(title or f"Polarization curves ({_conditions(frame)})")
@@ -95,6 +100,8 @@ def plot_tafel(data, ax=None, surfaces=None, style: str = "notebook", title: str
             f = frame[frame["surface"] == s].sort_values("potential")
             j = np.where(f["converged"] & (f["abs_current_density"] > 0), f["abs_current_density"], np.nan)
             ax.plot(np.log10(j), f["potential"], color=PALETTE[k % len(PALETTE)], ls=DASHES[k % len(DASHES)], lw=1.6, label=s)
+        lo, hi = ax.get_xlim()
+        ax.set_xlim(max(lo, -8.0), hi)  # currents below 1e-8 mA/cm^2 (near U_eq) are not informative
         ax.set_xlabel("log$_{10}$ |j| (j in mA cm$^{-2}$)")
         ax.set_ylabel(f"potential U (V vs {sc})")
         ax.set_title(title or f"Tafel plot ({_conditions(frame)})")
