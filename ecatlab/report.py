@@ -639,6 +639,7 @@ def build_report(
     command: str | None = None,
     title: str | None = None,
     banner: str | None = None,
+    kinetics=None,
 ) -> str:
     """Analyse and render in one call; returns the HTML text (figures are closed afterwards).
 
@@ -649,6 +650,9 @@ def build_report(
     routes : sequence of (reactant, product)
         One :func:`routes_section` each, e.g. ``[("CO2", "CH4")]``.
 
+    kinetics : pathway key, list of keys, or dict, optional
+        A steady-state microkinetics section (:func:`ecatlab.kinetics.report_section.kinetics_section`).
+
     The extra sections come after ``sections``; they use the same conditions and surfaces.
     """
     analysis = analyse(energies, pathways, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces, top=top)
@@ -658,6 +662,10 @@ def build_report(
             analysis.parameters["volcanoes"] = [tuple(v) for v in volcanoes]
         if routes:
             analysis.parameters["routes"] = [tuple(r) for r in routes]
+        if kinetics is not None:
+            from ecatlab.kinetics.report_section import kinetics_section_from_option
+
+            extra.append(kinetics_section_from_option(analysis.table, kinetics, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces))
         return render_html(analysis, sections=list(sections) + extra, command=command, title=title, banner=banner)
     finally:
         analysis.close()

@@ -9,6 +9,15 @@ Results are theoretical estimates (mean-field kinetics on CHE free energies, est
 flagged as such); any experiment they inform follows local safety codes and licensed practice.
 """
 
+from ecatlab.kinetics.analysis import (
+    coverage_table,
+    degree_of_rate_control,
+    faradaic_efficiencies,
+    gmax_descriptor,
+    kinetics_summary,
+    onset_potentials,
+    polarization_curve,
+)
 from ecatlab.kinetics.model import KineticModel, PathwayInfo, build_model
 from ecatlab.kinetics.rates import BarrierSettings, Barriers, DEFAULT_SITE_DENSITY_PER_CM2
 from ecatlab.kinetics.solver import SteadyState, solve_steady_state
@@ -22,4 +31,18 @@ __all__ = [
     "DEFAULT_SITE_DENSITY_PER_CM2",
     "SteadyState",
     "solve_steady_state",
+    "polarization_curve",
+    "coverage_table",
+    "faradaic_efficiencies",
+    "degree_of_rate_control",
+    "onset_potentials",
+    "kinetic_onset_potentials",
+    "gmax_descriptor",
+    "kinetics_summary",
+    "build_kinetic_model",
 ]
+
+#: Top-level names (``ecatlab.build_kinetic_model``, ``ecatlab.kinetic_onset_potentials``): distinct
+#: from the CHE engine's and the network's functions of similar names.
+build_kinetic_model = build_model
+kinetic_onset_potentials = onset_potentials
