@@ -85,6 +85,7 @@ def test_notebooks_exist():
         "03_co2_reduction_products.ipynb",
         "04_nitrogen_reduction.ipynb",
         "05_bring_your_own_data.ipynb",
+        "07_microkinetics.ipynb",
     ]
 
 
@@ -187,3 +188,13 @@ def test_bring_your_own_data(python3_kernel, kernel_env, tmp_path):
     assert len(shown) == len(lp) == 6
     for r in lp.itertuples():
         assert shown[f"{r.surface} {r.pathway}"] == pytest.approx(r.limiting_potential, abs=1e-6)
+
+
+def test_microkinetics(python3_kernel, kernel_env, tmp_path):
+    nb = run_notebook(ROOT / "notebooks" / "07_microkinetics.ipynb", tmp_path)
+    assert_figures(nb, "microkinetics")
+    assert "'failed': 0" in text_of(tagged(nb, "kinetics-report")[0])
+    assert "sum of degrees of rate control: 1.0" in text_of(tagged(nb, "kinetics-drc")[0])
+    line = next(l for l in text_of(tagged(nb, "kinetics-fe")[0]).splitlines() if l.startswith("FE sums"))
+    lo, hi = float(line.split()[3]), float(line.split()[5])
+    assert lo == pytest.approx(1.0, abs=1e-6) and hi == pytest.approx(1.0, abs=1e-6)
