@@ -145,3 +145,20 @@ def test_invariants_on_random_orr_surfaces(oh, o, ooh, g0, beta, pH):
 
     rc = rate_constants(ss.dG, model.raw_offset[:, None], model.raw_slope[:, None], model.ln_prefactor[:, None], model.temperature)
     assert np.allclose(rc.ln_kf - rc.ln_kb, -ss.dG / model.kT, atol=1e-9)
+
+
+def test_whole_network_with_her_competitor(demo):
+    from ecatlab.network import build_network
+
+    net = build_network(demo, "CO2")
+    model = build_model(demo, [net, "her-volmer-heyrovsky"], surfaces=["ALY-01", "SAS-03"])
+    assert "CH4(g)" in model.products and "H2(g)" in model.products
+    z = dict(zip(model.products, model.electrons_per_product))
+    assert z["CH4(g)"] == 8 and z["CO(g)"] == 2 and z["H2(g)"] == 2  # CO2 + 8 (H+ + e-) -> CH4 + 2 H2O
+    info = {p.name: p for p in model.pathways}
+    assert info["CO2(g)->CH4(g)"].equilibrium_potential == pytest.approx(ecatlab.equilibrium_potential("co2rr-ch4"), abs=1e-12)
+    ss = solve_steady_state(model, np.linspace(-1.0, -0.3, 8))
+    assert ss.converged.all()
+    fe = A.faradaic_efficiencies(ss)
+    sums = fe.groupby(["surface", "potential"])["faradaic_efficiency"].sum()
+    assert np.allclose(sums, 1.0, atol=1e-8)

@@ -238,22 +238,29 @@ def _collect_steps(model_input) -> tuple[list[Step], list[tuple[str, str, dict, 
 
     notes: list[str] = []
     overall: list[tuple[str, str, dict, float]] = []
-    if isinstance(model_input, ReactionNetwork):
-        raw_steps = [e.step for e in model_input.edges]
-        for product in model_input.products:
-            state = model_input.states[model_input.product_state(product)]
-            count = max(1, list(state.molecules).count(product)) if state.molecules else max(1, state.water)
-            overall.append((f"{model_input.reactant}->{product}", "reduction", {"product": product}, state.electrons / count))
-    elif not isinstance(model_input, (str, Pathway)) and len(list(model_input)) and all(isinstance(s, Step) for s in model_input):
+    if not isinstance(model_input, (str, Pathway, ReactionNetwork)) and len(list(model_input)) and all(isinstance(s, Step) for s in model_input):
         # a bare mechanism: elementary steps without a pathway (no product bookkeeping)
         raw_steps = list(model_input)
         notes.append("model built from bare steps: no overall reaction, so no faradaic efficiency, onset or G_max read-out")
     else:
-        items = [model_input] if isinstance(model_input, (str, Pathway)) else list(model_input)
+        items = [model_input] if isinstance(model_input, (str, Pathway, ReactionNetwork)) else list(model_input)
         if not items:
-            raise KineticsInputError("give at least one pathway (key, Pathway or network route)")
+            raise KineticsInputError("give at least one pathway (key, Pathway or network route) or a ReactionNetwork")
         raw_steps = []
         for item in items:
+            if isinstance(item, ReactionNetwork):
+                raw_steps.extend(e.step for e in item.edges)
+                for product in item.products:
+                    routes = item.routes(product)
+                    if not routes:
+                        continue
+                    route = item.route_pathway(routes[0])
+                    net = route.overall_net()
+                    coef = net.get(Species.parse(product), 0.0)
+                    if coef <= 0:
+                        continue
+                    overall.append((f"{item.reactant}->{product}", route.direction, {"product": product, "overall": net}, route.total_electrons / coef))
+                continue
             path = resolve(item)
             raw_steps.extend(path.steps)
             overall.append((path.name, path.direction, path.overall_net(), path.total_electrons))
@@ -503,9 +510,9 @@ def _resolve_step(text: str, eq_index: dict, steps: list[Step], where: str) -> i
 def _pathway_infos(overall, steps, compiled, values, act, cond: Conditions, table: EnergyTable):
     infos, products, z = [], [], []
     for name, direction, net, electrons in overall:
-        if "product" in net:  # from a network
+        if "product" in net:  # from a network: the overall reaction of its first route to the product
             product, zz = net["product"], float(electrons)
-            overall_step = None
+            overall_step = net["overall"]
         else:
             made = [(sp, c) for sp, c in net.items() if sp.is_molecule and c > 0 and sp.key != _WATER]
             if not made:
