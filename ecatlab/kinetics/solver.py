@@ -503,8 +503,22 @@ def _bdf_point(batch: _Batch, x_start, t_end: float = 1e12):
     y0 = np.exp(np.asarray(x_start, dtype=float))[:m]
     if not np.all(np.isfinite(y0)) or y0.sum() >= 1:
         y0 = np.full(m, 1.0 / (m + 1))
-    sol = solve_ivp(rhs, (0.0, t_end), y0, method="BDF", jac=jac, rtol=1e-10, atol=1e-30)
+    sol = solve_ivp(rhs, (0.0, t_end), y0, method="BDF", jac=jac, rtol=1e-8, atol=1e-14)
     return full_x(sol.y[:, -1])[0], bool(sol.success)
+
+
+def _bdf_then_newton(batch: _Batch, x_start, tol: float, max_iter: int):
+    """Integrate in growing time windows (1e-9 s ... 1e12 s), trying Newton after each; (x, converged, merit)."""
+    x = np.asarray(x_start, dtype=float)
+    for t_end in 10.0 ** np.arange(-9.0, 13.0, 3.0):
+        try:
+            x, _ok = _bdf_point(batch, x, t_end)
+        except Exception:  # noqa: BLE001 - an integration failure is reported as non-convergence
+            break
+        xp, cp, mp = _newton(batch, x[None], tol, max_iter)
+        if cp[0]:
+            return xp[0], True, mp[0]
+    return x, False, np.inf
 
 
 def solve_steady_state(
@@ -597,15 +611,8 @@ def solve_steady_state(
         for s, p in zip(*np.nonzero(~C)):
             b = _Batch(model, dG_all[s:s + 1, p], model.raw_offset[s:s + 1], model.raw_slope[s:s + 1], model.ln_prefactor[s:s + 1])
             start = X[s, p] if np.all(np.isfinite(X[s, p])) else _starts(ns)[0]
-            try:
-                xb, _ok = _bdf_point(b, start)
-            except Exception:  # noqa: BLE001 - integration failure is reported as non-convergence
-                continue
-            xp, cp, mp = _newton(b, xb[None], tol, max_iter)
-            if not cp[0]:
-                F, _ = b.system(np.clip(xb[None], LN_FLOOR, _LN_CEIL), jac=False)
-                if _merit(F)[0] < tol:
-                    xp, cp, mp = np.clip(xb[None], LN_FLOOR, _LN_CEIL), np.array([True]), _merit(F)
+            xq, ok, mq = _bdf_then_newton(b, start, tol, max(max_iter, 30))
+            xp, cp, mp = xq[None], np.array([ok]), np.array([mq])
             if cp[0]:
                 X[s, p], C[s, p], M[s, p], meth[s, p] = xp[0], True, mp[0], 2
                 n_states[s, p] = max(n_states[s, p], 1)
