@@ -455,3 +455,13 @@ def test_temperature_reaches_rate_constants(demo):
     m2 = build_model(demo, "her-volmer-heyrovsky", surfaces=["ALY-01"], temperature=330.0)
     assert m2.ln_prefactor[0, 0] - m1.ln_prefactor[0, 0] == pytest.approx(math.log(330.0 / 298.15), abs=1e-12)
     assert m2.conditions.temperature == 330.0
+
+
+def test_routh_hurwitz_stability_matches_eigenvalues():
+    from ecatlab.kinetics.solver import _routh_hurwitz_stable
+
+    rng = np.random.default_rng(1)
+    for m in (1, 2, 3):
+        G = rng.normal(size=(5000, m, m))
+        ref = np.all(np.linalg.eigvals(G).real < 0, axis=1)  # numpy.linalg eigenvalues as the reference
+        assert np.array_equal(_routh_hurwitz_stable(G), ref)
