@@ -145,7 +145,7 @@ def run(args: argparse.Namespace) -> int:
         print("ESTIMATED barriers (" + model.settings.describe() + ")")
     print(f"onset potential at {args.onset_current:g} mA/cm^2 ({info.name}, U_eq = {info.equilibrium_potential_at_activities:.3f} V vs {cond.scale}):")
     for r in summary.itertuples():
-        onset = f"{r.onset_potential:.3f} V" if r.reached else "not reached"
+        onset = (f"{r.onset_potential:.3f} V" + (" (grid edge)" if r.at_grid_edge else "")) if r.reached else "not reached"
         print(f"  {r.surface:<16} {onset:>12}   barriers {r.barriers}")
     if args.output:
         _write_csv(pol, args.output)

@@ -110,6 +110,7 @@ ONSET_COLUMNS = {
     "onset_potential": "potential where the current in the driving direction (cathodic for a reduction, anodic for an oxidation) first reaches the target, moving from U_eq [V vs scale]; NaN if not reached",
     "target_current_density": "the target |j| [mA/cm^2]",
     "reached": "True when the target is reached inside the potential grid",
+    "at_grid_edge": "True when the target is already exceeded at the grid point nearest U_eq: the onset lies between U_eq and onset_potential (extend the grid)",
     "equilibrium_potential": "U_eq of the model's first reaction at the model's activities [V vs scale]",
     "onset_overpotential": "|onset_potential - U_eq| [V]",
     "barriers": "user, estimated or mixed",
@@ -435,6 +436,7 @@ def onset_potentials(result: SteadyState, current_density: float = DEFAULT_ONSET
     S = len(m.surfaces)
     out = np.full(S, np.nan)
     reached = np.zeros(S, dtype=bool)
+    edge = np.zeros(S, dtype=bool)
     for s in range(S):
         js = np.where(side, j[s], np.nan)
         hit = np.flatnonzero(np.nan_to_num(js, nan=-1.0) >= current_density)
@@ -444,6 +446,7 @@ def onset_potentials(result: SteadyState, current_density: float = DEFAULT_ONSET
         reached[s] = True
         if k == 0 or not side[k - 1] or not np.isfinite(js[k - 1]) or js[k - 1] <= 0:
             out[s] = u[k]
+            edge[s] = k == 0 or not side[k - 1]
         else:
             l0, l1, lt = np.log(js[k - 1]), np.log(js[k]), np.log(current_density)
             out[s] = u[k - 1] + (u[k] - u[k - 1]) * (lt - l0) / (l1 - l0)
@@ -453,6 +456,7 @@ def onset_potentials(result: SteadyState, current_density: float = DEFAULT_ONSET
             "onset_potential": out,
             "target_current_density": float(current_density),
             "reached": reached,
+            "at_grid_edge": edge,
             "equilibrium_potential": u_eq,
             "onset_overpotential": np.abs(out - u_eq),
             "barriers": _barrier_label(result),
