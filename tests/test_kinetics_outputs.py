@@ -165,9 +165,9 @@ def test_whole_network_with_her_competitor(demo):
 
 
 def test_onset_flags_a_grid_that_starts_past_the_onset(demo):
-    model = build_model(demo, "orr-4e", surfaces=["ALY-01"])
-    far = A.onset_potentials(solve_steady_state(model, np.linspace(0.5, 1.0, 6)))
-    assert far["reached"].all() and far["at_grid_edge"].all()  # the true onset lies between U_eq and 1.0 V
-    full = A.onset_potentials(solve_steady_state(model, np.linspace(0.5, 1.229, 74)))
+    model = build_model(demo, "orr-4e", surfaces=["SAS-05"])
+    far = A.onset_potentials(solve_steady_state(model, np.linspace(0.5, 0.9, 5)))
+    assert far["reached"].all() and far["at_grid_edge"].all()  # the true onset lies between U_eq and 0.9 V
+    full = A.onset_potentials(solve_steady_state(model, np.linspace(0.5, 1.2, 71)))
     assert full["reached"].all() and not full["at_grid_edge"].any()
-    assert full["onset_potential"].iloc[0] > 1.0
+    assert 0.9 < full["onset_potential"].iloc[0] < 1.2
