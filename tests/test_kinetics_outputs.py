@@ -8,7 +8,7 @@ import warnings
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 import ecatlab
@@ -126,6 +126,7 @@ _energy = st.floats(min_value=-1.5, max_value=2.5, allow_nan=False)
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(oh=_energy, o=st.floats(min_value=-0.5, max_value=4.0), ooh=st.floats(min_value=2.5, max_value=5.5),
        g0=st.floats(min_value=0.0, max_value=0.8), beta=st.floats(min_value=0.2, max_value=0.8), pH=st.floats(min_value=0, max_value=14))
+@example(oh=0.0, o=0.5, ooh=5.0, g0=0.0, beta=0.5, pH=0.0)  # found by hypothesis: net currents far below the exchange flux
 def test_invariants_on_random_orr_surfaces(oh, o, ooh, g0, beta, pH):
     table = EnergyTable.from_matrix(pd.DataFrame({"OH*": [oh], "O*": [o], "OOH*": [ooh]}, index=["R"]))
     model = build_model(table, ["orr-4e", "orr-2e"], settings=BarrierSettings(intrinsic_barrier=g0, symmetry_factor=beta), pH=pH,

@@ -94,7 +94,7 @@ FE_COLUMNS = {
     "electrons_per_product": "electrons consumed per product molecule (negative: oxidation) [-]",
     "formation_rate": "net formation rate of the product per site [1/s]",
     "partial_current_density": "partial current density of the product, IUPAC sign [mA/cm^2]",
-    "faradaic_efficiency": "fraction of the net charge that forms the product (sums to 1 over products); NaN where the net current is zero [-]",
+    "faradaic_efficiency": "fraction of the net charge that forms the product (sums to 1 over products; negative: consumed); NaN where the net current is not resolvable (|j| < 1e-12 mA/cm^2 or below 1e-9 of the exchange flux) [-]",
     "fe_unassigned": "1 - sum of the faradaic efficiencies at this point (0 up to rounding) [-]",
 }
 DRC_COLUMNS = {
@@ -336,8 +336,9 @@ def coverage_table(result: SteadyState) -> pd.DataFrame:
 def faradaic_efficiencies(result: SteadyState, min_current_density: float = 1e-12) -> pd.DataFrame:
     """Partial currents and faradaic efficiency per (surface, potential, product); :data:`FE_COLUMNS`.
 
-    Where ``|j| < min_current_density`` (mA/cm^2; default 1e-12) the efficiencies are NaN (no net
-    charge to share out), documented in the column doc.
+    Where ``|j| < min_current_density`` (mA/cm^2; default 1e-12), or the net electron rate is below
+    1e-9 of the exchange electron flux sum_i |n_i| (r_f + r_b) (no resolvable net charge to share
+    out), the efficiencies are NaN, as the column doc says.
     """
     m = result.model
     S, P = result.converged.shape
@@ -350,7 +351,11 @@ def faradaic_efficiencies(result: SteadyState, min_current_density: float = 1e-1
     partial = -ELEMENTARY_CHARGE * rho * (R * z) * 1e3
     with np.errstate(divide="ignore", invalid="ignore"):
         fe = (R * z) / e[..., None]
-    fe = np.where((np.abs(j) >= min_current_density)[..., None], fe, np.nan)
+    # resolvable net charge: above min_current_density and above 1e-9 of the exchange electron flux
+    # sum_i |n_i| (r_f + r_b) (below that the net rate is rounding of large opposing rates)
+    exchange = np.einsum("spi,i->sp", result.forward_rates + result.backward_rates, np.abs(m.electrons))
+    resolved = (np.abs(j) >= min_current_density) & (np.abs(e) >= 1e-9 * exchange)
+    fe = np.where(resolved[..., None], fe, np.nan)
     unassigned = 1.0 - fe.sum(axis=-1)
     surf, pot = _grid(result)
     frame = pd.DataFrame(
