@@ -119,6 +119,24 @@ _EXPORTS: dict[str, str] = {
     "ensemble_from_structures": "ecatlab.ingest.ensembles",
     "network_uncertainty": "ecatlab.uncertainty.network",
     "volcano_band": "ecatlab.uncertainty.volcano",
+    # steady-state microkinetics
+    "build_kinetic_model": "ecatlab.kinetics",
+    "KineticModel": "ecatlab.kinetics",
+    "BarrierSettings": "ecatlab.kinetics",
+    "Barriers": "ecatlab.kinetics",
+    "solve_steady_state": "ecatlab.kinetics",
+    "SteadyState": "ecatlab.kinetics",
+    "polarization_curve": "ecatlab.kinetics",
+    "coverage_table": "ecatlab.kinetics",
+    "faradaic_efficiencies": "ecatlab.kinetics",
+    "degree_of_rate_control": "ecatlab.kinetics",
+    "kinetic_onset_potentials": "ecatlab.kinetics",
+    "gmax_descriptor": "ecatlab.kinetics",
+    "kinetics_summary": "ecatlab.kinetics",
+    "plot_polarization": "ecatlab.plotting.kinetics",
+    "plot_tafel": "ecatlab.plotting.kinetics",
+    "plot_coverages": "ecatlab.plotting.kinetics",
+    "plot_faradaic_efficiency": "ecatlab.plotting.kinetics",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

@@ -278,3 +278,12 @@ def clip_path(value: Any, limit: int = 160) -> str:
 
 class UncertaintyError(EcatlabError, ValueError):
     """An error model, ensemble or uncertainty request is inconsistent (names the item and the fix)."""
+
+
+class KineticsInputError(EcatlabError, ValueError):
+    """Bad input to a microkinetic model (barrier table, activities, interactions, potentials)."""
+
+
+class KineticsConvergenceWarning(EcatlabWarning):
+    """A steady state was not found (or several were) at some (surface, potential) points; they
+    are flagged in the result (``converged``, ``steady_states``) and never silently filled."""

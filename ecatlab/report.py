@@ -685,6 +685,7 @@ def build_report(
     descriptors: bool = False,
     surface_states=None,
     uncertainty: Sequence[tuple] = (),
+    kinetics=None,
 ) -> str:
     """Analyse and render in one call; returns the HTML text (figures are closed afterwards).
 
@@ -696,6 +697,9 @@ def build_report(
         One :func:`routes_section` each, e.g. ``[("CO2", "CH4")]``.
     uncertainty : sequence of (pathway, error model[, n_samples])
         One :func:`ecatlab.uncertainty.report_section.uncertainty_section` each.
+
+    kinetics : pathway key, list of keys, or dict, optional
+        A steady-state microkinetics section (:func:`ecatlab.kinetics.report_section.kinetics_section`).
 
     The extra sections come after ``sections``; they use the same conditions and surfaces.
     ``descriptors=True`` adds :func:`ecatlab.descriptors.descriptor_section`; ``surface_states``
@@ -724,6 +728,10 @@ def build_report(
             from ecatlab.pourbaix import pourbaix_section
 
             extra.append(pourbaix_section(surface_states, analysis.table, analysis.pathways, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces))
+        if kinetics is not None:
+            from ecatlab.kinetics.report_section import kinetics_section_from_option
+
+            extra.append(kinetics_section_from_option(analysis.table, kinetics, pH=pH, scale=scale, temperature=temperature, surfaces=surfaces))
         return render_html(analysis, sections=list(sections) + extra, command=command, title=title, banner=banner)
     finally:
         analysis.close()

@@ -138,7 +138,7 @@ def test_route_export_has_a_safe_file_name(table, tmp_path):
 def test_volcano_tab_is_second_and_drawn_only_when_visible(table):
     ex = explore(table, pathway="orr-4e", render="inline")
     assert ex.tabs.selected_index == 0 and ex.tabs.children[0] is ex.main
-    assert ex.tabs.titles == ("diagram", "volcano", "network")  # the network tab was added third
+    assert ex.tabs.titles == ("diagram", "volcano", "network", "kinetics")  # network third, kinetics fourth
     assert ex.volcano.draws == 0  # hidden: not drawn
     ex.tabs.selected_index = 1
     assert ex.volcano.draws == 1 and ex.volcano.descriptor.value == "OH*"

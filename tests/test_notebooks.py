@@ -86,6 +86,7 @@ def test_notebooks_exist():
         "04_nitrogen_reduction.ipynb",
         "05_bring_your_own_data.ipynb",
         "06_uncertainty.ipynb",
+        "07_microkinetics.ipynb",
         "08_c2_c3_network.ipynb",
         "09_descriptors_and_pourbaix.ipynb",
     ]
@@ -249,3 +250,13 @@ def test_c2_c3_network(python3_kernel, kernel_env, tmp_path):
     n_int = int(c3.split(" intermediates")[0].split()[-1])
     assert n_int >= 500  # the C3 network of the size
     assert "ILLUSTRATIVE" in "".join(c.source for c in nb.cells if c.cell_type == "markdown")
+
+
+def test_microkinetics(python3_kernel, kernel_env, tmp_path):
+    nb = run_notebook(ROOT / "notebooks" / "07_microkinetics.ipynb", tmp_path)
+    assert_figures(nb, "microkinetics")
+    assert "'failed': 0" in text_of(tagged(nb, "kinetics-report")[0])
+    assert "sum of degrees of rate control: 1.0" in text_of(tagged(nb, "kinetics-drc")[0])
+    line = next(l for l in text_of(tagged(nb, "kinetics-fe")[0]).splitlines() if l.startswith("FE sums"))
+    lo, hi = float(line.split()[3]), float(line.split()[5])
+    assert lo == pytest.approx(1.0, abs=1e-6) and hi == pytest.approx(1.0, abs=1e-6)

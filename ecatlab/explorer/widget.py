@@ -32,6 +32,8 @@ __all__ = ["Explorer", "explore", "export_snapshot", "ExplorerSnapshot", "POTENT
 
 #: Initial range of the potential slider, V (extended when a snap target lies outside).
 POTENTIAL_RANGE = (-3.0, 3.0)
+#: Positions of the tabs (an opt-in "surface states" tab is appended after these).
+DIAGRAM_TAB, VOLCANO_TAB, NETWORK_TAB, KINETICS_TAB = 0, 1, 2, 3
 CAUTION = ("Theoretical estimates (CHE thermodynamics, no kinetics); experiments follow local safety codes and "
            "licensed practice (CO is toxic, H2 flammable, electrolytes corrosive).")
 _UNAVAILABLE = (
@@ -335,7 +337,7 @@ class Explorer:
 
         self.network_panel = NetworkPanel(s.table, error_line=self.error)
         self.network_panel.conditions = lambda: (self.state.pH, self.state.scale, self.state.temperature)
-        self.network_panel.is_visible = lambda: self.tabs.selected_index == 2
+        self.network_panel.is_visible = lambda: self.tabs.selected_index == NETWORK_TAB
         self._wire()
         self._shown_heading = self._heading()
         self.view.rebuild(s, self._shown_heading)
@@ -354,9 +356,14 @@ class Explorer:
             ]
         )
         # the diagram tab comes first and is the one shown; the volcano tab is drawn when opened
-        self.tabs = w.Tab(children=[self.main, self.volcano.widget, self.network_panel.widget], titles=("diagram", "volcano", "network"),
-                          selected_index=0)
+        from ecatlab.explorer.kinetics_tab import KineticsPanel
+
+        self.kinetics = KineticsPanel(error_line=self.error)
+        self.tabs = w.Tab(children=[self.main, self.volcano.widget, self.network_panel.widget, self.kinetics.widget],
+                          titles=("diagram", "volcano", "network", "kinetics"), selected_index=0)
         self.tabs.observe(self._guard(self._on_tab), names="selected_index")
+        for control in (self.kinetics.intrinsic_barrier, self.kinetics.symmetry_factor, self.kinetics.onset_current):
+            control.observe(self._guard(lambda change: self._refresh_kinetics()), names="value")
         self.widget = self.tabs
         self._refresh()
 
@@ -494,11 +501,12 @@ class Explorer:
         notes = list(s.notices) + self._messages[-3:]
         self.status.value = "".join(f'<div style="color:#7A5A00">\N{WARNING SIGN} {html.escape(n)}</div>' for n in notes)
         self._refresh_volcano()
+        self._refresh_kinetics()
 
     def _refresh_volcano(self) -> None:
         """Redraw the volcano if its tab is visible and its inputs changed (never for a potential move)."""
         try:
-            self.volcano.refresh(self.state, self.volcano.descriptor.value, visible=self.tabs.selected_index == 1)
+            self.volcano.refresh(self.state, self.volcano.descriptor.value, visible=self.tabs.selected_index == VOLCANO_TAB)
         except Exception as exc:  # the volcano tab shows a placeholder; the reason goes to the error line
             self._show_volcano_error(exc)
         if self.pourbaix is not None:
@@ -607,7 +615,15 @@ class Explorer:
 
     def _on_tab(self, change) -> None:
         self._refresh_volcano()
-        self.network_panel.refresh(self.state.pH, self.state.scale, self.state.temperature, visible=self.tabs.selected_index == 2)
+        self.network_panel.refresh(self.state.pH, self.state.scale, self.state.temperature, visible=self.tabs.selected_index == NETWORK_TAB)
+        self._refresh_kinetics()
+
+    def _refresh_kinetics(self) -> None:
+        """Redraw the kinetics tab if it is visible and its inputs changed (never for a potential move)."""
+        try:
+            self.kinetics.refresh(self.state, visible=self.tabs.selected_index == KINETICS_TAB)
+        except Exception as exc:  # the kinetics tab shows a placeholder; the reason goes to the error line
+            self.error.value = f"<b>{html.escape(type(exc).__name__)}</b> (kinetics tab): {html.escape(str(exc))}"
 
     def _on_descriptor(self, change) -> None:
         self._refresh_volcano()

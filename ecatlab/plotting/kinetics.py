@@ -1,0 +1,161 @@
+"""Plot microkinetic results: polarization curves (linear and Tafel axes), coverages and
+faradaic efficiency vs potential.
+
+Draws only what :mod:`ecatlab.kinetics.analysis` computed (the frames of
+:func:`~ecatlab.kinetics.analysis.polarization_curve`, :func:`~ecatlab.kinetics.analysis.coverage_table`
+and :func:`~ecatlab.kinetics.analysis.faradaic_efficiencies`, or a
+:class:`~ecatlab.kinetics.solver.SteadyState` from which they are made). Every function takes
+``ax=`` and returns the Axes; titles carry the conditions, a caption under the axes says when
+barriers were estimated and that the curves are theoretical estimates.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ecatlab.plotting.style import DASHES, PALETTE, figure, preset, style_context
+
+__all__ = ["plot_polarization", "plot_tafel", "plot_coverages", "plot_faradaic_efficiency"]
+
+
+def _frame(data, kind: str):
+    from ecatlab.kinetics import analysis as A
+    from ecatlab.kinetics.solver import SteadyState
+
+    if isinstance(data, SteadyState):
+        return {"polarization": A.polarization_curve, "coverage": A.coverage_table, "fe": A.faradaic_efficiencies}[kind](data)
+    return data
+
+
+def _conditions(frame) -> str:
+    a = frame.attrs
+    return f"pH {a.get('pH', 0):g}, {a.get('temperature', 298.15):g} K"
+
+
+def _caption(ax, p, frame) -> None:
+    a = frame.attrs
+    text = "Theoretical estimate (mean-field kinetics, no mass transport)"
+    if a.get("estimated_barriers"):
+        text += "; ESTIMATED barriers"
+    text += f"; {a.get('site_density_per_cm2', 1e15):.0e} sites/cm$^2$."
+    ax.annotate(text, xy=(0.5, 0), xycoords=ax.xaxis.label, xytext=(0, -3), textcoords="offset points", fontsize=p.font_pt - 2,
+                color="#555555", va="top", ha="center", annotation_clip=False)
+
+
+def _surfaces(frame, surfaces):
+    names = list(dict.fromkeys(frame["surface"]))
+    if surfaces is None:
+        return names[:8]
+    wanted = [surfaces] if isinstance(surfaces, str) else list(surfaces)
+    unknown = [s for s in wanted if s not in names]
+    if unknown:
+        from ecatlab.errors import KineticsInputError
+
+        raise KineticsInputError(f"unknown surface(s) {unknown}; the result has {names}")
+    return wanted
+
+
+def plot_polarization(data, ax=None, surfaces=None, style: str = "notebook", title: str | None = None, caption: bool = True,
+                      current_limit: float | None = None):
+    """Current density (mA/cm^2, IUPAC sign) vs potential, one line per surface (at most 8 by default).
+
+    Non-converged points are gaps; points with several steady states are marked with a ring.
+    ``current_limit`` (mA/cm^2) sets the y range to +/- that value (kinetic currents without mass
+    transport grow without bound; default: autoscale).
+    """
+    frame = _frame(data, "polarization")
+    p = preset(style)
+    sc = frame.attrs.get("scale", "RHE")
+    with style_context(p):
+        if ax is None:
+            _, ax = figure(p)
+        for k, s in enumerate(_surfaces(frame, surfaces)):
+            f = frame[frame["surface"] == s].sort_values("potential")
+            y = np.where(f["converged"], f["current_density"], np.nan)
+            ax.plot(f["potential"], y, color=PALETTE[k % len(PALETTE)], ls=DASHES[k % len(DASHES)], lw=1.6, label=s)
+            multi = f["steady_states"] > 1
+            if multi.any():
+                ax.plot(f["potential"][multi], y[multi.to_numpy()], ls="none", marker="o", mfc="none", mec="#222222", ms=5)
+        ax.axhline(0.0, color="#999999", lw=0.8)
+        if current_limit is not None:
+            ax.set_ylim(-abs(current_limit), abs(current_limit))
+        ax.set_xlabel(f"potential U (V vs {sc})")
+        ax.set_ylabel("current density j (mA cm$^{-2}$)")
+        ax.set_title(title or f"Polarization curves ({_conditions(frame)})")
+        ax.legend(fontsize=p.font_pt - 2, frameon=False)
+        if caption:
+            _caption(ax, p, frame)
+    return ax
+
+
+def plot_tafel(data, ax=None, surfaces=None, style: str = "notebook", title: str | None = None, caption: bool = True):
+    """Tafel axes: potential vs log10 |j| (mA/cm^2), one line per surface."""
+    frame = _frame(data, "polarization")
+    p = preset(style)
+    sc = frame.attrs.get("scale", "RHE")
+    with style_context(p):
+        if ax is None:
+            _, ax = figure(p)
+        for k, s in enumerate(_surfaces(frame, surfaces)):
+            f = frame[frame["surface"] == s].sort_values("potential")
+            j = np.where(f["converged"] & (f["abs_current_density"] > 0), f["abs_current_density"], np.nan)
+            ax.plot(np.log10(j), f["potential"], color=PALETTE[k % len(PALETTE)], ls=DASHES[k % len(DASHES)], lw=1.6, label=s)
+        lo, hi = ax.get_xlim()
+        ax.set_xlim(max(lo, -8.0), hi)  # currents below 1e-8 mA/cm^2 (near U_eq) are not informative
+        ax.set_xlabel("log$_{10}$ |j| (j in mA cm$^{-2}$)")
+        ax.set_ylabel(f"potential U (V vs {sc})")
+        ax.set_title(title or f"Tafel plot ({_conditions(frame)})")
+        ax.legend(fontsize=p.font_pt - 2, frameon=False)
+        if caption:
+            _caption(ax, p, frame)
+    return ax
+
+
+def plot_coverages(data, surface: str | None = None, ax=None, style: str = "notebook", log: bool = True, title: str | None = None, caption: bool = True):
+    """Coverages of every species (and the empty site) vs potential on one surface (log axis by default)."""
+    frame = _frame(data, "coverage")
+    p = preset(style)
+    sc = frame.attrs.get("scale", "RHE")
+    s = _surfaces(frame, surface)[0] if surface is not None else frame["surface"].iloc[0]
+    f = frame[frame["surface"] == s]
+    with style_context(p):
+        if ax is None:
+            _, ax = figure(p)
+        for k, sp in enumerate(dict.fromkeys(f["species"])):
+            g = f[f["species"] == sp].sort_values("potential")
+            ax.plot(g["potential"], g["coverage"], color=PALETTE[k % len(PALETTE)], ls=DASHES[k % len(DASHES)], lw=1.6, label=sp)
+        if log:
+            ax.set_yscale("log")
+            ax.set_ylim(1e-12, 2.0)
+        else:
+            ax.set_ylim(-0.02, 1.02)
+        ax.set_xlabel(f"potential U (V vs {sc})")
+        ax.set_ylabel("coverage θ")
+        ax.set_title(title or f"Coverages on {s} ({_conditions(frame)})")
+        ax.legend(fontsize=p.font_pt - 2, frameon=False)
+        if caption:
+            _caption(ax, p, frame)
+    return ax
+
+
+def plot_faradaic_efficiency(data, surface: str | None = None, ax=None, style: str = "notebook", title: str | None = None, caption: bool = True):
+    """Faradaic efficiency of every product vs potential on one surface (gaps where |j| is ~0)."""
+    frame = _frame(data, "fe")
+    p = preset(style)
+    sc = frame.attrs.get("scale", "RHE")
+    s = _surfaces(frame, surface)[0] if surface is not None else frame["surface"].iloc[0]
+    f = frame[frame["surface"] == s]
+    with style_context(p):
+        if ax is None:
+            _, ax = figure(p)
+        for k, prod in enumerate(dict.fromkeys(f["product"])):
+            g = f[f["product"] == prod].sort_values("potential")
+            ax.plot(g["potential"], g["faradaic_efficiency"], color=PALETTE[k % len(PALETTE)], ls=DASHES[k % len(DASHES)], lw=1.8, label=prod)
+        ax.set_ylim(-0.05, 1.05)
+        ax.set_xlabel(f"potential U (V vs {sc})")
+        ax.set_ylabel("faradaic efficiency")
+        ax.set_title(title or f"Faradaic efficiency on {s} ({_conditions(frame)})")
+        ax.legend(fontsize=p.font_pt - 2, frameon=False)
+        if caption:
+            _caption(ax, p, frame)
+    return ax
