@@ -108,7 +108,9 @@ def test_explorer_kinetics_tab_draws_when_visible_only(demo):
 
     ex = Explorer(demo, surfaces=["ALY-01", "SAS-01"])
     assert ex.kinetics.draws == 0  # hidden: nothing computed
-    ex.tabs.selected_index = 2
+    from ecatlab.explorer.widget import KINETICS_TAB
+
+    ex.tabs.selected_index = KINETICS_TAB
     assert ex.kinetics.draws == 1 and ex.kinetics.last_error is None
     assert "ESTIMATED" in ex.kinetics.info.value and "ALY-01" in ex.kinetics.summary.value
     ex.potential.value = 0.4  # the curves do not depend on the applied potential

@@ -12,9 +12,10 @@ together (samples as a leading axis, same draws for every route). Per sample:
 * the best route of a product is the route with the best limiting potential. Routes tied within
   :data:`ecatlab.network.TIE_TOLERANCE_EV` share that sample equally.
 
-Not covered: the network's secondary tie-breaks (uphill chemical barrier, next-largest step,
-fewer steps, route text) are not applied per sample -- tied routes share the probability
-instead -- and ``chemical_limit`` blocking is not applied. Theoretical estimates.
+Routes blocked by an uphill chemical step compete only where every route of the product is
+blocked, as in the network's search. Not covered: the network's secondary tie-breaks (next-largest
+step, fewer steps, route text) are not applied per sample -- tied routes share the probability
+instead -- and ``chemical_limit`` is not applied. Theoretical estimates.
 """
 
 from __future__ import annotations
@@ -43,11 +44,18 @@ class NetworkUncertainty:
         self.network = network
 
     def _best(self, names: Sequence[str]) -> tuple[np.ndarray, np.ndarray]:
-        """Best U_L over the named pathways per (sample, surface), and the stacked (routes, samples, surfaces) U_L."""
+        """Best U_L over the named pathways per (sample, surface), and the stacked (routes, samples, surfaces) U_L
+        of the competing routes.
+
+        As in the network's route search, a route blocked by an uphill chemical step competes only where
+        every route is blocked (an open route always beats a blocked one)."""
         stack = np.stack([self.result.results[n].limiting_potential for n in names])
+        blocked = np.stack([np.asarray(self.result.results[n].blocked, dtype=bool) for n in names])
         direction = self.result.results[names[0]].pathway.direction
         fill = -np.inf if direction == "reduction" else np.inf
         clean = np.where(np.isnan(stack), fill, stack)
+        open_exists = (~blocked & np.isfinite(clean)).any(axis=0)
+        clean = np.where(blocked & open_exists[None], fill, clean)
         best = clean.max(axis=0) if direction == "reduction" else clean.min(axis=0)
         return np.where(np.isfinite(best), best, np.nan), clean
 
