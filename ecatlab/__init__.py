@@ -3,7 +3,7 @@
 Import is light: heavy dependencies (pymatgen, scipy submodules, matplotlib, ipywidgets) load
 only when the function that needs them is first used. Public names are resolved lazily.
 
-Results are theoretical estimates (CHE model, thermodynamics only, no kinetics); any experiment
+Results are theoretical estimates (CHE thermodynamics; microkinetics from stated, often estimated barriers); any experiment
 they inform follows local safety codes and licensed practice.
 """
 

@@ -50,7 +50,7 @@ __all__ = [
 #: The caution every report carries.
 SAFETY_CAUTION = (
     "These numbers are theoretical estimates from the computational hydrogen electrode model "
-    "(thermodynamics only: no kinetics, no transport, no catalyst stability) and are only as good as the "
+    "(thermodynamics, plus microkinetics from stated and often estimated barriers where a section says so; no mass transport) and are only as good as the "
     "input energies. They do not establish that an experiment is safe or will work. Any experiment they "
     "inform must follow local safety codes and licensed laboratory practice: CO is toxic, H2 is "
     "flammable and forms explosive mixtures with air, and acidic or alkaline electrolytes are corrosive."

@@ -34,7 +34,7 @@ __all__ = ["Explorer", "explore", "export_snapshot", "ExplorerSnapshot", "POTENT
 POTENTIAL_RANGE = (-3.0, 3.0)
 #: Positions of the tabs (an opt-in "surface states" tab is appended after these).
 DIAGRAM_TAB, VOLCANO_TAB, NETWORK_TAB, KINETICS_TAB = 0, 1, 2, 3
-CAUTION = ("Theoretical estimates (CHE thermodynamics, no kinetics); experiments follow local safety codes and "
+CAUTION = ("Theoretical estimates (CHE thermodynamics; kinetics only from estimated barriers); experiments follow local safety codes and "
            "licensed practice (CO is toxic, H2 flammable, electrolytes corrosive).")
 _UNAVAILABLE = (
     "The ecatlab explorer needs ipywidgets in a running Jupyter kernel with widgets enabled "
