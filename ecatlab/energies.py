@@ -442,12 +442,20 @@ def as_energy_table(
 
 # -- integer codes ----------------------------------------------------------------------------------
 def _first_appearance(codes: np.ndarray, n_values: int) -> np.ndarray:
-    """Position of the first row holding each code (len(codes) where a code does not occur); O(n)."""
+    """Position of the first row holding each code (len(codes) where a code does not occur); O(n).
+
+    A table's few species all occur within its first rows: a prefix is tried first.
+    """
     n = len(codes)
     first = np.full(n_values, n, dtype=np.int64)
-    if n:
-        # fancy assignment with repeated indices keeps the last write: walk backwards
-        first[codes[::-1]] = np.arange(n - 1, -1, -1, dtype=np.int64)
+    if not n:
+        return first
+    head = min(n, 1 << 16)
+    first[codes[:head][::-1]] = np.arange(head - 1, -1, -1, dtype=np.int64)  # repeated indices: the last write wins
+    if head == n or (first < n).all():
+        return first
+    first[:] = n
+    first[codes[::-1]] = np.arange(n - 1, -1, -1, dtype=np.int64)
     return first
 
 
@@ -484,69 +492,109 @@ def _categorical(codes: np.ndarray, categories: pd.Index) -> pd.Categorical:
     return pd.Categorical.from_codes(codes, dtype=dtype, validate=False)
 
 
-def _encode_text(column: pd.Series) -> tuple[np.ndarray, pd.Series]:
+def _order_by_first(codes: np.ndarray, n_values: int) -> tuple[np.ndarray, np.ndarray]:
+    """(new codes, old code of each new code): codes renumbered in order of first appearance, unused dropped."""
+    first = _first_appearance(codes, n_values)
+    used = np.flatnonzero(first < len(codes))
+    order = used[np.argsort(first[used], kind="stable")]
+    if len(order) == n_values and np.array_equal(order, np.arange(n_values)):
+        return codes, order
+    remap = np.full(n_values, -1, dtype=np.int64)
+    remap[order] = np.arange(len(order))
+    return remap[codes], order
+
+
+def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
     """(codes, distinct values) of a text column in order of first appearance; missing -> ''.
 
-    Arrow-backed strings (pandas' default ``str`` with pyarrow) are dictionary-encoded by Arrow in
-    one pass; Categoricals use their codes; anything else goes through :func:`pandas.factorize`.
-    The distinct values come back as a ``str`` Series (not yet stripped).
+    Arrow-backed strings are dictionary-encoded by Arrow in one pass; Categoricals (the C parser
+    hands the species column over as one) use their codes; anything else goes through
+    :func:`pandas.factorize`. The distinct values come back as a pyarrow string array when pyarrow
+    is installed, else as an object ndarray (not yet stripped).
     """
     arr = column.array
     pa_array = getattr(arr, "_pa_array", None)
     if pa_array is not None:
-        import pyarrow as pa
-
         encoded = pa_array.dictionary_encode()
         chunks = encoded.chunks
-        if chunks:
-            dictionary = chunks[-1].dictionary  # one memo table: each chunk's dictionary is a prefix of the last
-            parts = [np.asarray(c.indices.fill_null(-1)) if c.null_count else np.asarray(c.indices) for c in chunks]
-            codes = np.concatenate(parts) if len(parts) > 1 else parts[0]
-            distinct = pd.Series(pd.array(dictionary, dtype=column.dtype), dtype=column.dtype)
-        else:
-            codes, distinct = np.zeros(0, dtype=np.int32), pd.Series([], dtype=str)
-        if (codes < 0).any():  # missing values: give them their own code for ''
-            codes = np.where(codes < 0, len(distinct), codes)
-            distinct = pd.concat([distinct, pd.Series([""], dtype=distinct.dtype)], ignore_index=True)
-            first = _first_appearance(codes, len(distinct))
-            order = np.argsort(first, kind="stable")
-            remap = np.empty(len(order), dtype=np.int64)
-            remap[order] = np.arange(len(order))
-            return remap[codes], distinct.iloc[order].reset_index(drop=True)
-        return codes, distinct
+        if not chunks:
+            return np.zeros(0, dtype=np.int64), _as_distinct([])
+        dictionary = chunks[-1].dictionary  # one memo table: each chunk's dictionary is a prefix of the last
+        parts = [np.asarray(c.indices.fill_null(len(dictionary))) if c.null_count else np.asarray(c.indices) for c in chunks]
+        codes = np.concatenate(parts) if len(parts) > 1 else parts[0]
+        if any(c.null_count for c in chunks):  # missing cells: one more value, ''
+            dictionary = _concat_distinct(dictionary, [""])
+            codes, order = _order_by_first(codes, len(dictionary))
+            return codes, dictionary.take(order)
+        return codes, dictionary
     if isinstance(column.dtype, pd.CategoricalDtype):
         codes = column.cat.codes.to_numpy()
-        cats = column.cat.categories
+        cats = list(column.cat.categories)
         if (codes < 0).any():
             codes = np.where(codes < 0, len(cats), codes)
-            cats = cats.append(pd.Index([""], dtype=object))
-        first = _first_appearance(codes, len(cats))
-        used = np.flatnonzero(first < len(codes))
-        order = used[np.argsort(first[used], kind="stable")]
-        remap = np.full(len(cats), -1, dtype=np.int64)
-        remap[order] = np.arange(len(order))
-        values = pd.Series(np.asarray(cats, dtype=object)[order], dtype=object)
-        return remap[codes], values.map(lambda v: "" if v is None or (isinstance(v, float) and v != v) else str(v))
+            cats.append("")
+        codes, order = _order_by_first(codes, len(cats))
+        return codes, _as_distinct(["" if v is None or (isinstance(v, float) and v != v) else str(v) for v in (cats[i] for i in order)])
     codes, uniques = pd.factorize(column, use_na_sentinel=True)
-    distinct = pd.Series(np.asarray(uniques, dtype=object), dtype=object).map(str)
+    values = [str(u) for u in uniques]
     if (codes < 0).any():
-        codes = np.where(codes < 0, len(distinct), codes)
-        distinct = pd.concat([distinct, pd.Series([""], dtype=object)], ignore_index=True)
-        first = _first_appearance(codes, len(distinct))
-        order = np.argsort(first, kind="stable")
-        remap = np.empty(len(order), dtype=np.int64)
-        remap[order] = np.arange(len(order))
-        return remap[codes], distinct.iloc[order].reset_index(drop=True)
-    return codes, distinct
+        codes = np.where(codes < 0, len(values), codes)
+        values.append("")
+        codes, order = _order_by_first(codes, len(values))
+        values = [values[i] for i in order]
+    return codes, _as_distinct(values)
 
 
-def _merge_codes(codes: np.ndarray, cleaned: pd.Series, original: pd.Series | None = None) -> tuple[np.ndarray, np.ndarray]:
+def _pyarrow():
+    try:
+        import pyarrow
+        import pyarrow.compute
+    except ImportError:  # pragma: no cover - pyarrow is optional
+        return None
+    return pyarrow
+
+
+def _as_distinct(values: list):
+    pa = _pyarrow()
+    return pa.array(values, type=pa.string()) if pa is not None else np.asarray(values, dtype=object)
+
+
+def _concat_distinct(dictionary, extra: list):
+    pa = _pyarrow()
+    return pa.concat_arrays([dictionary.cast(pa.string()), pa.array(extra, type=pa.string())])
+
+
+def _clean_distinct(distinct) -> tuple[np.ndarray, bool, np.ndarray, np.ndarray, np.ndarray]:
+    """Strip the distinct values and flag bad ones, vectorised (Arrow compute, else Python on the few values).
+
+    Returns (stripped values as object ndarray, whether stripping changed any, empty mask,
+    control-character mask, over-long mask).
+    """
+    pa = _pyarrow()
+    if pa is not None and not isinstance(distinct, np.ndarray):
+        pc = pa.compute
+        distinct = distinct.cast(pa.string())
+        stripped = pc.utf8_trim_whitespace(distinct)
+        changed = bool(len(distinct)) and not pc.all(pc.equal(stripped, distinct)).as_py()
+        lengths = pc.utf8_length(stripped).to_numpy(zero_copy_only=False)
+        empty = (lengths == 0) | pc.is_in(pc.utf8_lower(stripped), value_set=pa.array(["nan", "none"])).to_numpy(zero_copy_only=False)
+        control = pc.match_substring_regex(stripped, _CONTROL.pattern).to_numpy(zero_copy_only=False)
+        return stripped.to_numpy(zero_copy_only=False), changed, empty, control, lengths > MAX_NAME_LENGTH
+    values = np.asarray([str(v).strip() for v in distinct], dtype=object)
+    changed = any(v != str(o) for v, o in zip(values, distinct))
+    lengths = np.array([len(v) for v in values], dtype=np.int64)
+    empty = np.array([v == "" or v.lower() in ("nan", "none") for v in values], dtype=bool)
+    control = np.array([_CONTROL.search(v) is not None for v in values], dtype=bool)
+    return values, changed, empty, control, lengths > MAX_NAME_LENGTH
+
+
+def _merge_codes(codes: np.ndarray, cleaned: np.ndarray, changed: bool) -> tuple[np.ndarray, np.ndarray]:
     """Codes and distinct values after cleaning (values that became equal share one code)."""
-    if original is not None and not (cleaned != original).any():
-        return codes, np.asarray(cleaned, dtype=object)  # cleaning changed nothing: still distinct
+    if not changed:
+        return codes, cleaned  # cleaning changed nothing: still distinct
     merged, distinct = pd.factorize(cleaned)  # in the order of ``cleaned``: first appearance kept
     if len(distinct) == len(cleaned):
-        return codes, np.asarray(cleaned, dtype=object)
+        return codes, cleaned
     return merged[codes], np.asarray(distinct, dtype=object)
 
 
@@ -799,6 +847,9 @@ def _parse(path: str, label: str, scan: _Scan, names: list[str], skiprows: list[
     """
     numeric = [c for c in names if c.strip().lower() in ("g", "e", "zpe", "cpdt", "ts", "solvation")]
     text = dict.fromkeys((c for c in names if c not in numeric), _text_dtype())
+    for c in names:  # few distinct values: the C parser hashes them itself and hands over codes
+        if c.strip().lower() == "species":
+            text[c] = "category"
     kwargs = dict(header=0, skiprows=set(skiprows) if skiprows else None, keep_default_na=False, index_col=False,
                   encoding="utf-8", engine="c", skip_blank_lines=True)
     try:
@@ -858,13 +909,9 @@ def _diagnose(path: str, label: str, scan: _Scan, n_fields: int) -> None:
 
 
 # -- validation -------------------------------------------------------------------------------------
-def _text_checks(label: str, loc: _Locations, codes: np.ndarray, cleaned: pd.Series, column: str) -> None:
+def _text_checks(label: str, loc: _Locations, codes: np.ndarray, cleaned: np.ndarray, masks, column: str) -> None:
     """Refuse empty names, control characters (NUL included) and over-long names, per distinct value."""
-    lengths = cleaned.str.len().to_numpy(dtype=np.int64)
-    lowered = cleaned.str.lower()
-    empty = (lengths == 0) | lowered.isin(["nan", "none"]).to_numpy()
-    control = cleaned.str.contains(_CONTROL.pattern, regex=True).to_numpy(dtype=bool)
-    long = lengths > MAX_NAME_LENGTH
+    empty, control, long = masks
     for bad, problem in (
         (empty, f"empty {column} name; give every row a {column}"),
         (control, f"{column} name {{value}} contains a control character (NUL, tab, line break...); remove it"),
@@ -873,7 +920,7 @@ def _text_checks(label: str, loc: _Locations, codes: np.ndarray, cleaned: pd.Ser
         if bad.any():
             j = np.flatnonzero(bad)
             rows = np.isin(codes, j)
-            value = _cut(str(cleaned.iloc[int(j[0])]).encode("unicode_escape").decode("ascii"))
+            value = _cut(str(cleaned[int(j[0])]).encode("unicode_escape").decode("ascii"))
             raise EnergyTableError(label, problem.format(value=value) + _count_note(rows), rows=loc[rows], column=column)
 
 
@@ -919,13 +966,13 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
 
     # -- surfaces: checked once per distinct name -------------------------------------------------
     surface_codes, distinct = _encode_text(frame["surface"])
-    cleaned = distinct.astype(str).str.strip()
-    _text_checks(label, loc, surface_codes, cleaned, "surface")
-    surface_codes, surface_names = _merge_codes(surface_codes, cleaned, distinct.astype(str))
+    cleaned, changed, *masks = _clean_distinct(distinct)
+    _text_checks(label, loc, surface_codes, cleaned, masks, "surface")
+    surface_codes, surface_names = _merge_codes(surface_codes, cleaned, changed)
 
     # -- species: parsed once per distinct text -------------------------------------------------------
     species_codes, distinct = _encode_text(frame["species"])
-    species_texts = distinct.astype(str).str.strip()
+    species_texts, _, *_ignored = _clean_distinct(distinct)
     keys = []
     for j, text in enumerate(species_texts):
         try:
@@ -1053,7 +1100,7 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
 
     surface_index = pd.Index(surface_names, name="surface", dtype=object)
     species_index = pd.Index(key_names, name="species", dtype=object)
-    origin = pd.Categorical.from_codes(has_e.astype(np.int8), ["G given", "from E + corrections"])
+    origin = _categorical(has_e.astype(np.int8), pd.Index(["G given", "from E + corrections"], dtype=object))
     data = {
         "surface": _categorical(surface_codes, surface_index),
         "species": _categorical(species_codes, species_index),
