@@ -169,16 +169,45 @@ class CompiledPathway:
         return np.abs(self.electrons) > 1e-12
 
     def dG_zero(self, adsorbate_G: np.ndarray) -> np.ndarray:
-        """Step free energies at U_SHE = 0 and pH = 0, eV; ``adsorbate_G`` is (..., n_adsorbates)."""
-        out = np.matmul(adsorbate_G, np.ascontiguousarray(self.adsorbate_stoichiometry.T))
-        out += self.molecule_dG
-        return out
+        """Step free energies at U_SHE = 0 and pH = 0, eV; ``adsorbate_G`` is (..., n_adsorbates).
+
+        dG_i = molecule_dG_i + sum_j S_ij G_j. For a large 2-D input (a screen) the sum runs over
+        the few non-zero coefficients of each step, one contiguous column pass each (no BLAS
+        threads, which on a busy machine cost more than the arithmetic); a row with any missing
+        (NaN) adsorbate is NaN in every step, as with the matrix product.
+        """
+        G = np.asarray(adsorbate_G, dtype=float)
+        S = self.adsorbate_stoichiometry
+        if G.ndim != 2 or G.shape[0] < 4096:
+            out = np.matmul(G, np.ascontiguousarray(S.T))
+            out += self.molecule_dG
+            return out
+        columns = np.asfortranarray(G)
+        out_t = np.empty((S.shape[0], G.shape[0]))
+        for i in range(S.shape[0]):
+            row = out_t[i]
+            row.fill(self.molecule_dG[i])
+            for j in np.flatnonzero(S[i]):
+                c = S[i, j]
+                if c == 1.0:
+                    row += columns[:, j]
+                elif c == -1.0:
+                    row -= columns[:, j]
+                else:
+                    row += c * columns[:, j]
+        bad = np.isnan(columns).any(axis=1)
+        if bad.any():
+            out_t[:, bad] = np.nan
+        return out_t.T
 
     def affine(self, adsorbate_G: np.ndarray, pH=0.0, scale: str = "RHE", temperature: float = STANDARD_TEMPERATURE):
         """Coefficients (a, n) with dG_i(U) = a_i + n_i U on the given scale; a in eV, n in e."""
         shift = nernst_shift(pH, temperature)
+        a = self.dG_zero(adsorbate_G)
+        if np.ndim(shift) == 0 and float(shift) == 0.0:
+            return a, self.electrons  # pH 0: no proton term on either scale
         shift = np.asarray(shift)[..., None] if np.ndim(shift) else shift
-        a = self.dG_zero(adsorbate_G) + self.proton_coefficient * shift
+        a = a + self.proton_coefficient * shift
         if scale == "RHE":
             a = a - self.electrons * shift
         return a, self.electrons
