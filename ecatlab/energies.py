@@ -43,6 +43,7 @@ import csv
 import io
 import os
 import re
+import sys
 import warnings
 from dataclasses import dataclass, field
 from functools import cached_property
@@ -403,7 +404,7 @@ def read_energies(
     else:
         path = os.fspath(source)
         label = name or path
-        raw, locations = _read_csv(path, label)
+        return _validate(*_read_csv(path, label), label, scheme)  # no reference kept here: _validate frees columns early
     return _validate(raw, locations, label, scheme)
 
 
@@ -479,7 +480,11 @@ def _codes(column: pd.Series) -> tuple[np.ndarray, list]:
 def _dense(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_rows: int, n_cols: int) -> np.ndarray:
     """Dense (n_rows, n_cols) float matrix in Fortran order (one species = one contiguous column), read-only."""
     flat = np.full(n_rows * n_cols, np.nan)
-    flat[np.asarray(cols, dtype=np.int64) * n_rows + rows] = values
+    index_type = np.int32 if n_rows * n_cols < 2**31 - 1 else np.int64
+    index = np.multiply(cols, n_rows, dtype=index_type)
+    index += rows.astype(index_type, copy=False)
+    flat[index] = values
+    del index
     dense = flat.reshape(n_cols, n_rows).T
     dense.flags.writeable = False
     return dense
@@ -543,6 +548,27 @@ def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
         codes, order = _order_by_first(codes, len(values))
         values = [values[i] for i in order]
     return codes, _as_distinct(values)
+
+
+def _release_memory() -> None:
+    """Hand freed memory back to the operating system (Arrow's pool; glibc's heap on Linux).
+
+    Parsing a big file leaves many small freed blocks behind (the parser's per-cell strings, the
+    hash table of the dictionary encoding); returning them keeps the peak of the next step low.
+    """
+    pa = _pyarrow()
+    if pa is not None:
+        pa.default_memory_pool().release_unused()
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+
+            ctypes.CDLL(None).malloc_trim(0)
+        except (OSError, AttributeError):  # pragma: no cover - not glibc
+            pass
+
+
+_BIG = 200_000  # rows from which memory is handed back between steps
 
 
 def _pyarrow():
@@ -676,7 +702,7 @@ def _scheme(references, temperature) -> ReferenceScheme:
 
 
 # -- the CSV file -----------------------------------------------------------------------------------
-_CHUNK = 1 << 24  # 16 MiB per read while scanning
+_CHUNK = 1 << 22  # 4 MiB per read while scanning (bounded memory)
 _SKIP_LINE = re.compile(rb"\n(?=[ \t]*(?:#|\r?\n|\r?\Z))")  # a blank or comment line starts after this line end
 
 
@@ -697,7 +723,7 @@ def _line_of(data: bytes, pos: int, lines_before: int) -> int:
 
 
 def _pieces(fh):
-    """The file in pieces of about 16 MiB that end at a line end (the last one may not)."""
+    """The file in pieces of about 4 MiB that end at a line end (the last one may not)."""
     carry = b""
     while True:
         piece = fh.read(_CHUNK)
@@ -715,42 +741,63 @@ def _pieces(fh):
 
 
 def _scan_file(path: str, label: str) -> _Scan:
-    """One binary pass: NUL bytes, UTF-16, invalid UTF-8 (with the line), the line count, whether
-    ``#`` or CR occur at all, and the header line. Only C-level byte operations per piece."""
+    """One binary pass in 4 MiB pieces: NUL bytes, UTF-16, invalid UTF-8 (with the line), the line
+    count, whether ``#`` or CR occur at all; then the header line (first line neither blank nor a
+    comment). Only C-level byte operations per piece, no copies."""
+    import codecs
+
     scan = _Scan()
     lines_before = 0
-    offset = 0
     last = b""
+    decoder = codecs.getincrementaldecoder("utf-8")()
     with open(path, "rb") as fh:
-        for n, data in enumerate(_pieces(fh)):
-            if n == 0:
-                if data[:2] in (b"\xff\xfe", b"\xfe\xff"):
-                    raise EnergyTableError(label, "is UTF-16 text; save the table as CSV UTF-8 (in a spreadsheet: 'CSV UTF-8')")
-                if data.startswith(b"\xef\xbb\xbf"):
-                    data, offset = data[3:], 3
-            nul = data.find(b"\x00")
+        head = fh.read(4)
+        if head[:2] in (b"\xff\xfe", b"\xfe\xff"):
+            raise EnergyTableError(label, "is UTF-16 text; save the table as CSV UTF-8 (in a spreadsheet: 'CSV UTF-8')")
+        fh.seek(0)
+        while True:
+            piece = fh.read(_CHUNK)
+            if not piece:
+                break
+            nul = piece.find(b"\x00")
             if nul >= 0:
-                raise EnergyTableError(label, f"contains a NUL byte at line {_line_of(data, nul, lines_before)}: this is not a text "
+                raise EnergyTableError(label, f"contains a NUL byte at line {_line_of(piece, nul, lines_before)}: this is not a text "
                                        "CSV file (binary, or UTF-16/32); save the table as CSV UTF-8")
-            if not data.isascii():
+            if not piece.isascii():
+                pending = len(decoder.getstate()[0])
                 try:
-                    data.decode("utf-8")
+                    decoder.decode(piece)
                 except UnicodeDecodeError as exc:
-                    bad = data[exc.start : exc.start + 1].hex()
+                    pos = max(0, exc.start - pending)
                     raise EnergyTableError(
                         label,
-                        f"is not UTF-8 text: byte 0x{bad} at line {_line_of(data, exc.start, lines_before)} (the file looks like "
-                        "Latin-1/Windows-1252 or another 8-bit encoding); save the table as CSV UTF-8",
+                        f"is not UTF-8 text: byte 0x{piece[pos:pos + 1].hex()} at line {_line_of(piece, pos, lines_before)} (the file looks "
+                        "like Latin-1/Windows-1252 or another 8-bit encoding); save the table as CSV UTF-8",
                     ) from None
-            if scan.header_line < 0:
-                _find_header(scan, data, lines_before, offset)
-            scan.has_hash = scan.has_hash or b"#" in data
-            scan.has_cr = scan.has_cr or b"\r" in data
-            lines_before += _newlines(data)
-            offset += len(data)
-            last = data[-1:]
-    scan.n_lines = lines_before + (1 if last and last != b"\n" else 0)
-    if scan.has_cr and lines_before == 0 and scan.n_lines == 1 and b"\r" in scan.header_text.encode():
+            elif decoder.getstate()[0]:
+                decoder.decode(piece)  # raises: a multi-byte character cut off by plain ASCII
+            scan.has_hash = scan.has_hash or b"#" in piece
+            scan.has_cr = scan.has_cr or b"\r" in piece
+            lines_before += _newlines(piece)
+            last = piece[-1:]
+        try:
+            decoder.decode(b"", final=True)
+        except UnicodeDecodeError:
+            raise EnergyTableError(label, f"is not UTF-8 text: the file ends inside a multi-byte character (line {lines_before + 1}); "
+                                   "save the table as CSV UTF-8") from None
+        scan.n_lines = lines_before + (1 if last and last != b"\n" else 0)
+        fh.seek(0)
+        offset = 0
+        for k, raw in enumerate(fh):  # the header: stops at the first line that is neither blank nor a comment
+            text = raw.decode("utf-8", errors="replace")
+            start = 0
+            if k == 0 and raw.startswith(b"\xef\xbb\xbf"):
+                text, start = text[1:], 3
+            if not _is_skipped(text):
+                scan.header_line, scan.header_offset, scan.header_text = k, offset + start, text.rstrip("\r\n")
+                break
+            offset += len(raw)
+    if scan.has_cr and lines_before == 0 and "\r" in scan.header_text:
         raise EnergyTableError(label, "uses CR-only line ends (old Mac format); save the table with LF or CRLF line ends")
     return scan
 
@@ -758,20 +805,6 @@ def _scan_file(path: str, label: str) -> _Scan:
 def _is_skipped(line: str) -> bool:
     text = line.lstrip("\ufeff").strip(" \t\r\n")
     return text == "" or text.startswith("#")
-
-
-def _find_header(scan: _Scan, data: bytes, lines_before: int, offset: int) -> None:
-    """Find the header among the first lines of ``data`` (a piece that ends at a line end)."""
-    start = 0
-    k = lines_before
-    while start < len(data):
-        end = data.find(b"\n", start)
-        end = len(data) if end < 0 else end
-        line = data[start:end].decode("utf-8", errors="replace")
-        if not _is_skipped(line):
-            scan.header_line, scan.header_offset, scan.header_text = k, offset + start, line.rstrip("\r")
-            return
-        start, k = end + 1, k + 1
 
 
 def _skipped_lines(path: str) -> np.ndarray:
@@ -827,6 +860,8 @@ def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, "_Locations"]:
     skipped = _skipped_lines(path) if scan.has_hash else None  # only a file with '#' can have comment lines
     body = skipped[skipped > h] if skipped is not None else np.zeros(0, dtype=np.int64)
     frame = _parse(path, label, scan, names, [int(i - h) for i in body])
+    if len(frame) >= _BIG:
+        _release_memory()
     if len(frame) != expected - len(body):
         if skipped is None:  # blank lines (pandas skips them by itself): find them for the line numbers
             skipped = _skipped_lines(path)
@@ -932,6 +967,9 @@ def _count_note(mask: np.ndarray) -> str:
 def _numbers(frame: pd.DataFrame, col: str) -> tuple[np.ndarray, np.ndarray, object]:
     """(values, not-a-number mask, echo function) of an energy column; empty cells are NaN."""
     column = frame[col]
+    if column.dtype == np.float64:
+        values = column.to_numpy()  # no copy
+        return values, np.isinf(values), lambda mask: [repr(v) for v in values[mask][:3]]
     if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
         values = column.to_numpy(dtype=float, na_value=np.nan)
         return values, np.isinf(values), lambda mask: [repr(v) for v in values[mask][:3]]
@@ -954,11 +992,13 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
             seen[low] = col
             rename[col] = _CANONICAL[low]
     frame = raw.rename(columns=rename)
+    raw_columns = [str(c) for c in raw.columns]
+    del raw  # from here on ``frame`` holds the input; columns are dropped once encoded
     missing = [c for c in ("surface", "species") if c not in frame.columns]
     if missing:
-        raise EnergyTableError(label, f"missing column(s) {missing}; found {_names([str(c) for c in raw.columns])}; required: surface, species and G or E")
+        raise EnergyTableError(label, f"missing column(s) {missing}; found {_names(raw_columns)}; required: surface, species and G or E")
     if "G" not in frame.columns and "E" not in frame.columns:
-        raise EnergyTableError(label, f"needs a column G (free energy, eV) or E (electronic energy, eV); found {_names([str(c) for c in raw.columns])}")
+        raise EnergyTableError(label, f"needs a column G (free energy, eV) or E (electronic energy, eV); found {_names(raw_columns)}")
     if len(frame) == 0:
         raise EnergyTableError(label, "has a header but no rows")
     loc = locations
@@ -969,10 +1009,16 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
     cleaned, changed, *masks = _clean_distinct(distinct)
     _text_checks(label, loc, surface_codes, cleaned, masks, "surface")
     surface_codes, surface_names = _merge_codes(surface_codes, cleaned, changed)
+    del distinct, cleaned
+    extra_columns = [c for c in frame.columns if c not in ("surface", "species", "G")]
+    frame = frame.drop(columns=["surface"])  # the per-cell text is no longer needed
+    if n >= _BIG:
+        _release_memory()
 
     # -- species: parsed once per distinct text -------------------------------------------------------
     species_codes, distinct = _encode_text(frame["species"])
     species_texts, _, *_ignored = _clean_distinct(distinct)
+    frame = frame.drop(columns=["species"])
     keys = []
     for j, text in enumerate(species_texts):
         try:
@@ -1010,7 +1056,7 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
             raise EnergyTableError(label, f"not a finite number ({examples}){_count_note(not_number)}; give energies in eV as plain numbers",
                                    rows=loc[not_number], column=col)
         with np.errstate(invalid="ignore"):
-            huge = np.abs(values) > ENERGY_BOUND_EV
+            huge = (values > ENERGY_BOUND_EV) | (values < -ENERGY_BOUND_EV)
         if huge.any():
             raise EnergyTableError(
                 label,
@@ -1067,7 +1113,10 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
                 )
 
     # -- dense matrix from the codes; duplicates show as fewer filled cells ------------------------------
-    G = np.where(has_g, numeric["G"], np.nan) if "G" in numeric else np.full(n, np.nan)
+    if "G" in numeric:
+        G = numeric["G"] if has_g.all() else np.where(has_g, numeric["G"], np.nan)
+    else:
+        G = np.full(n, np.nan)
     notes = []
     if any_e:
         coef = scheme.balance_matrix(parsed)  # (n_keys, n_refs)
@@ -1108,8 +1157,8 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
         "G_origin": origin,
         loc.kind: loc.labels,
     }
-    for col in frame.columns:
-        if col not in ("surface", "species", "G") and col not in data:
+    for col in extra_columns:
+        if col not in data:
             data[col] = numeric[col] if col in numeric else frame[col].array
     out = pd.DataFrame(data, copy=False)
     table = EnergyTable(out, scheme, label, tuple(notes))

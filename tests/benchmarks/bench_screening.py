@@ -32,6 +32,11 @@ from __future__ import annotations
 import argparse
 import json
 import os
+
+# Both sides run with single-threaded BLAS: on a shared machine OpenBLAS threads cost more than the
+# arithmetic and make the baseline's matrix products (and any engine product) erratic.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
 import subprocess
 import sys
 import tempfile
