@@ -856,6 +856,11 @@ def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, "_Locations"]:
         raise EnergyTableError(label, "is empty; expected a header line 'surface,species,G' (or E with corrections)")
     names = _header_names(scan, label)
     h = scan.header_line
+    if len(names) == 1:
+        for sep, what in ((";", "';'"), ("\t", "tabs"), ("|", "'|'")):
+            if sep in names[0]:
+                raise EnergyTableError(label, f"header at line {h + 1} is one column {_cut(names[0])}: the table seems separated by {what}; "
+                                       "save it comma-separated (CSV)")
     expected = scan.n_lines - h - 1  # data lines if none after the header is blank, a comment or a continuation
     skipped = _skipped_lines(path) if scan.has_hash else None  # only a file with '#' can have comment lines
     body = skipped[skipped > h] if skipped is not None else np.zeros(0, dtype=np.int64)
