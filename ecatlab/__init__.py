@@ -87,6 +87,9 @@ _EXPORTS: dict[str, str] = {
     "explore": "ecatlab.explorer",
     "Explorer": "ecatlab.explorer",
     "ExplorerState": "ecatlab.explorer",
+    # columnar limiting potentials (large screens)
+    "limiting_potential_arrays": "ecatlab.che",
+    "LimitingPotentialArrays": "ecatlab.che",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
