@@ -446,6 +446,9 @@ def limiting_potentials(
     return limiting_potential_arrays(energies, pathways, pH, scale, temperature, surfaces, on_missing).to_frame()
 
 
+_BLOCK = 1 << 16  # surfaces per block in limiting_potential_arrays
+
+
 @dataclass(frozen=True, eq=False)
 class LimitingPotentialArrays:
     """Columnar limiting-potential result: one (n_surfaces, n_pathways) array per quantity.
@@ -667,25 +670,27 @@ def limiting_potential_arrays(
             _report_missing(path, compiled.adsorbates, surface_index, absent, bad, on_missing)
             if keep_all is not None:
                 keep_all[:, j] = ~bad
-        a, n = compiled.affine(values, pH, sc, temperature)
-        u_l, idx = kernel.envelope(a, n, path.direction)
         u_eq = equilibrium_potential(path, sc, pH, temperature, table.scheme)
         u_eqs[j] = u_eq
-        u_l_all[:, j] = u_l
-        eta_all[:, j] = kernel.signed_overpotential(u_l, u_eq, path.direction)
-        g_max, g_idx = kernel.gmax(a, n, u_eq)
-        gmax_all[:, j] = g_max
-        max_chem, _ = kernel.chemical_obstacle(a, n)
-        chem_all[:, j] = max_chem
-        blocked_all[:, j] = kernel.is_blocked(max_chem)
-        det_all[:, j] = np.where(bad, 0, idx + 1)
-        gstep_all[:, j] = np.where(bad, 0, g_idx + 1)
         chem = ~compiled.electrochemical
-        equations = [s.equation for s in path.steps]
-        if chem.any():
-            uphill_all[:, j] = _uphill_codes(a[:, chem], [e for e, c in zip(equations, chem) if c], uphill_texts)
-        else:
-            uphill_all[:, j] = 0
+        chem_equations = [s.equation for s, c in zip(path.steps, chem) if c]
+        # blocks of surfaces: the kernel's temporaries stay small and are reused (time per surface
+        # stays flat up to millions of surfaces instead of paging in fresh memory for each temporary)
+        for start in range(0, max(n_s, 1), _BLOCK):
+            rows = slice(start, min(start + _BLOCK, n_s))
+            a, n = compiled.affine(values[rows], pH, sc, temperature)
+            u_l, idx = kernel.envelope(a, n, path.direction)
+            u_l_all[rows, j] = u_l
+            eta_all[rows, j] = kernel.signed_overpotential(u_l, u_eq, path.direction)
+            g_max, g_idx = kernel.gmax(a, n, u_eq)
+            gmax_all[rows, j] = g_max
+            max_chem, _ = kernel.chemical_obstacle(a, n)
+            chem_all[rows, j] = max_chem
+            blocked_all[rows, j] = kernel.is_blocked(max_chem)
+            block_bad = bad[rows]
+            det_all[rows, j] = np.where(block_bad, 0, idx + 1)
+            gstep_all[rows, j] = np.where(block_bad, 0, g_idx + 1)
+            uphill_all[rows, j] = _uphill_codes(a[:, chem], chem_equations, uphill_texts) if chem.any() else 0
         missing_all[:, j] = _missing_codes(absent, bad, compiled.adsorbates, missing_texts) if bad.any() else 0
     return LimitingPotentialArrays(
         surfaces=surface_index,
