@@ -171,17 +171,17 @@ class CompiledPathway:
     def dG_zero(self, adsorbate_G: np.ndarray) -> np.ndarray:
         """Step free energies at U_SHE = 0 and pH = 0, eV; ``adsorbate_G`` is (..., n_adsorbates).
 
-        dG_i = molecule_dG_i + sum_j S_ij G_j. For a large 2-D input (a screen) the sum runs over
-        the few non-zero coefficients of each step, one contiguous column pass each (no BLAS
-        threads, which on a busy machine cost more than the arithmetic); a row with any missing
-        (NaN) adsorbate is NaN in every step, as with the matrix product.
+        dG_i = molecule_dG_i + sum_j S_ij G_j, summed over the few non-zero coefficients of each
+        step, one contiguous column pass each (no BLAS call: on a busy machine its threads cost
+        more than the arithmetic, and the sum is the same whatever the number of rows or how
+        they are split into blocks); a row with any missing (NaN) adsorbate is NaN in every step,
+        as with the matrix product.
         """
         G = np.asarray(adsorbate_G, dtype=float)
         S = self.adsorbate_stoichiometry
-        if G.ndim != 2 or G.shape[0] < 4096:
-            out = np.matmul(G, np.ascontiguousarray(S.T))
-            out += self.molecule_dG
-            return out
+        lead = G.shape[:-1]
+        if G.ndim != 2:
+            return self.dG_zero(G.reshape(-1, G.shape[-1])).reshape(lead + (S.shape[0],))
         columns = np.asfortranarray(G)
         out_t = np.empty((S.shape[0], G.shape[0]))
         for i in range(S.shape[0]):
