@@ -40,7 +40,6 @@ worked out only when a message needs them.
 from __future__ import annotations
 
 import csv
-import io
 import os
 import re
 import sys

@@ -283,8 +283,6 @@ class DiagramView:
     # -- fast path --------------------------------------------------------------------------------
     def update(self, state) -> None:
         """Move the artists to the state's current levels and rewrite the conditions line."""
-        from ecatlab.plotting.diagram import conditions_text
-
         levels = np.asarray(state.levels(), dtype=float)
         det = np.asarray(state.determining_steps()) - 1
         self._set_levels(levels, det)
