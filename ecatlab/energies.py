@@ -27,10 +27,11 @@ file, the file line or frame row, the column and the fix):
   characters (echoed values are cut to a readable length);
 * energies are finite numbers with ``|value| <=`` :data:`ENERGY_BOUND_EV` eV (an adsorption energy
   against gas references beyond that is a unit or reference mistake: total DFT energies, kJ/mol);
-* the adsorbate corrections ZPE, CpdT and TS are not negative (each is positive by definition: a
-  zero-point energy, an integral of a positive heat capacity, T times an entropy; a negative value
-  is almost always ``-TS`` typed into the TS column, which would flip the correction's sign);
-  solvation may have either sign.
+* a negative adsorbate correction ZPE, CpdT or TS gets a :class:`~ecatlab.errors.CorrectionWarning`
+  naming the rows (each is positive by definition: a zero-point energy, an integral of a positive
+  heat capacity, T times an entropy; a negative value is usually ``-TS`` typed into the TS column,
+  which flips the correction's sign, but corrections shifted on purpose against shifted reference
+  corrections are legitimate, so the values are used as given); solvation may have either sign.
 
 Reading a CSV uses pandas' C parser straight from the file (numbers as float, names encoded once
 per distinct value); text is checked per distinct value, not per cell; file line numbers are
@@ -1107,13 +1108,17 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
             with np.errstate(invalid="ignore"):
                 negative = numeric[col] < 0
             if negative.any():
+                from ecatlab.errors import CorrectionWarning
+
                 what = {"ZPE": "a zero-point energy", "CpdT": "an integral of a positive heat capacity", "TS": "T times an entropy"}[col]
-                raise EnergyTableError(
-                    label,
-                    f"{col} = {numeric[col][negative][0]:.6g} eV is negative, but {col} is {what} and cannot be; "
-                    + ("give TS itself (ecatlab subtracts it), not -TS" if col == "TS" else f"give the adsorbate's own {col} (>= 0 eV)"),
-                    rows=loc[negative],
-                    column=col,
+                where = ", ".join(loc[negative][:10])
+                warnings.warn(
+                    f"{label} at {where}{_count_note(negative)}, column {col!r}: {col} = {numeric[col][negative][0]:.6g} eV is negative, "
+                    f"but an adsorbate's own {col} is {what}; used as given. "
+                    + ("Give TS itself (ecatlab subtracts it), not -TS, " if col == "TS" else "")
+                    + "unless the corrections were shifted on purpose (e.g. relative to other reference corrections)",
+                    CorrectionWarning,
+                    stacklevel=3,
                 )
 
     # -- dense matrix from the codes; duplicates show as fewer filled cells ------------------------------
