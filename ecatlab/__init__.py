@@ -137,6 +137,9 @@ _EXPORTS: dict[str, str] = {
     "plot_tafel": "ecatlab.plotting.kinetics",
     "plot_coverages": "ecatlab.plotting.kinetics",
     "plot_faradaic_efficiency": "ecatlab.plotting.kinetics",
+    # columnar limiting potentials (large screens)
+    "limiting_potential_arrays": "ecatlab.che",
+    "LimitingPotentialArrays": "ecatlab.che",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

@@ -199,3 +199,86 @@ def test_limiting_potential_equals_engine_for_user_pathway_text(oxygen):
     a = limiting_potentials(oxygen, text).limiting_potential.to_numpy()
     b = limiting_potentials(oxygen, "orr-4e").limiting_potential.to_numpy()
     np.testing.assert_allclose(a, b)
+
+
+# -- the columnar result and the large-screen path -------------------------------------------------------
+def _random_table(n, seed=0, holes=False):
+    from ecatlab.pathways import BUILTIN_PATHWAYS, pathway
+
+    species = sorted({a.key for k in BUILTIN_PATHWAYS for a in pathway(k).adsorbates})
+    rng = np.random.default_rng(seed)
+    wide = pd.DataFrame(rng.uniform(-1.5, 4.5, (n, len(species))), columns=species, index=[f"s{i}" for i in range(n)])
+    if holes:
+        wide.iloc[::97, 2] = np.nan
+    return EnergyTable.from_matrix(wide), list(BUILTIN_PATHWAYS)
+
+
+def test_large_screen_path_equals_the_matrix_product():
+    """dG_zero's per-coefficient sums (n >= 4096 rows) equal numpy's matrix product, NaN rows included."""
+    from ecatlab.che import compile_pathway
+    from ecatlab.pathways import pathway
+
+    table, keys = _random_table(5000, holes=True)
+    for key in keys:
+        compiled = compile_pathway(pathway(key), table.scheme)
+        values = table.values(None, compiled.adsorbates)
+        big = compiled.dG_zero(values)
+        ref = values @ compiled.adsorbate_stoichiometry.T + compiled.molecule_dG  # numpy as the reference
+        np.testing.assert_allclose(big, ref, rtol=0, atol=1e-12)
+        assert np.array_equal(np.isnan(big), np.isnan(ref))
+
+
+def test_arrays_and_long_frame_agree():
+    from ecatlab.che import limiting_potential_arrays
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", MissingDataWarning)
+        table, keys = _random_table(5000, seed=2, holes=True)
+        arrays = limiting_potential_arrays(table, keys, pH=2.0)
+        frame = limiting_potentials(table, keys, pH=2.0)
+    assert arrays.shape == (5000, len(keys)) and len(frame) == 5000 * len(keys)
+    for j, key in enumerate(keys):
+        part = frame[frame["pathway"] == key]
+        np.testing.assert_array_equal(part["limiting_potential"].to_numpy(), arrays.limiting_potential[:, j])
+        np.testing.assert_array_equal(part["G_max"].to_numpy(), arrays.G_max[:, j])
+        assert (part["determining_step_index"].to_numpy() == arrays.determining_step_index[:, j]).all()
+        steps = np.array([""] + [s.equation for s in arrays.pathways[j].steps], dtype=object)
+        assert (part["determining_step"].astype(object).to_numpy() == steps[arrays.determining_step_index[:, j]]).all()
+        order = arrays.ranking(key)
+        assert (order == ecatlab.che.kernel.ranking_order(arrays.G_max[:, j], arrays.blocked[:, j])).all()
+    # constants live once: pH and temperature columns are read-only broadcasts, yet a copy can be changed
+    assert frame["pH"].eq(2.0).all() and frame.attrs["pH"] == 2.0
+    changed = frame.copy()
+    changed.loc[0, "pH"] = 5.0
+    assert frame.loc[0, "pH"] == 2.0 and changed.loc[0, "pH"] == 5.0
+    missing = frame.loc[frame["missing_species"] != "", ["missing_species", "limiting_potential", "determining_step", "blocked"]]
+    assert len(missing) and missing["limiting_potential"].isna().all() and (missing["determining_step"] == "").all()
+    assert not missing["blocked"].any()
+
+
+def test_uphill_text_is_built_per_distinct_value():
+    table, _ = _random_table(6000, seed=4)
+    frame = limiting_potentials(table, ["co2rr-co"])
+    text = frame["uphill_chemical_steps"]
+    assert len(text.cat.categories) < 700  # one text per distinct 0.01 eV value, not one per row
+    up = frame["max_chemical_dG"] > 0
+    assert (frame.loc[up, "blocked"]).all() and (text[up] != "").all() and (text[~up] == "").all()
+    row = frame[up].iloc[0]
+    assert row["uphill_chemical_steps"].endswith(f"({row['max_chemical_dG']:+.2f} eV)")
+
+
+def test_blocks_of_surfaces_give_the_same_result(monkeypatch):
+    import ecatlab.che.engine as engine
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", MissingDataWarning)
+        table, keys = _random_table(5000, seed=5, holes=True)
+        whole = limiting_potentials(table, keys, pH=1.0)
+        monkeypatch.setattr(engine, "_BLOCK", 777)
+        blocked = limiting_potentials(table, keys, pH=1.0)
+    for col in whole.columns:
+        left, right = whole[col], blocked[col]
+        if left.dtype.kind == "f":
+            np.testing.assert_array_equal(left.to_numpy(), right.to_numpy())
+        else:
+            assert (left.astype(object).to_numpy() == right.astype(object).to_numpy()).all(), col

@@ -116,3 +116,70 @@ def test_from_matrix_subset_and_roundtrip():
     pd.testing.assert_frame_equal(again.matrix, table.matrix)
     updated = table.with_values(pd.DataFrame({"O*": [2.5]}, index=["B"]))
     assert updated.matrix.loc["B", "O*"] == 2.5
+
+
+# -- immutability, layout and the scalable paths -------------------------------------------------------
+def test_table_is_immutable_and_replace_loses_nothing():
+    import dataclasses
+
+    wide = pd.DataFrame({"OH*": [0.8, 1.0], "O*": [1.9, np.nan]}, index=["A", "B"])
+    table = EnergyTable.from_matrix(wide)
+    frame = table.frame
+    frame["G"] = 99.0  # changing the returned frame never changes the table
+    del frame["species"]
+    assert table.frame["G"].tolist() == [0.8, 1.9, 1.0]
+    with pytest.raises(ValueError):
+        table.frame["G"].to_numpy()[0] = 5.0  # read-only under copy-on-write
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        table.source = "x"
+    again = dataclasses.replace(table, notes=("n",))
+    pd.testing.assert_frame_equal(again.matrix, table.matrix)
+    assert again.notes == ("n",) and again.scheme is table.scheme and again.temperature == table.temperature
+    assert again.at_temperature(table.temperature) is again
+
+
+def test_values_and_matrix_agree_in_any_order():
+    rng = np.random.default_rng(3)
+    wide = pd.DataFrame(rng.uniform(-1, 3, (50, 4)), columns=["OH*", "O*", "OOH*", "H*"], index=[f"s{i}" for i in range(50)])
+    wide.iloc[::5, 1] = np.nan
+    table = EnergyTable.from_matrix(wide)
+    np.testing.assert_array_equal(table.values(None, ["H*", "OH*"]), wide[["H*", "OH*"]].to_numpy())
+    picked = ["s7", "s2", "nope"]
+    got = table.values(picked, ["O*", "XX*"])
+    np.testing.assert_array_equal(got[:2, 0], wide.loc[["s7", "s2"], "O*"].to_numpy())
+    assert np.isnan(got[2]).all() and np.isnan(got[:, 1]).all()
+
+
+def test_subset_keeps_table_order_and_names_unknowns_briefly():
+    wide = pd.DataFrame({"OH*": np.arange(300) / 100.0}, index=[f"s{i}" for i in range(300)])
+    table = EnergyTable.from_matrix(wide)
+    sub = table.subset(["s9", "s3"])
+    assert sub.surfaces == ["s3", "s9"] and sub.frame["surface"].cat.categories.tolist() == ["s3", "s9"]
+    with pytest.raises(EnergyTableError) as err:
+        table.subset(["s1", "nope"])
+    assert "'nope'" in str(err.value) and len(str(err.value)) < 400  # the 300 known names are cut
+
+
+def test_comment_lines_and_line_numbers_in_the_frame(tmp_path):
+    path = write(tmp_path, "# a\n\n# b\nsurface,species,G\nA,OH*,0.1\n# c\nB,OH*,0.2\n\n\nC,O*,0.3\n")
+    table = read_energies(path)
+    assert list(table.frame["line"]) == [5, 7, 10]
+    assert table.surfaces == ["A", "B", "C"]
+
+
+def test_large_file_matches_a_plain_pandas_read(tmp_path):
+    """The fast path (C parser, Arrow codes) gives what read_csv + pivot gives (pandas as the reference)."""
+    rng = np.random.default_rng(7)
+    n = 3000
+    species = ["OH*", "O*", "OOH*"]
+    frame = pd.DataFrame({"surface": np.repeat([f"m{i:04d}" for i in range(n)], 3), "species": species * n, "G": np.round(rng.uniform(-2, 4, 3 * n), 6)})
+    frame = frame.sample(frac=1.0, random_state=1).reset_index(drop=True)  # any row order
+    path = tmp_path / "big.csv"
+    frame.to_csv(path, index=False)
+    table = read_energies(path)
+    ref = pd.read_csv(path).pivot(index="surface", columns="species", values="G")
+    got = table.matrix
+    pd.testing.assert_frame_equal(got.loc[sorted(got.index), sorted(got.columns)], ref.loc[sorted(ref.index), sorted(ref.columns)],
+                                  check_names=False, check_index_type=False, check_column_type=False)
+    assert table.surfaces == list(dict.fromkeys(frame["surface"]))  # order of first appearance
+    assert list(table.frame["line"]) == list(range(2, 3 * n + 2))

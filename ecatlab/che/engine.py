@@ -59,7 +59,7 @@ import numpy as np
 import pandas as pd
 
 from ecatlab.che import kernel
-from ecatlab.che.conditions import SCALES, check_pH, check_scale, check_temperature
+from ecatlab.che.conditions import SCALES, check_pH, check_potential, check_scale, check_temperature
 from ecatlab.constants import STANDARD_TEMPERATURE, thermal_voltage_per_pH
 from ecatlab.energies import EnergyTable, as_energy_table
 from ecatlab.errors import ConditionError, ConditionsWarning, MissingDataWarning, MissingSpeciesError, PathwayError
@@ -74,6 +74,8 @@ __all__ = [
     "step_free_energies",
     "state_free_energies",
     "limiting_potentials",
+    "limiting_potential_arrays",
+    "LimitingPotentialArrays",
     "equilibrium_potential",
     "nernst_shift",
     "LIMITING_POTENTIAL_COLUMNS",
@@ -167,16 +169,45 @@ class CompiledPathway:
         return np.abs(self.electrons) > 1e-12
 
     def dG_zero(self, adsorbate_G: np.ndarray) -> np.ndarray:
-        """Step free energies at U_SHE = 0 and pH = 0, eV; ``adsorbate_G`` is (..., n_adsorbates)."""
-        out = np.matmul(adsorbate_G, np.ascontiguousarray(self.adsorbate_stoichiometry.T))
-        out += self.molecule_dG
-        return out
+        """Step free energies at U_SHE = 0 and pH = 0, eV; ``adsorbate_G`` is (..., n_adsorbates).
+
+        dG_i = molecule_dG_i + sum_j S_ij G_j, summed over the few non-zero coefficients of each
+        step, one contiguous column pass each (no BLAS call: on a busy machine its threads cost
+        more than the arithmetic, and the sum is the same whatever the number of rows or how
+        they are split into blocks); a row with any missing (NaN) adsorbate is NaN in every step,
+        as with the matrix product.
+        """
+        G = np.asarray(adsorbate_G, dtype=float)
+        S = self.adsorbate_stoichiometry
+        lead = G.shape[:-1]
+        if G.ndim != 2:
+            return self.dG_zero(G.reshape(-1, G.shape[-1])).reshape(lead + (S.shape[0],))
+        columns = np.asfortranarray(G)
+        out_t = np.empty((S.shape[0], G.shape[0]))
+        for i in range(S.shape[0]):
+            row = out_t[i]
+            row.fill(self.molecule_dG[i])
+            for j in np.flatnonzero(S[i]):
+                c = S[i, j]
+                if c == 1.0:
+                    row += columns[:, j]
+                elif c == -1.0:
+                    row -= columns[:, j]
+                else:
+                    row += c * columns[:, j]
+        bad = np.isnan(columns).any(axis=1)
+        if bad.any():
+            out_t[:, bad] = np.nan
+        return out_t.T
 
     def affine(self, adsorbate_G: np.ndarray, pH=0.0, scale: str = "RHE", temperature: float = STANDARD_TEMPERATURE):
         """Coefficients (a, n) with dG_i(U) = a_i + n_i U on the given scale; a in eV, n in e."""
         shift = nernst_shift(pH, temperature)
+        a = self.dG_zero(adsorbate_G)
+        if np.ndim(shift) == 0 and float(shift) == 0.0:
+            return a, self.electrons  # pH 0: no proton term on either scale
         shift = np.asarray(shift)[..., None] if np.ndim(shift) else shift
-        a = self.dG_zero(adsorbate_G) + self.proton_coefficient * shift
+        a = a + self.proton_coefficient * shift
         if scale == "RHE":
             a = a - self.electrons * shift
         return a, self.electrons
@@ -226,13 +257,15 @@ def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: Referen
     return CompiledPathway(pathway, adsorbates, stoich, mol, electrons, protons)
 
 
-def _adsorbate_values(table: EnergyTable, compiled: CompiledPathway, surfaces: Sequence[str]):
+def _adsorbate_values(table: EnergyTable, compiled: CompiledPathway, surfaces: Sequence[str] | None):
+    """(values, missing) with ``missing`` surface -> missing adsorbates (built only for the rows that lack some)."""
     values = table.values(surfaces, compiled.adsorbates)
-    missing_mask = ~np.isfinite(values)
+    missing_mask = np.isnan(values)
     missing = {}
     if missing_mask.any():
+        names = table._surface_index if surfaces is None else surfaces
         for r in np.flatnonzero(missing_mask.any(axis=1)):
-            missing[surfaces[r]] = [compiled.adsorbates[j] for j in np.flatnonzero(missing_mask[r])]
+            missing[str(names[r])] = [compiled.adsorbates[j] for j in np.flatnonzero(missing_mask[r])]
     return values, missing
 
 
@@ -242,16 +275,17 @@ def _as_table(energies, temperature: float) -> EnergyTable:
 
 
 def _select_surfaces(table: EnergyTable, surfaces) -> list[str]:
+    """The requested surfaces as a list (all, in table order, for None); unknown names raise (one lookup each)."""
     if surfaces is None:
         return table._surface_list  # the cached list itself: lets table.values() skip the lookup
     wanted = [surfaces] if isinstance(surfaces, str) else list(surfaces)
-    known = set(table.surfaces)
-    unknown = [s for s in wanted if s not in known]
-    if unknown:
-        from ecatlab.errors import EnergyTableError
-
-        raise EnergyTableError(table.source, f"unknown surface(s) {unknown}; known: {table.surfaces}")
+    table.surface_positions(wanted)
     return wanted
+
+
+def _requested(table: EnergyTable, surfaces) -> list[str] | None:
+    """Like :func:`_select_surfaces`, but None for all surfaces (no list of names is built)."""
+    return None if surfaces is None else _select_surfaces(table, surfaces)
 
 
 def step_free_energies(
@@ -293,6 +327,7 @@ def step_free_energies(
         ``.attrs`` holds the conditions, the pathway steps and the reference scheme.
     """
     sc = _check_conditions(scale, pH, temperature)
+    check_potential(potential)
     table = _as_table(energies, temperature)
     path = resolve(pathway)
     compiled = compile_pathway(path, table.scheme)
@@ -322,6 +357,8 @@ def state_free_energies(
     Same parameters as :func:`step_free_energies`; columns are the pathway's state labels
     (``len(steps) + 1`` of them, made unique with a numeric prefix).
     """
+    _check_conditions(scale, pH, temperature)
+    check_potential(potential)
     steps = step_free_energies(energies, pathway, potential, pH, scale, temperature, surfaces)
     path = resolve(pathway)
     cumulative = np.concatenate([np.zeros((len(steps), 1)), np.cumsum(steps.to_numpy(), axis=1)], axis=1)
@@ -404,141 +441,341 @@ def limiting_potentials(
     DataFrame
         One row per (pathway, surface); columns documented in :data:`LIMITING_POTENTIAL_COLUMNS`
         (potentials in V on ``scale``, energies in eV). ``.attrs`` holds conditions and units.
+        It is the long view of :func:`limiting_potential_arrays` (see there for the columnar
+        form, which is cheaper for large screens).
 
     Notes
     -----
     Reduction: U_L = min_i(-a_i/n_i) over electrochemical steps, eta = U_eq - U_L.
     Oxidation: U_L = max_i(-a_i/n_i), eta = U_L - U_eq. See the module docstring.
     """
+    return limiting_potential_arrays(energies, pathways, pH, scale, temperature, surfaces, on_missing).to_frame()
+
+
+_BLOCK = 1 << 16  # surfaces per block in limiting_potential_arrays
+
+
+@dataclass(frozen=True, eq=False)
+class LimitingPotentialArrays:
+    """Columnar limiting-potential result: one (n_surfaces, n_pathways) array per quantity.
+
+    Every array has shape ``(len(surfaces), len(pathways))`` (Fortran order, so one pathway's
+    column is contiguous and the long table of :meth:`to_frame` is a view of it). Text is not
+    stored per cell: steps are integer codes into the pathway's own steps, and the chemical-step
+    and missing-species descriptions are codes into short lists built once per distinct value.
+
+    Attributes
+    ----------
+    surfaces : Index
+        Surface names (rows).
+    pathways : tuple of Pathway
+        Pathways (columns).
+    limiting_potential, overpotential : ndarray of float
+        U_L [V vs ``scale``] and the signed theoretical overpotential [V]; NaN where data are missing.
+    G_max, max_chemical_dG : ndarray of float
+        G_max at U_eq over all steps and the largest chemical-step free energy [eV] (NaN: missing
+        data, or for ``max_chemical_dG`` a pathway without chemical steps).
+    blocked : ndarray of bool
+        An uphill chemical step blocks the pathway at every potential.
+    determining_step_index, G_max_step_index : ndarray of int16
+        1-based index of the potential-determining step and of the step carrying G_max into
+        ``pathways[j].steps``; 0 where data are missing.
+    uphill_codes, missing_codes : ndarray of int32
+        Codes into :attr:`uphill_texts` / :attr:`missing_texts` (code 0 is the empty text).
+    uphill_texts, missing_texts : tuple of str
+        ``'step (+0.12 eV); ...'`` for the uphill chemical steps (values rounded to 0.01 eV),
+        and the comma-separated missing adsorbates.
+    equilibrium_potentials : ndarray of float (n_pathways,)
+        U_eq of each pathway [V vs ``scale``].
+    keep : ndarray of bool or None
+        Rows kept in the long table (``on_missing="drop"``); None keeps all.
+    scale, pH, temperature : conditions (V scale, -, K), the same for every cell.
+    references, energy_source, notes : provenance of the energies.
+    """
+
+    surfaces: pd.Index
+    pathways: tuple
+    limiting_potential: np.ndarray
+    overpotential: np.ndarray
+    G_max: np.ndarray
+    max_chemical_dG: np.ndarray
+    blocked: np.ndarray
+    determining_step_index: np.ndarray
+    G_max_step_index: np.ndarray
+    uphill_codes: np.ndarray
+    uphill_texts: tuple
+    missing_codes: np.ndarray
+    missing_texts: tuple
+    equilibrium_potentials: np.ndarray
+    keep: np.ndarray | None
+    scale: str
+    pH: float
+    temperature: float
+    references: str = ""
+    energy_source: str = ""
+    notes: tuple = ()
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return (len(self.surfaces), len(self.pathways))
+
+    def _long(self, arr: np.ndarray) -> np.ndarray:
+        flat = arr.T.reshape(-1)  # pathway-major: a view for Fortran-ordered arrays
+        return flat if self.keep is None else flat[self.keep.T.reshape(-1)]
+
+    def _pathway_constant(self, values, dtype=float) -> np.ndarray:
+        per = np.asarray(values, dtype=dtype)
+        if self.keep is None:
+            return np.repeat(per, len(self.surfaces))
+        return np.repeat(per, self.keep.sum(axis=0))
+
+    def to_frame(self) -> pd.DataFrame:
+        """The long table, one row per (pathway, surface), columns of :data:`LIMITING_POTENTIAL_COLUMNS`."""
+        n_s, n_p = self.shape
+        names = [p.name for p in self.pathways]
+        n_rows = n_s * n_p if self.keep is None else int(self.keep.sum())
+        pathway_codes = self._pathway_constant(np.arange(n_p), np.int32) if n_p else np.zeros(0, dtype=np.int32)
+        path_cats = pd.Index(names, dtype=object)
+        unique_surfaces = self.surfaces.is_unique
+        if unique_surfaces:
+            surface_codes = self._long(np.broadcast_to(np.arange(n_s, dtype=np.int32)[:, None], (n_s, n_p)).copy(order="F"))
+            surface = _fast_categorical(surface_codes, pd.Index(self.surfaces, dtype=object))
+        else:  # the caller repeated a surface name: keep plain text
+            surface = pd.Series(np.asarray(self.surfaces, dtype=object)[self._long(np.broadcast_to(np.arange(n_s)[:, None], (n_s, n_p)).copy(order="F"))], dtype=object)
+        reactions = [p.overall_step().equation for p in self.pathways]
+        directions = [p.direction for p in self.pathways]
+
+        def per_pathway_text(values):
+            codes, cats = pd.factorize(pd.Index(values, dtype=object)) if n_p else (np.zeros(0, dtype=np.intp), [])
+            return _fast_categorical(np.asarray(codes, dtype=np.int32)[pathway_codes], pd.Index(list(cats), dtype=object))
+
+        step_cats, step_table = _step_categories(self.pathways)
+
+        def step_text(index_1based):
+            codes = np.empty(index_1based.shape, dtype=np.int32, order="F")
+            for j in range(n_p):  # index 0 (missing data) -> code 0 -> ""
+                codes[:, j] = step_table[j][index_1based[:, j]]
+            return _fast_categorical(self._long(codes), step_cats)
+
+        data = {
+            "surface": surface,
+            "pathway": _fast_categorical(pathway_codes, path_cats),
+            "reaction": per_pathway_text(reactions),
+            "direction": per_pathway_text(directions),
+            "electrons": self._pathway_constant([abs(p.total_electrons) for p in self.pathways]),
+            "limiting_potential": self._long(self.limiting_potential),
+            "equilibrium_potential": self._pathway_constant(self.equilibrium_potentials),
+            "overpotential": self._long(self.overpotential),
+            "determining_step": step_text(self.determining_step_index),
+            "determining_step_index": self._long(self.determining_step_index),
+            "G_max": self._long(self.G_max),
+            "G_max_step": step_text(self.G_max_step_index),
+            "blocked": self._long(self.blocked),
+            "max_chemical_dG": self._long(self.max_chemical_dG),
+            "uphill_chemical_steps": _fast_categorical(self._long(self.uphill_codes), pd.Index(list(self.uphill_texts), dtype=object)),
+            "missing_species": _fast_categorical(self._long(self.missing_codes), pd.Index(list(self.missing_texts), dtype=object)),
+            "scale": _fast_categorical(np.zeros(n_rows, dtype=np.int8), pd.Index([self.scale], dtype=object)),
+            "pH": np.broadcast_to(np.float64(self.pH), (n_rows,)),  # constants: zero-stride, read-only (copy-on-write)
+            "temperature": np.broadcast_to(np.float64(self.temperature), (n_rows,)),
+        }
+        result = pd.DataFrame(data, copy=False)
+        result.attrs.update(
+            {
+                "quantity": "limiting potentials",
+                "units": {"limiting_potential": f"V vs {self.scale}", "equilibrium_potential": f"V vs {self.scale}", "overpotential": "V",
+                          "G_max": "eV", "max_chemical_dG": "eV"},
+                "columns": LIMITING_POTENTIAL_COLUMNS,
+                "scale": self.scale,
+                "pH": float(self.pH),
+                "temperature": float(self.temperature),
+                "equilibrium_potentials": dict(zip(names, map(float, self.equilibrium_potentials))),
+                "references": self.references,
+                "energy_source": self.energy_source,
+                "notes": list(self.notes),
+            }
+        )
+        return result
+
+    def ranking(self, pathway) -> np.ndarray:
+        """Surface positions best first for one pathway (:func:`ecatlab.che.kernel.ranking_order`)."""
+        names = [p.name for p in self.pathways]
+        key = pathway.name if isinstance(pathway, Pathway) else str(pathway)
+        if key not in names:
+            raise PathwayError(f"pathway {key!r} is not in this result; it has {names}")
+        j = names.index(key)
+        return kernel.ranking_order(self.G_max[:, j], self.blocked[:, j])
+
+
+def _fast_categorical(codes: np.ndarray, categories: pd.Index) -> pd.Categorical:
+    """Categorical from codes and distinct categories without pandas' per-call checks."""
+    fast = getattr(pd.CategoricalDtype, "_from_fastpath", None)
+    dtype = fast(categories, False) if fast is not None else pd.CategoricalDtype(categories)
+    return pd.Categorical.from_codes(codes, dtype=dtype, validate=False)
+
+
+def _step_categories(pathways) -> tuple[pd.Index, np.ndarray]:
+    """Categories ["", every distinct step equation] and a table: row j, column i -> code of step i (1-based) of pathway j."""
+    cats: dict[str, int] = {"": 0}
+    per_path = []
+    for p in pathways:
+        per_path.append([cats.setdefault(s.equation, len(cats)) for s in p.steps])
+    width = max((len(c) for c in per_path), default=0)
+    table = np.zeros((len(pathways), width + 1), dtype=np.int32)
+    for j, codes in enumerate(per_path):
+        table[j, 1 : len(codes) + 1] = codes
+    return pd.Index(list(cats), dtype=object), table
+
+
+def limiting_potential_arrays(
+    energies,
+    pathways,
+    pH=0.0,
+    scale: str = "RHE",
+    temperature: float = STANDARD_TEMPERATURE,
+    surfaces: Iterable[str] | None = None,
+    on_missing: str = "report",
+) -> LimitingPotentialArrays:
+    """Limiting potentials of many surfaces and pathways as (surfaces x pathways) arrays.
+
+    Same parameters and physics as :func:`limiting_potentials` (every number comes from
+    :mod:`ecatlab.che.kernel`); returns :class:`LimitingPotentialArrays`, whose
+    :meth:`~LimitingPotentialArrays.to_frame` is the long table.
+    """
     sc = _check_conditions(scale, pH, temperature)
     if np.ndim(pH) != 0:
         raise ConditionError("limiting_potentials takes one pH value; loop over pH or use the engine arrays")
+    if on_missing not in ("report", "raise", "drop"):
+        raise ValueError(f"on_missing must be one of ('report', 'raise', 'drop'), got {on_missing!r}")
     table = _as_table(energies, temperature)
     if isinstance(pathways, (str, Pathway)):
         pathways = [pathways]
-    names = _select_surfaces(table, surfaces)
-    n_s = len(names)
-    surface_array = np.asarray(names, dtype=object)
-    columns: dict[str, list] = {c: [] for c in LIMITING_POTENTIAL_COLUMNS}
-    for p in pathways:
-        path = resolve(p)
+    paths = tuple(resolve(p) for p in pathways)
+    names = _requested(table, surfaces)
+    surface_index = table._surface_index if names is None else pd.Index(names, dtype=object)
+    n_s, n_p = len(surface_index), len(paths)
+    shape = (n_s, n_p)
+    u_l_all = np.empty(shape, order="F")
+    eta_all = np.empty(shape, order="F")
+    gmax_all = np.empty(shape, order="F")
+    chem_all = np.empty(shape, order="F")
+    blocked_all = np.empty(shape, dtype=bool, order="F")
+    det_all = np.empty(shape, dtype=np.int16, order="F")
+    gstep_all = np.empty(shape, dtype=np.int16, order="F")
+    uphill_all = np.empty(shape, dtype=np.int32, order="F")
+    missing_all = np.empty(shape, dtype=np.int32, order="F")
+    u_eqs = np.empty(n_p)
+    uphill_texts: dict[str, int] = {"": 0}
+    missing_texts: dict[str, int] = {"": 0}
+    keep_all = np.ones(shape, dtype=bool, order="F") if on_missing == "drop" else None
+    for j, path in enumerate(paths):
         compiled = compile_pathway(path, table.scheme)
-        values, missing = _adsorbate_values(table, compiled, names)
-        keep = _handle_missing(path, missing, names, on_missing, allow=("report", "raise", "drop"))
-        a, n = compiled.affine(values, pH, sc, temperature)
-        u_l, idx = kernel.envelope(a, n, path.direction)
-        u_eq_value = equilibrium_potential(path, sc, pH, temperature, table.scheme)
-        u_eq = np.full(n_s, u_eq_value)
-        eta = kernel.signed_overpotential(u_l, u_eq, path.direction)
-        g_max, g_idx = kernel.gmax(a, n, u_eq_value)
-        max_chem, _ = kernel.chemical_obstacle(a, n)
-        blocked = kernel.is_blocked(max_chem)
-        chem = ~compiled.electrochemical
-        equations = np.array([s.equation for s in path.steps], dtype=object)
-        uphill = _uphill_text(a[:, chem], equations[chem]) if chem.any() else np.full(n_s, "", dtype=object)
-        determining = equations[idx]
-        g_step = equations[g_idx]
-        index = idx + 1
-        bad = ~keep
+        values = table.values(names, compiled.adsorbates)
+        absent = np.isnan(values)
+        bad = absent.any(axis=1) if absent.size else np.zeros(n_s, dtype=bool)
         if bad.any():
-            u_l, eta, max_chem, g_max = (np.where(bad, np.nan, x) for x in (u_l, eta, max_chem, g_max))
-            determining = np.where(bad, "", determining)
-            g_step = np.where(bad, "", g_step)
-            uphill = np.where(bad, "", uphill)
-            index = np.where(bad, 0, index)
-            blocked = np.where(bad, False, blocked)
-        rows = keep if on_missing == "drop" else slice(None)
-        m = int(keep.sum()) if on_missing == "drop" else n_s
-        const = lambda value: _Constant(value, m)  # noqa: E731
-        columns["surface"].append(np.arange(n_s)[rows])
-        columns["pathway"].append(const(path.name))
-        columns["reaction"].append(const(path.overall_step().equation))
-        columns["direction"].append(const(path.direction))
-        columns["electrons"].append(np.full(m, abs(path.total_electrons)))
-        columns["limiting_potential"].append(u_l[rows])
-        columns["equilibrium_potential"].append(u_eq[rows])
-        columns["overpotential"].append(eta[rows])
-        columns["determining_step"].append(np.asarray(determining, dtype=object)[rows])
-        columns["determining_step_index"].append(np.asarray(index)[rows])
-        columns["G_max"].append(g_max[rows])
-        columns["G_max_step"].append(np.asarray(g_step, dtype=object)[rows])
-        columns["blocked"].append(np.asarray(blocked, dtype=bool)[rows])
-        columns["max_chemical_dG"].append(max_chem[rows])
-        columns["uphill_chemical_steps"].append(np.asarray(uphill, dtype=object)[rows])
-        columns["missing_species"].append(_missing_text(names, missing)[rows])
-        columns["scale"].append(const(sc))
-        columns["pH"].append(np.full(m, float(pH)))
-        columns["temperature"].append(np.full(m, float(temperature)))
-    surface_codes = np.concatenate(columns.pop("surface"))
-    if len(set(names)) == len(names):
-        data = {"surface": pd.Categorical.from_codes(surface_codes, list(names))}
-    else:  # the caller repeated a surface name: keep plain text
-        data = {"surface": pd.Series(surface_array[surface_codes], dtype=object)}
-    for col, parts in columns.items():
-        if parts and (isinstance(parts[0], _Constant) or parts[0].dtype == object):
-            data[col] = _categorical(parts)
-        else:
-            data[col] = np.concatenate(parts) if parts else np.array([], dtype=float)
-    result = pd.DataFrame(data)
-    result.attrs.update(
-        {
-            "quantity": "limiting potentials",
-            "units": {"limiting_potential": f"V vs {sc}", "equilibrium_potential": f"V vs {sc}", "overpotential": "V", "G_max": "eV", "max_chemical_dG": "eV"},
-            "columns": LIMITING_POTENTIAL_COLUMNS,
-            "scale": sc,
-            "pH": float(pH),
-            "temperature": float(temperature),
-            "references": table.scheme.describe(),
-            "energy_source": table.source,
-            "notes": list(table.notes),
-        }
+            _report_missing(path, compiled.adsorbates, surface_index, absent, bad, on_missing)
+            if keep_all is not None:
+                keep_all[:, j] = ~bad
+        u_eq = equilibrium_potential(path, sc, pH, temperature, table.scheme)
+        u_eqs[j] = u_eq
+        chem = ~compiled.electrochemical
+        chem_equations = [s.equation for s, c in zip(path.steps, chem) if c]
+        # blocks of surfaces: the kernel's temporaries stay small and are reused (time per surface
+        # stays flat up to millions of surfaces instead of paging in fresh memory for each temporary)
+        for start in range(0, max(n_s, 1), _BLOCK):
+            rows = slice(start, min(start + _BLOCK, n_s))
+            a, n = compiled.affine(values[rows], pH, sc, temperature)
+            u_l, idx = kernel.envelope(a, n, path.direction)
+            u_l_all[rows, j] = u_l
+            eta_all[rows, j] = kernel.signed_overpotential(u_l, u_eq, path.direction)
+            g_max, g_idx = kernel.gmax(a, n, u_eq)
+            gmax_all[rows, j] = g_max
+            max_chem, _ = kernel.chemical_obstacle(a, n)
+            chem_all[rows, j] = max_chem
+            blocked_all[rows, j] = kernel.is_blocked(max_chem)
+            block_bad = bad[rows]
+            det_all[rows, j] = np.where(block_bad, 0, idx + 1)
+            gstep_all[rows, j] = np.where(block_bad, 0, g_idx + 1)
+            uphill_all[rows, j] = _uphill_codes(a[:, chem], chem_equations, uphill_texts) if chem.any() else 0
+        missing_all[:, j] = _missing_codes(absent, bad, compiled.adsorbates, missing_texts) if bad.any() else 0
+    return LimitingPotentialArrays(
+        surfaces=surface_index,
+        pathways=paths,
+        limiting_potential=u_l_all,
+        overpotential=eta_all,
+        G_max=gmax_all,
+        max_chemical_dG=chem_all,
+        blocked=blocked_all,
+        determining_step_index=det_all,
+        G_max_step_index=gstep_all,
+        uphill_codes=uphill_all,
+        uphill_texts=tuple(uphill_texts),
+        missing_codes=missing_all,
+        missing_texts=tuple(missing_texts),
+        equilibrium_potentials=u_eqs,
+        keep=keep_all,
+        scale=sc,
+        pH=float(pH),
+        temperature=float(temperature),
+        references=table.scheme.describe(),
+        energy_source=table.source,
+        notes=tuple(table.notes),
     )
-    return result
 
 
-@dataclass(frozen=True)
-class _Constant:
-    """A text column part holding one value ``size`` times (stored without materialising it)."""
-
-    value: str
-    size: int
-
-
-def _categorical(parts: list[np.ndarray]) -> pd.Categorical:
-    """Concatenate object arrays of text into one Categorical, factorising each (small) part once."""
-    categories: dict[str, int] = {}
-    codes = []
-    for part in parts:
-        if isinstance(part, _Constant):
-            code = categories.setdefault(part.value, len(categories))
-            codes.append(np.full(part.size, code, dtype=np.int64))
-            continue
-        local_codes, uniques = pd.factorize(part)
-        remap = np.array([categories.setdefault(u, len(categories)) for u in uniques], dtype=np.int64)
-        codes.append(remap[local_codes] if len(remap) else local_codes.astype(np.int64))
-    return pd.Categorical.from_codes(np.concatenate(codes) if codes else np.array([], dtype=np.int64), list(categories))
+def _report_missing(path: Pathway, adsorbates, surface_index: pd.Index, absent: np.ndarray, bad: np.ndarray, on_missing: str) -> None:
+    """Raise (``on_missing='raise'``) or warn about surfaces lacking adsorbates; names at most 10."""
+    rows = np.flatnonzero(bad)
+    if on_missing == "raise":
+        missing = {str(surface_index[r]): [adsorbates[k] for k in np.flatnonzero(absent[r])] for r in rows}
+        raise MissingSpeciesError(path.name, missing)
+    shown = "; ".join(f"{surface_index[r]}: {', '.join(adsorbates[k] for k in np.flatnonzero(absent[r]))}" for r in rows[:10])
+    more = f" (and {len(rows) - 10:,} more surfaces)" if len(rows) > 10 else ""
+    action = "left out" if on_missing == "drop" else "reported with NaN values and a missing_species entry"
+    warnings.warn(f"pathway {path.name!r}: surfaces lacking adsorbates are {action}: {shown}{more}", MissingDataWarning, stacklevel=4)
 
 
-def _missing_text(names: list[str], missing: dict) -> np.ndarray:
-    out = np.full(len(names), "", dtype=object)
-    if missing:
-        out[:] = [", ".join(missing.get(s, [])) for s in names]
-    return out
+def _missing_codes(absent: np.ndarray, bad: np.ndarray, adsorbates, texts: dict) -> np.ndarray:
+    """Code per row of the text naming its missing adsorbates; one text per distinct pattern."""
+    n_ads = absent.shape[1]
+    if n_ads > 62:  # patterns do not fit one integer: build the text per row (rare)
+        keys = np.array([", ".join(adsorbates[k] for k in np.flatnonzero(r)) for r in absent], dtype=object)
+        codes, uniques = pd.factorize(keys)
+        remap = np.array([texts.setdefault(u, len(texts)) for u in uniques], dtype=np.int32)
+        return remap[codes]
+    pattern = absent.astype(np.int64) @ (np.int64(1) << np.arange(n_ads, dtype=np.int64))
+    codes, uniques = pd.factorize(pattern)
+    remap = np.array([texts.setdefault(", ".join(adsorbates[k] for k in range(n_ads) if (int(u) >> k) & 1), len(texts)) for u in uniques],
+                     dtype=np.int32)
+    return remap[codes]
 
 
-def _uphill_text(chem_a: np.ndarray, equations: np.ndarray) -> np.ndarray:
-    """'step (+0.12 eV); ...' for the uphill chemical steps of each row, vectorised over rows."""
-    out = np.full(chem_a.shape[0], "", dtype=object)
-    for j, eq in enumerate(equations):
-        col = chem_a[:, j]
-        up = np.isfinite(col) & (col > 0)
-        if not up.any():
-            continue
-        text = pd.Series(col[up]).map("{:+.2f}".format).to_numpy(dtype=object)
-        piece = eq + " (" + text + " eV)"
-        joined = np.where(out[up] == "", piece, out[up] + "; " + piece)
-        out[up] = joined
-    return out
+def _uphill_codes(chem_a: np.ndarray, equations: list[str], texts: dict) -> np.ndarray:
+    """Code per row of 'step (+0.12 eV); ...' for its uphill chemical steps (values in 0.01 eV steps).
+
+    The text is built once per distinct combination of rounded uphill values, not once per row.
+    """
+    up = np.isfinite(chem_a) & (chem_a > 0)
+    centi = np.where(up, np.rint(np.where(up, chem_a, 0.0) * 100.0), -1.0).astype(np.int64)  # -1: not uphill
+    if centi.shape[1] == 1:
+        key = centi[:, 0]
+    else:
+        span = int(centi.max(initial=0)) + 2
+        if span ** centi.shape[1] < 2**62:
+            key = np.zeros(centi.shape[0], dtype=np.int64)
+            for k in range(centi.shape[1]):
+                key = key * span + (centi[:, k] + 1)
+        else:
+            _, key = np.unique(centi, axis=0, return_inverse=True)
+            key = key.reshape(-1)
+    codes, uniques = pd.factorize(key)
+    first = np.zeros(len(uniques), dtype=np.int64)
+    first[codes[::-1]] = np.arange(len(codes) - 1, -1, -1)
+    remap = np.empty(len(uniques), dtype=np.int32)
+    for u, row in enumerate(first):
+        parts = [f"{eq} ({c / 100.0:+.2f} eV)" for eq, c in zip(equations, centi[row]) if c >= 0]
+        remap[u] = texts.setdefault("; ".join(parts), len(texts))
+    return remap[codes]
 
 
 def equilibrium_potential(

@@ -1,9 +1,12 @@
 """The explorer's figure: one Figure for the explorer's lifetime, artists moved on every change.
 
-The diagram itself is drawn by :mod:`ecatlab.plotting.diagram` (its :class:`LevelDrawing` handles
-move existing artists); this module only owns the Figure, rebuilds the Axes content when the
-pathway or the surface set changes, and on a potential/pH move calls ``LevelDrawing.update`` per
-surface and redraws.
+The diagram itself is drawn by :mod:`ecatlab.plotting.diagram` (static parts, legend, styles);
+this module owns the Figure, rebuilds the Axes content when the pathway or the surface set
+changes, and replaces the per-surface moving lines by **one artist per kind of line for all
+surfaces** (a LineCollection each for the level bars, the connectors and the highlight of the
+potential-determining steps, with the diagram's own colours and widths). A potential/pH move
+sets the segments of these three artists from one array of levels and blits them over the cached
+background: the cost of a move does not grow with the number of artists, only with the segments.
 
 Two ways to show the Figure:
 
@@ -37,6 +40,8 @@ __all__ = ["DiagramView", "render_mode", "FIGURE_HEIGHT_PX"]
 #: Height of the inline figure area (pixels); fixed so that replacing the image never moves the page.
 FIGURE_HEIGHT_PX = 470
 _DPI = 90
+#: At most this many surfaces get a legend entry (the rest are summed up in one line).
+MAX_LEGEND_SURFACES = 16
 _PRESET = "notebook"
 
 
@@ -84,6 +89,38 @@ def fast_png(rgba: np.ndarray) -> bytes:
             + _png_chunk(b"IEND", b""))
 
 
+class _DrawnSeries:
+    """What is drawn for one surface, read back from the shared collections (tests, exports).
+
+    Attributes
+    ----------
+    levels : ndarray
+        Drawn level of each state (eV), from the level collection's segments.
+    n_states : int
+    highlight_index : int or None
+        0-based index of the highlighted (potential-determining) step, None when not drawn.
+    """
+
+    def __init__(self, view: "DiagramView", index: int, n_states: int):
+        self._view = view
+        self._index = index
+        self.n_states = n_states
+
+    @property
+    def levels(self) -> np.ndarray:
+        segments = self._view._levels.get_segments()[self._index * self.n_states : (self._index + 1) * self.n_states]
+        return np.array([seg[0, 1] for seg in segments], dtype=float)
+
+    @property
+    def highlight_index(self):
+        levels = self._view._current[self._index]
+        for seg in self._view._highlights.get_segments():
+            i = int(round(seg[0, 0] - 0.5)) if len(seg) else -1
+            if 0 <= i < self.n_states - 1 and np.isclose(seg[0, 1], levels[i]) and np.isclose(seg[1, 1], levels[i + 1]):
+                return i
+        return None
+
+
 def _in_kernel() -> bool:
     try:
         from IPython import get_ipython
@@ -100,8 +137,9 @@ class DiagramView:
     ----------
     figure : Figure
     ax : Axes
-    drawings : list of LevelDrawing
-        One per shown surface, in the state's surface order.
+    drawings : list
+        One read-back view per shown surface, in the state's surface order (``levels``, ``n_states``);
+        the moving lines themselves are three collections shared by all surfaces.
     mode : {"ipympl", "inline"}
     widget : ipywidgets widget
         What the explorer puts into its layout (the ipympl canvas, or a fixed-height Output).
@@ -138,6 +176,7 @@ class DiagramView:
             self._footnote = self.figure.text(0.005, 0.005, footnote, fontsize=p.font_pt - 1, color="#555555", ha="left", wrap=True,
                                               va="bottom", linespacing=1.3)
         self.drawings: list = []
+        self._originals: list = []
         self._dynamic: list = []
         self._background = None
         self._ylim = None
@@ -188,35 +227,89 @@ class DiagramView:
             # fixed title position: skips matplotlib's per-draw title placement
             self.ax.set_title(f"{heading}\n{_references_line(state)}", loc="left", y=1.0, pad=24)
             handles, labels = self.ax.get_legend_handles_labels()
+            if len(handles) > MAX_LEGEND_SURFACES:  # a long legend is most of a full draw's text; the read-out lists all
+                more = len(handles) - (MAX_LEGEND_SURFACES - 1)
+                handles = handles[: MAX_LEGEND_SURFACES - 1] + [Line2D([], [], linestyle="none")]
+                labels = labels[: MAX_LEGEND_SURFACES - 1] + [f"... and {more} more surfaces (see read-out)"]
             handles.append(Line2D([0, 1], [0, 0], color=HIGHLIGHT, linewidth=p.level_width_pt * 2.5, alpha=0.75))
             labels.append("potential-determining step")
             self.ax.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False,
                            fontsize=p.font_pt - 2, handlelength=2.4, borderaxespad=0.0)
             self._conditions = self.ax.text(0.0, 1.015, "", transform=self.ax.transAxes, ha="left", va="bottom",
                                             fontsize=p.font_pt - 1, color="#333333")
-        self.drawings = list(self.ax.ecatlab_drawings)
+        self._combine(list(self.ax.ecatlab_drawings))
         self._heading = heading
-        self._dynamic = [self._conditions]
-        for d in self.drawings:
-            self._dynamic += [d.highlight_line, d.connector_line, d.level_line]
+        self._dynamic = [self._conditions, self._highlights, self._connectors, self._levels]
         for artist in self._dynamic:
             artist.set_animated(True)
         self._background = None
         self._ylim = None
 
+    def _combine(self, drawings: list) -> None:
+        """One LineCollection per kind of moving line for all surfaces, styled like the per-surface
+        lines of the diagram (which are hidden, not drawn); ``drawings`` becomes read-back views."""
+        from matplotlib.collections import LineCollection
+
+        self._n_states = drawings[0].n_states if drawings else 0
+        n = self._n_states
+        level_x = [np.asarray(d.level_line.get_xdata(), dtype=float).reshape(n, 3)[:, :2] for d in drawings]
+        link_x = [np.asarray(d.connector_line.get_xdata(), dtype=float).reshape(max(n - 1, 0), 3)[:, :2] for d in drawings]
+        self._level_x = np.concatenate(level_x) if drawings else np.zeros((0, 2))  # (n_surfaces * n_states, 2)
+        self._link_x = np.concatenate(link_x) if drawings else np.zeros((0, 2))
+        first = drawings[0] if drawings else None
+
+        def per_segment(getter, count):
+            return [getter(d) for d in drawings for _ in range(count)]
+
+        self._levels = LineCollection(
+            [], colors=per_segment(lambda d: d.level_line.get_color(), n), linewidths=per_segment(lambda d: d.level_line.get_linewidth(), n),
+            capstyle=first.level_line.get_solid_capstyle() if first else "round", zorder=first.level_line.get_zorder() if first else 2)
+        self._connectors = LineCollection(
+            [], colors=per_segment(lambda d: d.connector_line.get_color(), n - 1),
+            linewidths=per_segment(lambda d: d.connector_line.get_linewidth(), n - 1),
+            linestyles=first.connector_line.get_linestyle() if first else ":", zorder=first.connector_line.get_zorder() if first else 1)
+        self._highlights = LineCollection(
+            [], colors=[first.highlight_line.get_color()] if first else [HIGHLIGHT],
+            linewidths=[first.highlight_line.get_linewidth()] if first else [3.0],
+            alpha=first.highlight_line.get_alpha() if first else 0.75, capstyle="butt",
+            zorder=first.highlight_line.get_zorder() if first else 0.5)
+        for d in drawings:
+            for artist in (d.level_line, d.connector_line, d.highlight_line):
+                artist.set_visible(False)
+        self._originals = drawings  # shown again, at the current levels, only while exporting
+        for artist in (self._highlights, self._connectors, self._levels):
+            self.ax.add_collection(artist, autolim=False)
+        self.drawings = [_DrawnSeries(self, j, n) for j in range(len(drawings))]
+        self._current = np.full((len(drawings), n), np.nan)
+
     # -- fast path --------------------------------------------------------------------------------
     def update(self, state) -> None:
         """Move the artists to the state's current levels and rewrite the conditions line."""
-        from ecatlab.plotting.diagram import conditions_text
-
-        levels = state.levels()
-        det = state.determining_steps() - 1
-        for j, drawing in enumerate(self.drawings):
-            drawing.update(levels[j], highlight_index=int(det[j]) if det[j] >= 0 else None, rescale=False)
+        levels = np.asarray(state.levels(), dtype=float)
+        det = np.asarray(state.determining_steps()) - 1
+        self._set_levels(levels, det)
         self._fit_ylim(levels)
         # plain text (no mathtext) so that the per-move text draw stays cheap; the reference
         # scheme, which does not move, is in the static title line
         self._conditions.set_text(state.conditions.describe())
+
+    def _set_levels(self, levels: np.ndarray, det: np.ndarray) -> None:
+        """Segments of the three moving collections from the (n_surfaces, n_states) levels, eV."""
+        n_s, n = levels.shape
+        self._current = levels.copy()
+        if n_s == 0:
+            return
+        seg = np.empty((n_s * n, 2, 2))
+        seg[:, :, 0] = self._level_x
+        seg[:, :, 1] = levels.reshape(-1, 1)
+        self._levels.set_segments(seg)
+        link = np.empty((n_s * (n - 1), 2, 2))
+        link[:, :, 0] = self._link_x
+        link[:, 0, 1] = levels[:, :-1].reshape(-1)
+        link[:, 1, 1] = levels[:, 1:].reshape(-1)
+        self._connectors.set_segments(link)
+        rows = np.flatnonzero((det >= 0) & (det < n - 1))
+        self._highlights.set_segments(link.reshape(n_s, n - 1, 2, 2)[rows, det[rows]] if len(rows) else [])
 
     def _fit_ylim(self, levels: np.ndarray) -> None:
         """Sticky y-limits on a 0.5 eV grid: they change only when the levels leave them or fill
@@ -297,11 +390,24 @@ class DiagramView:
     def exporting(self):
         """Within this block the moving artists are ordinary artists (so savefig draws them)."""
         self._exporting = True
+        shared = (self._highlights, self._connectors, self._levels) if self._originals else ()
         for artist in self._dynamic:
             artist.set_animated(False)
+        for artist in shared:  # exports keep one path per surface (as the static diagram draws them)
+            artist.set_visible(False)
+        for j, d in enumerate(self._originals):
+            hi = self.drawings[j].highlight_index
+            d.update(self._current[j], highlight_index=hi, rescale=False)
+            d.level_line.set_visible(True)
+            d.connector_line.set_visible(True)
         try:
             yield self.figure
         finally:
+            for d in self._originals:
+                for artist in (d.level_line, d.connector_line, d.highlight_line):
+                    artist.set_visible(False)
+            for artist in shared:
+                artist.set_visible(True)
             for artist in self._dynamic:
                 artist.set_animated(True)
             self._exporting = False

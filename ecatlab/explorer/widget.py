@@ -129,6 +129,16 @@ def route_html(state: ExplorerState) -> str:
     return '<div class="ecatlab-route" style="font-size:12px;margin-top:2px">' + "<br>".join(lines) + "</div>"
 
 
+def _readout_key(state: ExplorerState, focus) -> tuple | None:
+    """Everything :func:`readout_html` shows, except the text itself: it is rebuilt only when this changes
+    (None: unknown, rebuild)."""
+    limiting = getattr(state, "_limiting", None)
+    if limiting is None:
+        return None
+    return (id(limiting), id(state.pathway), id(state.route), tuple(state.surfaces), focus, state.scale, state.pH,
+            state.temperature, state.uphill().tobytes())
+
+
 def readout_html(state: ExplorerState, focus: str | None = None) -> str:
     """HTML read-out per surface, best-ranked first: U_L (V vs scale), overpotential (V), G_max (eV;
     'blocked' when an uphill chemical step blocks the pathway), determining step, uphill now
@@ -497,7 +507,10 @@ class Explorer:
         self.view.update(s)
         self.view.present()
         self.table.value = step_table_html(s)
-        self.readout.value = readout_html(s, self.focus.value)
+        key = _readout_key(s, self.focus.value)  # the read-out moves with U only through "uphill now"
+        if key is None or key != getattr(self, "_readout_shown", None):
+            self.readout.value = readout_html(s, self.focus.value)
+            self._readout_shown = key
         notes = list(s.notices) + self._messages[-3:]
         self.status.value = "".join(f'<div style="color:#7A5A00">\N{WARNING SIGN} {html.escape(n)}</div>' for n in notes)
         self._refresh_volcano()
