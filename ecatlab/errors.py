@@ -187,33 +187,11 @@ class EstimatedValueWarning(EcatlabWarning):
     the message says how many, from which models, and with which leave-one-out error."""
 
 
-class SurfaceStateError(EcatlabError, ValueError):
+class SurfaceStateError(EnergyTableError):
     """A surface-state table (for surface Pourbaix diagrams) has a problem the user must fix.
 
-    Attributes
-    ----------
-    source : str
-        File name or ``"<DataFrame>"``.
-    problem : str
-        What is wrong and how to fix it.
-    rows : list
-        Offending row locations (file lines or frame labels).
-    column : str or None
+    Same attributes and message as :class:`EnergyTableError` (source, problem, rows, column).
     """
-
-    def __init__(self, source: str, problem: str, rows=None, column: str | None = None):
-        self.source = source
-        self.problem = problem
-        self.rows = list(rows or [])
-        self.column = column
-        where = ""
-        if self.rows:
-            shown = ", ".join(str(r) for r in self.rows[:10])
-            more = f" and {len(self.rows) - 10} more" if len(self.rows) > 10 else ""
-            where += f" at {shown}{more}"
-        if column is not None:
-            where += f", column {column!r}"
-        super().__init__(f"{source}{where}: {problem}")
 
 
 class DescriptorError(EcatlabError, ValueError):

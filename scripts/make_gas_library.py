@@ -13,7 +13,6 @@ from __future__ import annotations
 import json
 import math
 import pathlib
-from dataclasses import dataclass
 
 import numpy as np
 
@@ -104,31 +103,8 @@ def _ethanol(r_cc, r_co, r_oh, r_ch, cco, coh, hcc):
 # ---------------------------------------------------------------------------------------------
 # library
 # ---------------------------------------------------------------------------------------------
-@dataclass(frozen=True)
-class GasRecord:
-    """Stored data of one gas molecule.
-
-    Attributes
-    ----------
-    formula : str
-        Name used as library key (``"H2O"``).
-    symbols : tuple of str
-    positions_angstrom : tuple of (x, y, z)
-        Cartesian geometry, angstrom.
-    frequencies_cm : tuple of float
-        Fundamental vibrational frequencies, cm^-1 (degenerate modes repeated).
-    spin_multiplicity : int
-        2S + 1.
-    source : str
-        Where geometry and frequencies come from.
-    """
-
-    formula: str
-    symbols: tuple[str, ...]
-    positions_angstrom: tuple[tuple[float, float, float], ...]
-    frequencies_cm: tuple[float, ...]
-    spin_multiplicity: int
-    source: str
+# the record type is the package's own (ecatlab.molecules.GasRecord)
+from ecatlab.molecules import GasRecord  # noqa: E402
 
 
 def _record(formula, symbols, positions, freqs, spin, source=_CCCBDB) -> GasRecord:
