@@ -114,22 +114,15 @@ def onset_potentials(a, n) -> np.ndarray:
 
 
 def _extreme(part: np.ndarray, direction: str) -> tuple[np.ndarray, np.ndarray]:
-    """min (reduction) or max (oxidation) over the last axis and its position; a row with a NaN gives NaN.
+    """min (reduction) or max (oxidation) over the last axis and its position.
 
-    One pass to detect NaN; the common case (no NaN) then needs no masked copies."""
+    numpy's min/max propagate NaN, so a row with a NaN gives NaN (its position is then that of a
+    NaN and means nothing); no masked copies are made."""
     if direction == "reduction":
-        arg, fill = np.argmin, np.inf
-    elif direction == "oxidation":
-        arg, fill = np.argmax, -np.inf
-    else:
-        raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
-    nan = np.isnan(part)
-    if not nan.any():
-        local = arg(part, axis=-1)
-        return np.take_along_axis(part, local[..., None], axis=-1)[..., 0], local
-    local = arg(np.where(nan, fill, part), axis=-1)
-    value = np.take_along_axis(part, local[..., None], axis=-1)[..., 0]
-    return np.where(nan.any(axis=-1), np.nan, value), local
+        return part.min(axis=-1), part.argmin(axis=-1)
+    if direction == "oxidation":
+        return part.max(axis=-1), part.argmax(axis=-1)
+    raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
 
 
 def envelope_of_lines(lines, direction: str, mask=None) -> tuple[np.ndarray, np.ndarray]:
