@@ -113,14 +113,25 @@ def _engine_uphill_now(pathway: str, potential: float, surfaces: list[str]) -> d
 
 def _check_readout(snapshot: dict, pathway: str) -> None:
     """No error in the explorer's error line, and every read-out row equals the engine: U_L (V vs RHE),
-    the potential-determining step and the uphill chemical steps."""
+    G_max (eV; 'blocked' when a chemical step blocks the pathway), the potential-determining step and
+    the uphill chemical steps; rows are best-ranked first (the kernel's ranking rule)."""
     engine = _engine_readout(pathway)
     assert not snapshot["error_line"], f"the explorer shows an error: {snapshot['error_line']}"
     assert snapshot["rows"], "the explorer shows no read-out rows"
+    from ecatlab.che import kernel
+
+    shown = [row[0] for row in snapshot["rows"]]
+    sub = engine.loc[shown]
+    best_first = list(sub.index[kernel.ranking_order(sub["G_max"].to_numpy(float), sub["blocked"].to_numpy(bool))])
+    assert shown == best_first, f"{pathway}: read-out order {shown}, ranking rule {best_first}"
     for row in snapshot["rows"]:
         surface, u_l, _eta = row[0], row[1], row[2]
-        determining, _, chemical = (part.strip() for part in row[3].partition("chemical uphill:"))
+        g_max, _, flag = row[3].partition(" ")
+        determining, _, chemical = (part.strip() for part in row[4].partition("chemical uphill:"))
         expected = engine.loc[surface]
+        assert g_max == _fmt(float(expected["G_max"])).lstrip("+"), (
+            f"{pathway} {surface}: page shows G_max {g_max}, engine {expected['G_max']:.6f} eV")
+        assert (flag.strip() == "blocked") == bool(expected["blocked"]), f"{pathway} {surface}: blocked flag {flag!r}"
         assert chemical == (expected["uphill_chemical_steps"] or ""), (
             f"{pathway} {surface}: page shows uphill chemical steps {chemical!r}, engine {expected['uphill_chemical_steps']!r}")
         assert u_l == _fmt(float(expected["limiting_potential"])), (
@@ -134,8 +145,8 @@ def _check_uphill_now(snapshot: dict, pathway: str) -> float:
     surfaces = [row[0] for row in snapshot["rows"]]
     expected = _engine_uphill_now(pathway, potential, surfaces)
     for row in snapshot["rows"]:
-        assert row[4] == expected[row[0]], (
-            f"{pathway} {row[0]} at U = {potential} V: page says uphill now {row[4]!r}, engine {expected[row[0]]!r}")
+        assert row[5] == expected[row[0]], (
+            f"{pathway} {row[0]} at U = {potential} V: page says uphill now {row[5]!r}, engine {expected[row[0]]!r}")
     return potential
 
 
