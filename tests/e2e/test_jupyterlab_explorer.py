@@ -410,7 +410,7 @@ def _drive(page, errors: PageErrors, lab, artifacts) -> None:
     assert _pixel_hash(image) != hash_before, "the diagram's pixels did not change after the potential moved"
     _check_readout(after_u, pathway)  # U_L and determining step do not depend on U ...
     _check_uphill_now(after_u, pathway)  # ... the steps uphill now do
-    assert [r[4] for r in after_u["rows"]] != [r[4] for r in before["rows"]], "'uphill now' did not change with U"
+    assert [r[5] for r in after_u["rows"]] != [r[5] for r in before["rows"]], "'uphill now' did not change with U"
     _save(explorer, artifacts, "02_explorer_after_potential.png")
 
     # 4b. pick another reaction with its toggle button
@@ -438,7 +438,7 @@ def _drive(page, errors: PageErrors, lab, artifacts) -> None:
     after_p = _settle(page, explorer)
     _check_readout(after_p, "her-volmer-tafel")
     _check_uphill_now(after_p, "her-volmer-tafel")
-    assert any("chemical uphill:" in r[3] for r in after_p["rows"]), "no uphill chemical (Tafel) step shown"
+    assert any("chemical uphill:" in r[4] for r in after_p["rows"]), "no uphill chemical (Tafel) step shown"
     assert _pixel_hash(image) != hash_r, "the diagram's pixels did not change after the pathway changed"
     _save(explorer, artifacts, "04_explorer_after_pathway.png")
     layout_problems = _layout_report(explorer, artifacts, "04_explorer_layout.json")
