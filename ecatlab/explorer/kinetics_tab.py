@@ -90,7 +90,7 @@ class KineticsPanel:
             self.onset_current = w.BoundedFloatText(value=10.0, min=1e-6, max=1e6, description="onset j (mA/cm²)", style=style,
                                                     layout=w.Layout(width="200px"))
             self.info = w.HTML()
-            self.image = w.Image(format="png", layout=w.Layout(max_width="100%"))
+            self.image = w.Image(format="png", layout=w.Layout(max_width="100%", display="none"))  # shown once drawn (no broken-image icon)
             self.summary = w.HTML()
             parts = [error_line] if error_line is not None else []
             self.widget = w.VBox(parts + [self.info, w.HBox([self.intrinsic_barrier, self.symmetry_factor, self.onset_current]), self.image, self.summary])
@@ -176,6 +176,7 @@ class KineticsPanel:
         if self.widget is None:
             return
         self.image.value = self.last_png
+        self.image.layout.display = None
         if summary is None:
             self.summary.value = ""
         else:

@@ -57,7 +57,7 @@ class NetworkPanel:
             self.full = w.Checkbox(value=False, description="whole network")
             self.estimate = w.Dropdown(options=[("table species only", ""), ("+ estimated (additivity)", "additivity"),
                                                 ("+ estimated (scaling)", "scaling")], value="", description="species")
-            self.image = w.Image(format="png", layout=w.Layout(max_width="100%"))
+            self.image = w.Image(format="png", layout=w.Layout(max_width="100%", display="none"))  # shown once drawn (no broken-image icon)
             self.table_html = w.HTML()
             self.reactant.observe(self._on_reactant, names="value")
             for c in (self.product, self.surface, self.potential, self.full, self.estimate):
@@ -145,5 +145,6 @@ class NetworkPanel:
                 self.error_line.value = f"<b>{html.escape(type(exc).__name__)}</b> (network tab): {html.escape(str(exc))}"
             return
         self.image.value = png
+        self.image.layout.display = None
         self.table_html.value = table
         self._drawn_key = key

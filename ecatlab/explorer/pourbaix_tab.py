@@ -66,7 +66,7 @@ class PourbaixPanel:
             import ipywidgets as w
 
             self.info = w.HTML()
-            self.image = w.Image(format="png", layout=w.Layout(max_width="100%"))
+            self.image = w.Image(format="png", layout=w.Layout(max_width="100%", display="none"))  # shown once drawn (no broken-image icon)
             self.widget = w.VBox(([error_line] if error_line is not None else []) + [self.info, self.image])
 
     def set_states(self, states) -> None:
@@ -154,6 +154,7 @@ class PourbaixPanel:
         self.last_png = buf.getvalue()
         if self.widget is not None:
             self.image.value = self.last_png
+            self.image.layout.display = None
             self.info.value = f'<div class="ecatlab-pourbaix-info" style="font-size:12px">{self.last_text}</div>'
 
     def invalidate(self) -> None:

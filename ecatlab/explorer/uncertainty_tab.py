@@ -70,7 +70,7 @@ class UncertaintyPanel:
             self.correlation = w.FloatSlider(value=0.5, min=0.0, max=1.0, step=0.05, description="correlation (same binding atom)",
                                              style=wide, continuous_update=False, layout=w.Layout(width="380px"))
             self.info = w.HTML()
-            self.image = w.Image(format="png", layout=w.Layout(max_width="100%"))
+            self.image = w.Image(format="png", layout=w.Layout(max_width="100%", display="none"))  # shown once drawn (no broken-image icon)
             self.error = error_line
             parts = [error_line] if error_line is not None else []
             self.widget = w.VBox(parts + [w.HBox([self.show, self.sigma, self.correlation]), self.info, self.image])
@@ -136,6 +136,7 @@ class UncertaintyPanel:
         self.draws += 1
         if self.widget is not None:
             self.image.value = self.last_png
+            self.image.layout.display = None
             c = self.result.conditions
             self.info.value = (
                 f'<div class="ecatlab-uncertainty-info" style="font-size:12px">{self.result.n_samples} samples (seed 0); {html.escape(c["model"])}; '
