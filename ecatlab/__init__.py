@@ -87,6 +87,13 @@ _EXPORTS: dict[str, str] = {
     "explore": "ecatlab.explorer",
     "Explorer": "ecatlab.explorer",
     "ExplorerState": "ecatlab.explorer",
+    # Parquet datasets and the Dask path (screening beyond one machine's memory)
+    "open_energy_dataset": "ecatlab.datasets",
+    "read_energies_parquet": "ecatlab.datasets",
+    "write_energies_parquet": "ecatlab.datasets",
+    "EnergyDataset": "ecatlab.datasets",
+    "EnergyDatasetWriter": "ecatlab.datasets",
+    "dask_client": "ecatlab.scaleout",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

@@ -51,6 +51,9 @@ __all__ = [
     "read_energies_parquet",
     "write_energies_parquet",
     "write_parquet_folder",
+    "ParquetFolderOutput",
+    "read_energies_dataset",
+    "wide_to_long",
 ]
 
 #: Columns of the long layout (lower-case names; headers are case-insensitive); energies in eV.
@@ -826,6 +829,34 @@ class EnergyDatasetWriter:
             self.abort()
 
 
+class ParquetFolderOutput:
+    """A safe partitioned-Parquet output: a lazy write job into a temporary folder beside ``path``,
+    then :meth:`commit` (move into place, replacing an old folder only now) or :meth:`abort`.
+
+    Use it to compute the write together with other results (so the data are read once); for a
+    single write, :func:`write_parquet_folder` does everything.
+    """
+
+    def __init__(self, ddf, path: str | os.PathLike, force: bool = False, inputs: Iterable[str] = ()):
+        self.target = _check_target(os.fspath(path), force, inputs)
+        self.tmp = os.path.join(os.path.dirname(self.target), f".{os.path.basename(self.target)}.tmp-{uuid.uuid4().hex[:8]}")
+        import pyarrow as pa
+
+        meta = ddf._meta
+        schema = pa.Schema.from_pandas(meta, preserve_index=False)
+        for c, t in meta.dtypes.items():  # free-text (object) columns hold str; empty meta cannot tell
+            if t == object:
+                schema = schema.set(schema.get_field_index(str(c)), pa.field(str(c), pa.string()))
+        self.job = ddf.to_parquet(self.tmp, write_index=False, compute=False, write_metadata_file=False, schema=schema)
+
+    def commit(self) -> str:
+        _swap_into_place(self.tmp, self.target)
+        return self.target
+
+    def abort(self) -> None:
+        shutil.rmtree(self.tmp, ignore_errors=True)
+
+
 def write_parquet_folder(ddf, path: str | os.PathLike, force: bool = False, inputs: Iterable[str] = (), compute=None) -> str:
     """Write a Dask DataFrame as a partitioned Parquet folder, safely.
 
@@ -843,15 +874,12 @@ def write_parquet_folder(ddf, path: str | os.PathLike, force: bool = False, inpu
         ``compute(collection)`` runs the write (default: :func:`ecatlab.scaleout.compute`, which
         shows progress and uses the active Dask client or a LocalCluster).
     """
-    target = _check_target(os.fspath(path), force, inputs)
-    tmp = os.path.join(os.path.dirname(target), f".{os.path.basename(target)}.tmp-{uuid.uuid4().hex[:8]}")
+    out = ParquetFolderOutput(ddf, path, force, inputs)
     try:
-        job = ddf.to_parquet(tmp, write_index=False, compute=False, write_metadata_file=False)
         if compute is None:
             from ecatlab.scaleout import compute as compute
-        compute(job)
-        _swap_into_place(tmp, target)
+        compute(out.job)
+        return out.commit()
     except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
+        out.abort()
         raise
-    return target

@@ -139,7 +139,7 @@ class _ReadFile:
 # ------------------------------------------------------------------------------------------------
 def _lp_dtypes(pathways: Sequence, scheme) -> dict:
     """Output dtypes of one partition: text with a fixed vocabulary as Categorical (same categories
-    in every partition), free text as str, numbers as in the engine."""
+    in every partition), free text as object (str values), numbers as in the engine."""
     from ecatlab.che.engine import LIMITING_POTENTIAL_COLUMNS
     from ecatlab.che.conditions import SCALES
     from ecatlab.pathways import resolve
@@ -148,7 +148,7 @@ def _lp_dtypes(pathways: Sequence, scheme) -> dict:
     steps = list(dict.fromkeys([""] + [s.equation for p in paths for s in p.steps]))
     cat = lambda values: pd.CategoricalDtype(list(dict.fromkeys(values)))  # noqa: E731
     dtypes = {
-        "surface": str,
+        "surface": object,
         "pathway": cat([p.name for p in paths]),
         "reaction": cat([p.overall_step().equation for p in paths]),
         "direction": cat(["reduction", "oxidation"]),
@@ -162,14 +162,23 @@ def _lp_dtypes(pathways: Sequence, scheme) -> dict:
         "G_max_step": cat(steps),
         "blocked": bool,
         "max_chemical_dG": float,
-        "uphill_chemical_steps": str,
-        "missing_species": str,
+        "uphill_chemical_steps": object,
+        "missing_species": object,
         "scale": cat(list(SCALES)),
         "pH": float,
         "temperature": float,
     }
     assert set(dtypes) == set(LIMITING_POTENTIAL_COLUMNS), "keep the Dask dtypes in step with the engine's columns"
     return {c: dtypes[c] for c in LIMITING_POTENTIAL_COLUMNS}
+
+
+def _as(column: pd.Series, dtype) -> pd.Series:
+    if dtype is object:  # free text: Python str objects (no per-row conversion cost)
+        if isinstance(column.dtype, pd.CategoricalDtype):
+            cats = np.asarray(column.cat.categories, dtype=object)
+            return pd.Series(cats[column.cat.codes.to_numpy()], index=column.index, dtype=object)
+        return column.astype(object)
+    return column.astype(dtype)
 
 
 def _empty(dtypes: dict) -> pd.DataFrame:
@@ -205,7 +214,7 @@ class _PartitionLP:
                 lp = engine_lp(table, self.pathways, pH=self.pH, scale=self.scale, temperature=self.temperature, on_missing=self.on_missing)
         except EcatlabError as exc:
             raise DatasetError(label, str(exc)) from None
-        out = pd.DataFrame({c: lp[c].astype(t) if t is not str else lp[c].astype(str) for c, t in self.dtypes.items()})
+        out = pd.DataFrame({c: _as(lp[c], t) for c, t in self.dtypes.items()})
         out.attrs.update(_attrs(self.ds, self.scheme, self.scale, self.pH, self.temperature))
         return out
 
@@ -251,7 +260,7 @@ def limiting_potentials(
     dask DataFrame
         ``meta`` gives the columns of :data:`ecatlab.che.LIMITING_POTENTIAL_COLUMNS`; text with a
         fixed vocabulary (pathway, reaction, direction, steps, scale) is Categorical with the same
-        categories in every partition, free text (surface, uphill steps, missing species) is str.
+        categories in every partition, free text (surface, uphill steps, missing species) is object (Python str).
 
     Raises
     ------
@@ -374,7 +383,7 @@ def top_k(energies, pathways, k: int = 10, pH: float = 0.0, scale: str = "RHE", 
     meta = lp._meta.iloc[:0].copy()
     meta.insert(1, "rank", pd.Series([], dtype=np.int64))
     local = lp.map_partitions(top_k_frame, int(k), meta=meta, enforce_metadata=False)
-    return _tree(local.to_delayed(), _Combine(_combine_top, int(k), order), split_every)
+    return _tree(local.to_delayed(optimize_graph=False), _Combine(_combine_top, int(k), order), split_every)
 
 
 class _Combine:
@@ -468,7 +477,7 @@ def summary(energies, pathways, pH: float = 0.0, scale: str = "RHE", temperature
     lp = energies if _is_lp_frame(energies) else limiting_potentials(energies, pathways, pH, scale, temperature, "report", references, None, grouped)
     order = [resolve(p).name for p in pathways]
     conditions = {"scale": _check_conditions(scale, pH, temperature), "pH": float(pH), "temperature": float(temperature)}
-    parts = [dask.delayed(_partial_summary)(d) for d in lp.to_delayed()]
+    parts = [dask.delayed(_partial_summary)(d) for d in lp.to_delayed(optimize_graph=False)]
 
     def combine_partials(chunk):  # partial summaries of several partitions -> one frame
         return pd.concat(chunk, ignore_index=True)
