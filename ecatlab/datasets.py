@@ -557,9 +557,7 @@ def read_energies_parquet(source, references=None, temperature: float | None = N
     frame = pd.concat(parts) if len(parts) > 1 else parts[0]
     if len(frame) == 0:
         raise DatasetError(label, "has a schema but no rows")
-    refs = references if references is not None else ds.references
-    if ds.layout == "long" and len(parts) > 1:  # a surface split over files is fine in memory
-        pass
+    refs = references if references is not None else ds.references  # a surface split over files is fine in memory
     return energy_table_from_partition(frame, ds, refs, temperature, label)
 
 

@@ -186,10 +186,31 @@ def _empty(dtypes: dict) -> pd.DataFrame:
 
 
 def _scheme(ds: EnergyDataset, references, temperature):
-    from ecatlab.energies import _scheme as scheme_of  # the reader's own rule for references + T
+    """The reference scheme at ``temperature`` (K), built once and shipped to every partition; the
+    same one ``read_energies(frame, references, temperature)`` builds in memory."""
+    from ecatlab.references import ReferenceScheme
 
     refs = references if references is not None else ds.references
-    return scheme_of(refs, temperature)
+    t = float(temperature)
+    if isinstance(refs, ReferenceScheme):
+        return refs if abs(refs.temperature - t) < 1e-9 else refs.at_temperature(t)
+    kwargs = {"temperature": t}
+    if refs is not None:
+        kwargs["references"] = tuple(refs)
+    return ReferenceScheme(**kwargs)
+
+
+def _conditions(scale, pH, temperature) -> str:
+    """Validate the conditions with ecatlab.che.conditions; returns the canonical scale."""
+    from ecatlab.che.conditions import check_pH, check_scale, check_temperature
+    from ecatlab.errors import ConditionError
+
+    sc = check_scale(scale)
+    check_temperature(temperature)
+    check_pH(pH)
+    if np.ndim(pH) != 0:
+        raise ConditionError("the Dask path takes one pH value; run once per pH")
+    return sc
 
 
 class _PartitionLP:
@@ -268,13 +289,9 @@ def limiting_potentials(
         At once, for bad conditions or pathways. Bad values in the data raise
         :class:`DatasetError` when the partition holding them is computed.
     """
-    from ecatlab.che.engine import _check_conditions
-    from ecatlab.errors import ConditionError
     from ecatlab.notation import Pathway
 
-    sc = _check_conditions(scale, pH, temperature)
-    if np.ndim(pH) != 0:
-        raise ConditionError("limiting_potentials takes one pH value; run once per pH")
+    sc = _conditions(scale, pH, temperature)
     if on_missing not in ("report", "drop", "raise"):
         raise ValueError(f"on_missing must be one of ('report', 'drop', 'raise'), got {on_missing!r}")
     if isinstance(pathways, (str, Pathway)):
@@ -468,15 +485,17 @@ def summary(energies, pathways, pH: float = 0.0, scale: str = "RHE", temperature
     """
     import dask
 
-    from ecatlab.che.engine import _check_conditions
     from ecatlab.notation import Pathway
     from ecatlab.pathways import resolve
 
     if isinstance(pathways, (str, Pathway)):
         pathways = [pathways]
     lp = energies if _is_lp_frame(energies) else limiting_potentials(energies, pathways, pH, scale, temperature, "report", references, None, grouped)
+    lacking = [c for c in ("pathway", "surface", "G_max", "blocked", "missing_species") + _STATS if c not in lp.columns]
+    if lacking:
+        raise ValueError(f"summary needs the limiting-potential columns {lacking}; pass the full scaleout.limiting_potentials frame")
     order = [resolve(p).name for p in pathways]
-    conditions = {"scale": _check_conditions(scale, pH, temperature), "pH": float(pH), "temperature": float(temperature)}
+    conditions = {"scale": _conditions(scale, pH, temperature), "pH": float(pH), "temperature": float(temperature)}
     parts = [dask.delayed(_partial_summary)(d) for d in lp.to_delayed(optimize_graph=False)]
 
     def combine_partials(chunk):  # partial summaries of several partitions -> one frame
@@ -587,9 +606,14 @@ def _run(client, collections, progress: bool):
     future = client.compute(dask.delayed(_bundle, pure=True)(*collections))
     try:
         if progress:
-            show(future)
-            if not _in_notebook():
-                print(flush=True)
+            if _in_notebook():
+                show(future)
+            else:  # the text bar goes to stderr, so stdout stays clean for results (e.g. JSON)
+                import sys
+
+                with contextlib.redirect_stdout(sys.stderr):
+                    show(future)
+                    print(flush=True)
         results = future.result()
     except DatasetError:
         raise

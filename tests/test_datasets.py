@@ -188,6 +188,13 @@ def test_cluster_surface_split_over_partitions_is_regrouped(client, tmp_path):
     assert any(parts[i] & parts[j] for i in range(5) for j in range(i + 1, 5))
     got = scaleout.limiting_potentials(ddf, ["orr-4e", "co2rr-ch4"], pH=7.0, scale="SHE", temperature=320.0).compute()
     same_results(got, ref)
+    # categorical surface names, and the wide layout as a Dask DataFrame
+    cat = dd.from_pandas(frame.astype({"surface": "category"}), npartitions=4)
+    same_results(scaleout.limiting_potentials(cat, ["orr-4e", "co2rr-ch4"], pH=7.0, scale="SHE", temperature=320.0).compute(), ref)
+    wide = read_energies(frame).matrix.reset_index()
+    wide.columns = [str(c) for c in wide.columns]
+    got = scaleout.limiting_potentials(dd.from_pandas(wide, npartitions=3), ["orr-4e", "co2rr-ch4"], pH=7.0, scale="SHE", temperature=320.0).compute()
+    same_results(got, ref)
     # Parquet files with overlapping surface ranges: not proven grouped -> regrouped, same numbers
     folder = tmp_path / "mixed"
     folder.mkdir()

@@ -69,7 +69,7 @@ def generate(folder: str, n: int, per_file: int, species: list[str], seed: int =
 
 
 def dask_run(folder: str, keys: list[str], k: int, args):
-    """Summary + top-k on a fresh cluster; returns (seconds, cpu seconds, summary, top, peak MB per worker, idle MB per worker, threads, all rows or None)."""
+    """Summary + top-k on a fresh cluster; returns (seconds, cpu seconds, idle cpu rate, summary, top, peak MB per worker, idle MB per worker, threads, all rows or None)."""
     from ecatlab import scaleout
 
     with scaleout.dask_client(args.scheduler, n_workers=args.workers, threads_per_worker=args.threads, memory_limit=args.worker_memory) as client:
@@ -79,6 +79,11 @@ def dask_run(folder: str, keys: list[str], k: int, args):
         shutil.rmtree(warm, ignore_errors=True)
         idle = client.run(_worker_rss)
         threads = sum(w["nthreads"] for w in client.scheduler_info()["workers"].values())
+        # idle cost of the cluster itself (event loops, heartbeats, memory monitors), cpu-s per wall-s
+        i0, j0, w0 = client.run(time.process_time), time.process_time(), time.perf_counter()
+        time.sleep(3.0)
+        i1, j1, w1 = client.run(time.process_time), time.process_time(), time.perf_counter()
+        idle_rate = (sum(i1[w] - i0[w] for w in i0) + (j1 - j0)) / (w1 - w0)
         cpu0, own0 = client.run(time.process_time), time.process_time()
         t0 = time.perf_counter()
         lp = scaleout.limiting_potentials(folder, keys)
@@ -91,7 +96,7 @@ def dask_run(folder: str, keys: list[str], k: int, args):
         full = None
         if args.compare_rows_upto and _rows(folder) <= args.compare_rows_upto:
             full = scaleout.compute(lp, progress=False)
-    return seconds, cpu, summ, top, list(peak.values()), list(idle.values()), threads, full
+    return seconds, cpu, idle_rate, summ, top, list(peak.values()), list(idle.values()), threads, full
 
 
 def _rows(folder: str) -> int:
@@ -197,12 +202,13 @@ def main(argv=None) -> int:
         for n in sizes:
             folder = os.path.join(root, f"n{n}")
             t_gen = generate(folder, n, args.surfaces_per_file, species)
-            t_dask, cpu_dask, summ, top, peak, idle, threads, full = dask_run(folder, keys, args.top, args)
+            t_dask, cpu_dask, idle_rate, summ, top, peak, idle, threads, full = dask_run(folder, keys, args.top, args)
             evals = n * len(keys)
             peaks[n] = max(peak)
             print(f"N={n:>11,}: dataset written in {t_gen:7.1f} s; Dask wall {t_dask:7.1f} s on {threads} threads, cpu {cpu_dask:7.1f} s "
                   f"({evals / cpu_dask:,.0f} surface-pathways per cpu-second); peak worker memory "
                   f"{', '.join(f'{p:,.0f}' for p in peak)} MB (idle {', '.join(f'{m:,.0f}' for m in idle)} MB)")
+            print(f"{'':14} of the cpu, about {idle_rate * t_dask:.1f} s is the cluster's idle cost ({idle_rate:.3f} cpu-s per wall-s, measured before the run; grows with wall time on a busy machine)")
             if n <= args.baseline_max:
                 t_mem, cpu_mem, summ_m, top_m, lp_m = memory_run(folder, keys, args.top)
                 wall_ratio = (evals / t_dask / threads) / (evals / t_mem)  # per core by wall time (one process in memory)
