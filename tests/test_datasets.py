@@ -501,3 +501,27 @@ def test_cli_screen_starts_a_local_cluster(tmp_path, capsys):
     assert main(["dataset", "info", str(folder)]) == 2
     err = capsys.readouterr().err.strip()
     assert err.count("\n") == 0 and "readme.md" in err
+
+
+def test_dataset_writer_parts_order_and_atomicity(tmp_path):
+    target = tmp_path / "w"
+    frame = make_frame(90, seed=12)
+    with datasets.EnergyDatasetWriter(target, layout="long") as w:
+        for a in range(0, 90, 30):
+            w.write(frame[frame["surface"].isin([f"s{i:07d}" for i in range(a, a + 30)])])
+        assert not target.exists()  # appears only on close
+    ds = datasets.open_energy_dataset(target)
+    assert ds.npartitions == 3 and ds.grouped and ds.references == ("H2(g)", "H2O(l)", "CO2(g)", "N2(g)")
+    back = datasets.read_energies_parquet(target)
+    assert np.array_equal(back.values(None, SPECIES), read_energies(frame).values(None, SPECIES))
+    with pytest.raises(DatasetError, match="exists"):
+        datasets.EnergyDatasetWriter(target)
+    # parts out of surface order are refused, and an error inside the block leaves nothing behind
+    with pytest.raises(DatasetError, match="must increase from part to part"):
+        with datasets.EnergyDatasetWriter(tmp_path / "bad") as w:
+            w.write(frame.iloc[30 * len(SPECIES):])
+            w.write(frame.iloc[: 30 * len(SPECIES)])
+    assert not (tmp_path / "bad").exists() and not [n for n in os.listdir(tmp_path) if ".tmp-" in n]
+    with pytest.raises(DatasetError, match="expected numbers in eV"):
+        with datasets.EnergyDatasetWriter(tmp_path / "bad2") as w:
+            w.write(frame.assign(G=frame["G"].astype(str)))
