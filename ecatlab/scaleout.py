@@ -178,6 +178,13 @@ def _as(column: pd.Series, dtype) -> pd.Series:
             cats = np.asarray(column.cat.categories, dtype=object)
             return pd.Series(cats[column.cat.codes.to_numpy()], index=column.index, dtype=object)
         return column.astype(object)
+    if isinstance(dtype, pd.CategoricalDtype) and isinstance(column.dtype, pd.CategoricalDtype):
+        target = pd.Index(dtype.categories)  # recode the few categories, not the rows
+        remap = target.get_indexer(pd.Index(column.cat.categories))
+        if (remap >= 0).all():
+            codes = column.cat.codes.to_numpy()
+            new = np.where(codes >= 0, remap[np.maximum(codes, 0)], -1)
+            return pd.Series(pd.Categorical.from_codes(new, dtype=dtype), index=column.index)
     return column.astype(dtype)
 
 
@@ -345,13 +352,22 @@ def top_k_frame(lp: pd.DataFrame, k: int) -> pd.DataFrame:
         out.insert(1, "rank", pd.Series([], dtype=np.int64))
         return out
     path_codes, _ = pd.factorize(lp["pathway"])  # pathways in order of appearance
-    name_rank, _ = pd.factorize(lp["surface"], sort=True)  # surface names in sorted order
     g = lp["G_max"].to_numpy(dtype=float)
     b = lp["blocked"].to_numpy(dtype=bool)
+    surface = lp["surface"]
     picked, ranks = [], []
     for p in range(int(path_codes.max()) + 1):
         rows = np.flatnonzero(path_codes == p)
-        rows = rows[np.argsort(name_rank[rows], kind="stable")]
+        if len(rows) > k:
+            # candidates: every row whose ranking key (missing, blocked, G_max) is not worse than the
+            # k-th best one (ties included), so the name tie-break below only sorts a few names
+            kth = rows[kernel.ranking_order(g[rows], b[rows])[k - 1]]
+            miss, gg = np.isnan(g[rows]), np.where(np.isnan(g[rows]), np.inf, g[rows])
+            km, kb, kg = np.isnan(g[kth]), b[kth], (np.inf if np.isnan(g[kth]) else g[kth])
+            br = b[rows]
+            rows = rows[(miss < km) | ((miss == km) & ((br < kb) | ((br == kb) & (gg <= kg))))]
+        names = np.asarray(surface.iloc[rows], dtype=object).astype(str)
+        rows = rows[np.argsort(names, kind="stable")]
         best = rows[kernel.ranking_order(g[rows], b[rows])[:k]]
         picked.append(best)
         ranks.append(np.arange(1, len(best) + 1, dtype=np.int64))
