@@ -15,6 +15,8 @@ statistics, or regrouped by a shuffle on ``surface``), so partitioning never cha
 * :func:`top_k` — the k best surfaces per pathway by :func:`ecatlab.che.kernel.ranking_order`
   (unblocked first, then lower G_max; ties by surface name), reduced across partitions;
 * :func:`summary` — per-pathway counts and min/mean/max, reduced across partitions;
+* :func:`screen` — summary and top-k in one pass with flat memory per worker (the way to go for
+  very large datasets);
 * :func:`compute` / :func:`dask_client` — run on the active Dask client, on a cluster given by
   its scheduler address, or on a new ``dask.distributed.LocalCluster``, with a progress bar.
 
@@ -50,6 +52,7 @@ __all__ = [
     "gmax",
     "top_k",
     "summary",
+    "screen",
     "top_k_frame",
     "summary_frame",
     "energy_partitions",
@@ -520,6 +523,69 @@ def summary(energies, pathways, pH: float = 0.0, scale: str = "RHE", temperature
     while len(parts) > split_every:
         parts = [dask.delayed(combine_partials)(parts[i : i + split_every]) for i in range(0, len(parts), split_every)]
     return dask.delayed(_finish_summary)(parts, order, conditions)
+
+
+class _PartitionScreen:
+    """One task per partition: read (files), validate, engine, then only the partition's top k and
+    partial summary leave the task (the per-row results never wait in worker memory)."""
+
+    def __init__(self, lp_fn: _PartitionLP, k: int):
+        self.lp_fn, self.k = lp_fn, int(k)
+        self.__name__ = "screen-partition"
+
+    def __call__(self, item):
+        if isinstance(item, int):  # file index of a dataset: read inside the task
+            lp = self.lp_fn(self.lp_fn.ds.read_file(item), partition_info={"number": item})
+        else:
+            lp = self.lp_fn(item)
+        return top_k_frame(lp, self.k), _partial_summary(lp)
+
+
+def screen(energies, pathways, k: int = 10, pH: float = 0.0, scale: str = "RHE", temperature: float = STANDARD_TEMPERATURE, references=None, grouped=None, split_every: int = 16):
+    """Summary and top-k of a dataset in one pass, with flat memory per worker (lazy).
+
+    Each partition is read, validated, evaluated and reduced to its best ``k`` and its partial
+    summary inside one task, so only small frames stay in worker memory whatever the dataset size.
+    Same results as :func:`summary` and :func:`top_k` (and as the in-memory
+    :func:`summary_frame` / :func:`top_k_frame`).
+
+    Returns
+    -------
+    (dask.delayed, dask.delayed)
+        Summary (columns :data:`SUMMARY_COLUMNS`) and top-k frames; compute both together with
+        :func:`compute`.
+    """
+    import dask
+
+    from ecatlab.notation import Pathway
+    from ecatlab.pathways import resolve
+
+    if int(k) < 1:
+        raise ValueError(f"k must be >= 1, got {k}")
+    sc = _conditions(scale, pH, temperature)
+    if isinstance(pathways, (str, Pathway)):
+        pathways = [pathways]
+    ds = _dataset(energies, grouped)
+    scheme = _scheme(ds, references, temperature)
+    fn = _PartitionScreen(_PartitionLP(ds, scheme, pathways, float(pH), sc, float(temperature), "report", _lp_dtypes(pathways, scheme)), k)
+    if ds.files and ds.grouped:
+        items = list(range(len(ds.files)))
+    else:
+        _, frame = energy_partitions(ds, grouped)
+        items = frame.to_delayed()
+    task = dask.delayed(fn, nout=2, pure=True)
+    pairs = [task(item) for item in items]
+    order = [resolve(p).name for p in pathways]
+    top = _tree([p[0] for p in pairs], _Combine(_combine_top, int(k), order), split_every)
+    parts = [p[1] for p in pairs]
+
+    def combine_partials(chunk):
+        return pd.concat(chunk, ignore_index=True)
+
+    while len(parts) > split_every:
+        parts = [dask.delayed(combine_partials)(parts[i : i + split_every]) for i in range(0, len(parts), split_every)]
+    conditions = {"scale": sc, "pH": float(pH), "temperature": float(temperature)}
+    return dask.delayed(_finish_summary)(parts, order, conditions), top
 
 
 # ------------------------------------------------------------------------------------------------

@@ -525,3 +525,13 @@ def test_dataset_writer_parts_order_and_atomicity(tmp_path):
     with pytest.raises(DatasetError, match="expected numbers in eV"):
         with datasets.EnergyDatasetWriter(tmp_path / "bad2") as w:
             w.write(frame.assign(G=frame["G"].astype(str)))
+
+
+def test_cluster_screen_one_pass_equals_in_memory(client, big):
+    folder, table, ref = big
+    summ, top = scaleout.compute(*scaleout.screen(folder, KEYS, k=4), progress=False)
+    top_ref, summ_ref = scaleout.top_k_frame(ref, 4), scaleout.summary_frame(ref)
+    assert list(top["surface"].astype(str)) == list(top_ref["surface"].astype(str))
+    assert np.array_equal(top["G_max"].to_numpy(), top_ref["G_max"].to_numpy())
+    exact = ["pathway", "surfaces", "evaluated", "missing", "blocked", "best_surface", "best_G_max", "G_max_min", "G_max_max"]
+    pd.testing.assert_frame_equal(summ[exact], summ_ref[exact], check_exact=True)
