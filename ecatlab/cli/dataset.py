@@ -110,10 +110,12 @@ def run_screen(args: argparse.Namespace) -> int:
     if unknown:
         raise PathwayError(f"unknown pathway key(s) {unknown}; see 'ecatlab pathways'")
     ds = open_energy_dataset(args.source)
-    lp = scaleout.limiting_potentials(ds, pathways, pH=args.pH, scale=args.scale, temperature=args.temperature)
-    jobs = [scaleout.summary(lp, pathways, pH=args.pH, scale=args.scale, temperature=args.temperature), scaleout.top_k(lp, pathways, k=args.top)]
     output = None
-    if args.output:
+    if not args.output:  # one fused pass per partition: flat worker memory
+        jobs = list(scaleout.screen(ds, pathways, k=args.top, pH=args.pH, scale=args.scale, temperature=args.temperature))
+    else:
+        lp = scaleout.limiting_potentials(ds, pathways, pH=args.pH, scale=args.scale, temperature=args.temperature)
+        jobs = [scaleout.summary(lp, pathways, pH=args.pH, scale=args.scale, temperature=args.temperature), scaleout.top_k(lp, pathways, k=args.top)]
         written = lp[list(scaleout.GMAX_COLUMNS)] if args.measure == "gmax" else lp
         output = ParquetFolderOutput(written, args.output, force=args.force, inputs=[args.source])
         jobs.append(output.job)
