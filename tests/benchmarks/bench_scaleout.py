@@ -8,7 +8,7 @@ summary and the top-k surfaces in one pass (:func:`ecatlab.scaleout.screen`: the
 per partition, exact reductions across partitions). It reports
 
 * wall time of the Dask path (reading + validation + engine + reductions);
-* peak resident memory per worker (``ru_maxrss`` of each worker process, fresh cluster per N):
+* peak resident memory per worker (``VmHWM`` of each worker process, fresh cluster per N):
   it must stay flat as N grows (partitions have a fixed size);
 * CPU seconds of the Dask path (workers + client/scheduler process) and of the baseline: the
   throughput goal is judged per CPU-second, because wall time x cores means nothing on a machine
@@ -106,6 +106,18 @@ def _rows(folder: str) -> int:
 
 
 def _worker_peak() -> float:
+    """Peak resident memory of this worker process, MB: VmHWM of /proc/self/status (Linux).
+
+    Not ru_maxrss: that survives exec on Linux, so a worker started from a large parent process
+    would report the parent's size at fork time.
+    """
+    try:
+        with open("/proc/self/status") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return float(line.split()[1]) / 1024.0
+    except OSError:
+        pass
     import resource as r
 
     return r.getrusage(r.RUSAGE_SELF).ru_maxrss / 1024.0
