@@ -35,9 +35,8 @@ from __future__ import annotations
 
 import contextlib
 import dataclasses
-import os
 import warnings
-from typing import Iterable, Sequence
+from typing import Sequence
 
 import numpy as np
 import pandas as pd
