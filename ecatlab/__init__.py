@@ -140,6 +140,13 @@ _EXPORTS: dict[str, str] = {
     # columnar limiting potentials (large screens)
     "limiting_potential_arrays": "ecatlab.che",
     "LimitingPotentialArrays": "ecatlab.che",
+    # Parquet datasets and the Dask path (screening beyond one machine's memory)
+    "open_energy_dataset": "ecatlab.datasets",
+    "read_energies_parquet": "ecatlab.datasets",
+    "write_energies_parquet": "ecatlab.datasets",
+    "EnergyDataset": "ecatlab.datasets",
+    "EnergyDatasetWriter": "ecatlab.datasets",
+    "dask_client": "ecatlab.scaleout",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

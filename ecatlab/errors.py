@@ -265,3 +265,33 @@ class KineticsInputError(EcatlabError, ValueError):
 class KineticsConvergenceWarning(EcatlabWarning):
     """A steady state was not found (or several were) at some (surface, potential) points; they
     are flagged in the result (``converged``, ``steady_states``) and never silently filled."""
+
+
+class DatasetError(EcatlabError, ValueError):
+    """A Parquet energy dataset, a Dask computation over one, or its output cannot be used.
+
+    Survives pickling (errors raised on Dask workers reach the caller unchanged).
+
+    Attributes
+    ----------
+    source : str
+        Dataset folder, file or ``"<Dask DataFrame>"``.
+    problem : str
+        What is wrong and how to fix it.
+    location : str or None
+        File, row group and row (or partition and row label) where known.
+    column : str or None
+        The offending column, where one is concerned.
+    """
+
+    def __init__(self, source: str, problem: str, location: str | None = None, column: str | None = None):
+        self.source = str(source)
+        self.problem = problem
+        self.location = location
+        self.column = column
+        where = f" ({location})" if location else ""
+        col = f", column {column!r}" if column else ""
+        super().__init__(f"{self.source}{where}{col}: {problem}")
+
+    def __reduce__(self):
+        return (type(self), (self.source, self.problem, self.location, self.column))
