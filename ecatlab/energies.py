@@ -395,7 +395,19 @@ def read_energies(
     EnergyTableError
         Naming the file, the line (files: the file's own line numbers, comment lines counted) or
         row label (frames), the column, and the fix. See the module docstring for the checks.
+
+    Notes
+    -----
+    A ``.parquet`` file or a Parquet dataset folder is read through :mod:`ecatlab.datasets` (into
+    memory), a Dask DataFrame gives a lazy :class:`ecatlab.datasets.EnergyDataset` for the Dask path
+    (:mod:`ecatlab.scaleout`).
     """
+    from ecatlab.datasets import dataset_kind
+
+    if dataset_kind(source) is not None:  # .parquet file or folder -> EnergyTable; Dask DataFrame -> lazy EnergyDataset
+        from ecatlab.datasets import read_energies_dataset
+
+        return read_energies_dataset(source, references=references, temperature=temperature, name=name)
     scheme = _scheme(references, temperature)
     if isinstance(source, pd.DataFrame):
         label = name or "<DataFrame>"

@@ -448,7 +448,21 @@ def limiting_potentials(
     -----
     Reduction: U_L = min_i(-a_i/n_i) over electrochemical steps, eta = U_eq - U_L.
     Oxidation: U_L = max_i(-a_i/n_i), eta = U_L - U_eq. See the module docstring.
+
+    A Dask DataFrame, an :class:`ecatlab.datasets.EnergyDataset` or a Parquet dataset folder gives a
+    lazy Dask DataFrame with the same columns, computed per partition (:mod:`ecatlab.scaleout`;
+    ``surfaces=`` is not supported there).
     """
+    from ecatlab.scaleout import is_lazy_source
+
+    if is_lazy_source(energies):  # Dask DataFrame, EnergyDataset or dataset folder -> lazy Dask DataFrame
+        if surfaces is not None:
+            from ecatlab.errors import OptionError
+
+            raise OptionError("surfaces= is not supported for a Dask dataset; filter the dataset first (e.g. with dask's query)")
+        from ecatlab.scaleout import limiting_potentials as dask_limiting_potentials
+
+        return dask_limiting_potentials(energies, pathways, pH=pH, scale=scale, temperature=temperature, on_missing=on_missing)
     return limiting_potential_arrays(energies, pathways, pH, scale, temperature, surfaces, on_missing).to_frame()
 
 

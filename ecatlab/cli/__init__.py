@@ -120,7 +120,14 @@ def suggest(word: str, choices: Iterable[str], n: int = 1) -> str:
 
 
 def _option_strings(parser: argparse.ArgumentParser) -> list[str]:
-    return [s for action in parser._actions for s in action.option_strings]
+    """Option strings of a parser and of its nested subcommands (e.g. ``dataset convert``)."""
+    out = []
+    for action in parser._actions:
+        out += action.option_strings
+        if isinstance(action, argparse._SubParsersAction):
+            for child in action.choices.values():
+                out += _option_strings(child)
+    return out
 
 
 def _unknown_options(parser: argparse.ArgumentParser, argv: Sequence[str]) -> None:
