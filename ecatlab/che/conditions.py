@@ -76,36 +76,30 @@ def check_temperature(temperature) -> float:
     return t
 
 
+def _check_range(value, what: str, unit: str, bounds: tuple[float, float], outside: str):
+    """Finite number(s) within ``bounds``; float or float array; a ConditionError naming ``what`` otherwise."""
+    try:
+        arr = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise ConditionError(f"{what} must be a number{unit}, got {_short(value)}") from None
+    if arr.size == 0:
+        raise ConditionError(f"{what} is empty; give a number{unit}")
+    if not np.all(np.isfinite(arr)):
+        raise ConditionError(f"{what} must be finite, got {_short(value)}")
+    lo, hi = bounds
+    if np.any((arr < lo) | (arr > hi)):
+        raise ConditionError(outside.format(value=_short(value), lo=lo, hi=hi))
+    return float(arr) if arr.ndim == 0 else arr
+
+
 def check_pH(pH):
     """Finite pH (scalar or array) within :data:`PH_RANGE`; returns float or a float array."""
-    try:
-        p = np.asarray(pH, dtype=float)
-    except (TypeError, ValueError):
-        raise ConditionError(f"pH must be a number, got {_short(pH)}") from None
-    if p.size == 0:
-        raise ConditionError("pH is empty; give a number")
-    if not np.all(np.isfinite(p)):
-        raise ConditionError(f"pH must be finite, got {_short(pH)}")
-    lo, hi = PH_RANGE
-    if np.any((p < lo) | (p > hi)):
-        raise ConditionError(f"pH {_short(pH)} is outside the aqueous range ({lo:g} to {hi:g})")
-    return float(p) if p.ndim == 0 else p
+    return _check_range(pH, "pH", "", PH_RANGE, "pH {value} is outside the aqueous range ({lo:g} to {hi:g})")
 
 
 def check_potential(potential):
     """Finite potential(s) in V within :data:`POTENTIAL_RANGE_V`; returns float or a float array."""
-    try:
-        u = np.asarray(potential, dtype=float)
-    except (TypeError, ValueError):
-        raise ConditionError(f"potential must be a number of volts, got {_short(potential)}") from None
-    if u.size == 0:
-        raise ConditionError("potential is empty; give a number of volts")
-    if not np.all(np.isfinite(u)):
-        raise ConditionError(f"potential must be finite, got {_short(potential)}")
-    lo, hi = POTENTIAL_RANGE_V
-    if np.any((u < lo) | (u > hi)):
-        raise ConditionError(f"potential {_short(potential)} V is outside {lo:g} to {hi:g} V")
-    return float(u) if u.ndim == 0 else u
+    return _check_range(potential, "potential", " of volts", POTENTIAL_RANGE_V, "potential {value} V is outside {lo:g} to {hi:g} V")
 
 
 @dataclass(frozen=True)

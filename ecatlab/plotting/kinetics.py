@@ -111,6 +111,13 @@ def plot_tafel(data, ax=None, surfaces=None, style: str = "notebook", title: str
     return ax
 
 
+def _lines_per_key(ax, frame, key: str, value: str, width: float) -> None:
+    """One line vs potential per distinct ``key`` (species or product), palette and dashes in order."""
+    for k, name in enumerate(dict.fromkeys(frame[key])):
+        g = frame[frame[key] == name].sort_values("potential")
+        ax.plot(g["potential"], g[value], color=PALETTE[k % len(PALETTE)], ls=DASHES[k % len(DASHES)], lw=width, label=name)
+
+
 def plot_coverages(data, surface: str | None = None, ax=None, style: str = "notebook", log: bool = True, title: str | None = None, caption: bool = True):
     """Coverages of every species (and the empty site) vs potential on one surface (log axis by default)."""
     frame = _frame(data, "coverage")
@@ -121,9 +128,7 @@ def plot_coverages(data, surface: str | None = None, ax=None, style: str = "note
     with style_context(p):
         if ax is None:
             _, ax = figure(p)
-        for k, sp in enumerate(dict.fromkeys(f["species"])):
-            g = f[f["species"] == sp].sort_values("potential")
-            ax.plot(g["potential"], g["coverage"], color=PALETTE[k % len(PALETTE)], ls=DASHES[k % len(DASHES)], lw=1.6, label=sp)
+        _lines_per_key(ax, f, "species", "coverage", 1.6)
         if log:
             ax.set_yscale("log")
             ax.set_ylim(1e-12, 2.0)
@@ -148,9 +153,7 @@ def plot_faradaic_efficiency(data, surface: str | None = None, ax=None, style: s
     with style_context(p):
         if ax is None:
             _, ax = figure(p)
-        for k, prod in enumerate(dict.fromkeys(f["product"])):
-            g = f[f["product"] == prod].sort_values("potential")
-            ax.plot(g["potential"], g["faradaic_efficiency"], color=PALETTE[k % len(PALETTE)], ls=DASHES[k % len(DASHES)], lw=1.8, label=prod)
+        _lines_per_key(ax, f, "product", "faradaic_efficiency", 1.8)
         ax.set_ylim(-0.05, 1.05)
         ax.set_xlabel(f"potential U (V vs {sc})")
         ax.set_ylabel("faradaic efficiency")
