@@ -166,6 +166,20 @@ def _prepare_folder(target: pathlib.Path) -> pathlib.Path:
 # ------------------------------------------------------------------------------------------------
 # atomic writes
 # ------------------------------------------------------------------------------------------------
+def temp_file(folder, prefix: str = ".ecatlab-", suffix: str = ".part") -> tuple[int, str]:
+    """A temporary file in ``folder`` (same file system as the target, so ``os.replace`` is atomic).
+
+    ``tempfile.mkstemp`` creates it readable by its owner only; the mode is set to what an ordinary
+    write would give (0666 minus the umask), so the file moved into place is not left private.
+    Returns ``(fd, path)``.
+    """
+    fd, path = tempfile.mkstemp(prefix=prefix, suffix=suffix, dir=folder)
+    umask = os.umask(0)
+    os.umask(umask)
+    os.fchmod(fd, 0o666 & ~umask)
+    return fd, path
+
+
 @contextlib.contextmanager
 def atomic_path(
     path: str | os.PathLike,
@@ -189,7 +203,7 @@ def atomic_path(
     """
     target = check_output(path, force=force, inputs=inputs, suffixes=suffixes, option=option, what=what)
     folder = _prepare_folder(target)
-    fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name[:40]}.", suffix=".part", dir=folder)
+    fd, tmp_name = temp_file(folder, prefix=f".{target.name[:40]}.", suffix=".part")
     os.close(fd)
     tmp = pathlib.Path(tmp_name)
     try:

@@ -84,3 +84,19 @@ def test_atomic_write_replaces_in_one_step(tmp_path, monkeypatch):
     assert target.read_text() == "new"
     assert seen == [(str(tmp_path), "new")]  # the temporary file lived in the target folder
     assert [p.name for p in tmp_path.iterdir()] == ["t.txt"]
+
+
+def test_written_files_get_the_ordinary_mode_not_a_private_one(tmp_path):
+    # mkstemp makes 0600 files; a table or report moved into place must be readable as an ordinary
+    # write would leave it (0666 minus the umask), e.g. for a web server or a co-worker
+    import os
+    import stat
+
+    from ecatlab.safe_io import atomic_write_text
+
+    umask = os.umask(0o022)
+    try:
+        path = atomic_write_text(tmp_path / "t.csv", "a,b\n1,2\n")
+    finally:
+        os.umask(umask)
+    assert stat.S_IMODE(os.stat(path).st_mode) == 0o644

@@ -4,9 +4,10 @@ old file intact)."""
 
 from __future__ import annotations
 
+from ecatlab.safe_io import temp_file
+
 import os
 import pathlib
-import tempfile
 from typing import Callable, Iterable
 
 from ecatlab.errors import OutputFolderError
@@ -31,7 +32,7 @@ def check_target(path: str, force: bool, inputs: Iterable[str] = ()) -> pathlib.
 def write_atomic(target: pathlib.Path, write: Callable[[str], None]) -> None:
     """Call ``write(temp_path)`` for a temporary file beside ``target`` and move it into place."""
     folder = target.resolve().parent
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix=f".{target.name}.", suffix=target.suffix)
+    fd, tmp = temp_file(folder, prefix=f".{target.name}.", suffix=target.suffix)
     os.close(fd)
     try:
         write(tmp)

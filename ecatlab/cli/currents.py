@@ -9,10 +9,11 @@ estimates; estimated barriers are flagged in every output.
 
 from __future__ import annotations
 
+from ecatlab.safe_io import temp_file
+
 import argparse
 import os
 import pathlib
-import tempfile
 
 from ecatlab.errors import KineticsInputError
 
@@ -95,7 +96,7 @@ def _safe_text(frame):
 def _write_csv(frame, path: str) -> None:
     target = pathlib.Path(path)
     target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=".ecatlab-", suffix=".csv")
+    fd, tmp = temp_file(target.parent, prefix=".ecatlab-", suffix=".csv")
     try:
         with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
             a = frame.attrs
@@ -168,7 +169,7 @@ def run(args: argparse.Namespace) -> int:
         plot_polarization(pol, ax=axs[0], surfaces=list(model.surfaces)[:8])
         plot_tafel(pol, ax=axs[1], surfaces=list(model.surfaces)[:8])
         target = pathlib.Path(args.figure)
-        fd, tmp = tempfile.mkstemp(dir=target.parent if str(target.parent) else ".", suffix=target.suffix)
+        fd, tmp = temp_file(target.parent if str(target.parent) else ".", suffix=target.suffix)
         os.close(fd)
         try:
             fig.savefig(tmp, bbox_inches="tight", format=target.suffix.lstrip(".") or "png")

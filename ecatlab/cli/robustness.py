@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
+from ecatlab.safe_io import temp_file
+
 import argparse
 import os
-import tempfile
 
 from ecatlab.errors import OutputFolderError, UncertaintyError
 
@@ -112,7 +113,7 @@ def _write_csv(frame, path: str) -> None:
             risky = text.str.startswith(_FORMULA_START)
             safe[col] = text.where(~risky, "'" + text)  # spreadsheet formula guard (OWASP CSV injection)
     folder = os.path.dirname(os.path.abspath(path))
-    fd, tmp = tempfile.mkstemp(dir=folder, suffix=".tmp")
+    fd, tmp = temp_file(folder, suffix=".tmp")
     try:
         with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
             c = frame.attrs
@@ -171,7 +172,7 @@ def run(args: argparse.Namespace) -> int:
 
         ax = plot_ranking_probabilities(res, res.pathways[0], top=args.top)
         folder = os.path.dirname(os.path.abspath(args.figure))
-        fd, tmp = tempfile.mkstemp(dir=folder, suffix=os.path.splitext(args.figure)[1] or ".png")
+        fd, tmp = temp_file(folder, suffix=os.path.splitext(args.figure)[1] or ".png")
         os.close(fd)
         try:
             ax.figure.savefig(tmp, bbox_inches="tight")
