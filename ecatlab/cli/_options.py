@@ -40,6 +40,27 @@ def finite_float(text: str) -> float:
     return value
 
 
+def number_pairs(items: Iterable[str], option: str, example: str, error=None, form: str = "KEY=NUMBER") -> dict[str, float]:
+    """``KEY=NUMBER`` items of an option as a dict; a one-line error (``error`` class, default
+    OptionError) naming the option, the item and an example when one is malformed or not finite."""
+    from ecatlab.errors import OptionError
+
+    error = error or OptionError
+    out: dict[str, float] = {}
+    for item in items:
+        key, sep, value = item.partition("=")
+        try:
+            number = float(value)
+        except ValueError:
+            number = float("nan") if sep and key.strip() else None
+        if not sep or not key.strip() or number is None:
+            raise error(f"{option} {clip(item)!r}: write {form}, e.g. {example}")
+        if not math.isfinite(number):
+            raise error(f"{option} {clip(item)!r}: the number must be finite, e.g. {example}")
+        out[key.strip()] = number
+    return out
+
+
 def positive_float(text: str) -> float:
     value = finite_float(text)
     if value <= 0:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from ecatlab.cli import _options as opt
 from ecatlab.safe_io import temp_file
 
 import argparse
@@ -51,19 +52,6 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.set_defaults(func=run)
 
 
-def _pairs(items, what: str) -> dict[str, float]:
-    out = {}
-    for item in items:
-        key, sep, value = item.partition("=")
-        try:
-            out[key.strip()] = float(value)
-        except ValueError:
-            raise UncertaintyError(f"{what} {item!r}: write ADSORBATE=NUMBER, e.g. OOH*=0.2") from None
-        if not sep or not key.strip():
-            raise UncertaintyError(f"{what} {item!r}: write ADSORBATE=NUMBER, e.g. OOH*=0.2")
-    return out
-
-
 def build_model(args, table):
     """The error model the options ask for (one source only)."""
     from ecatlab.uncertainty import DescriptorErrors, GaussianErrors
@@ -87,7 +75,7 @@ def build_model(args, table):
         targets = {a.key for k in args.pathway for a in resolve(k).adsorbates} - {desc.strip()}
         relations = [fit_scaling(table, t, desc) for t in sorted(targets)]
         return DescriptorErrors.from_relations(relations, args.descriptor_sigma, args.surface_correlation)
-    per = _pairs(args.sigma_of, "--sigma-of")
+    per = opt.number_pairs(args.sigma_of, "--sigma-of", "OOH*=0.2", UncertaintyError, form="ADSORBATE=NUMBER")
     sigma = per if per else (0.1 if args.sigma is None else args.sigma)
     default = (args.sigma if args.sigma is not None else None) if per else None
     return GaussianErrors(sigma, args.correlation, "none" if args.independent else "binding_atom", default, args.surface_correlation)

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 
 from ecatlab.cli import _options as opt
 from ecatlab.errors import ScalingError, clip, clip_path
@@ -33,21 +32,6 @@ def register(sub: argparse._SubParsersAction) -> None:
     opt.add_output(p, "volcano figure to save (.svg, .pdf or .png)", metavar="FIGURE")
     p.add_argument("--json", action="store_true", help="print the summary and the fit table as JSON instead of text")
     p.set_defaults(func=run)
-
-
-def _fixed(items) -> dict[str, float]:
-    out = {}
-    for item in items:
-        key, sep, value = item.partition("=")
-        try:
-            out[key.strip()] = float(value)
-        except ValueError:
-            raise ScalingError(f"--fix-slope {clip(item)!r}: write ADSORBATE=SLOPE, e.g. OOH*=1") from None
-        if not sep or not key.strip():
-            raise ScalingError(f"--fix-slope {clip(item)!r}: write ADSORBATE=SLOPE, e.g. OOH*=1")
-        if not math.isfinite(out[key.strip()]):
-            raise ScalingError(f"--fix-slope {clip(item)!r}: the slope must be a finite number, e.g. OOH*=1")
-    return out
 
 
 def _relations(path: str | None):
@@ -97,7 +81,7 @@ def run(args: argparse.Namespace) -> int:
     if args.span and not args.span[0] < args.span[1]:
         raise ScalingError(f"--span {args.span[0]:g} {args.span[1]:g}: LOW must be below HIGH, e.g. --span -1 2")
     relations = _relations(args.relations)
-    fixed = _fixed(args.fix_slope)
+    fixed = opt.number_pairs(args.fix_slope, "--fix-slope", "OOH*=1", ScalingError, form="ADSORBATE=SLOPE")
 
     from ecatlab.energies import read_energies
     from ecatlab.scaling import scaling_table

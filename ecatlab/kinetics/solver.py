@@ -436,26 +436,16 @@ def _sweep(batch_at, order, S, ns, tol, max_iter):
     guess = None
     for step_no, p in enumerate(order):
         batch = batch_at(p)
-        if guess is None:
-            x0 = _picard(batch, np.tile(_starts(ns)[0], (S, 1)))
-            x, c, m = _newton(batch, x0, tol, max_iter)
-            meth_p = np.where(c, 1, 3)
-            if not c.all():
-                idx = np.flatnonzero(~c)
-                xs, cs, ms = _multistart(batch.take(idx), tol, max_iter)
-                x2, c2, m2 = _best_of(xs, cs, ms)
-                x[idx], c[idx], m[idx] = x2, c2, m2
-                meth_p[idx] = np.where(c2, 1, 3)
-        else:
-            x0 = _predict(batch, guess)
-            x, c, m = _newton(batch, x0, tol, max_iter)
-            meth_p = np.where(c, 0, 3)
-            if not c.all():
-                idx = np.flatnonzero(~c)
-                xs, cs, ms = _multistart(batch.take(idx), tol, max_iter)
-                x2, c2, m2 = _best_of(xs, cs, ms)
-                x[idx], c[idx], m[idx] = x2, c2, m2
-                meth_p[idx] = np.where(c2, 1, 3)
+        # first point: a start from the GTH/Picard guess; later points: continuation from the last one
+        x0 = _picard(batch, np.tile(_starts(ns)[0], (S, 1))) if guess is None else _predict(batch, guess)
+        x, c, m = _newton(batch, x0, tol, max_iter)
+        meth_p = np.where(c, 1 if guess is None else 0, 3)
+        if not c.all():  # multiple starts where Newton from the guess failed
+            idx = np.flatnonzero(~c)
+            xs, cs, ms = _multistart(batch.take(idx), tol, max_iter)
+            x2, c2, m2 = _best_of(xs, cs, ms)
+            x[idx], c[idx], m[idx] = x2, c2, m2
+            meth_p[idx] = np.where(c2, 1, 3)
         X[:, p], C[:, p], M[:, p], meth[:, p] = x, c, m, meth_p
         guess = x if guess is None else np.where(c[:, None], x, guess)
     return X, C, M, meth

@@ -111,6 +111,12 @@ def plot_tafel(data, ax=None, surfaces=None, style: str = "notebook", title: str
     return ax
 
 
+def _one_surface(frame, surface):
+    """The surface to draw (the given one, or the first) and its rows."""
+    s = _surfaces(frame, surface)[0] if surface is not None else frame["surface"].iloc[0]
+    return s, frame[frame["surface"] == s]
+
+
 def _lines_per_key(ax, frame, key: str, value: str, width: float) -> None:
     """One line vs potential per distinct ``key`` (species or product), palette and dashes in order."""
     for k, name in enumerate(dict.fromkeys(frame[key])):
@@ -123,8 +129,7 @@ def plot_coverages(data, surface: str | None = None, ax=None, style: str = "note
     frame = _frame(data, "coverage")
     p = preset(style)
     sc = frame.attrs.get("scale", "RHE")
-    s = _surfaces(frame, surface)[0] if surface is not None else frame["surface"].iloc[0]
-    f = frame[frame["surface"] == s]
+    s, f = _one_surface(frame, surface)
     with style_context(p):
         if ax is None:
             _, ax = figure(p)
@@ -148,8 +153,7 @@ def plot_faradaic_efficiency(data, surface: str | None = None, ax=None, style: s
     frame = _frame(data, "fe")
     p = preset(style)
     sc = frame.attrs.get("scale", "RHE")
-    s = _surfaces(frame, surface)[0] if surface is not None else frame["surface"].iloc[0]
-    f = frame[frame["surface"] == s]
+    s, f = _one_surface(frame, surface)
     with style_context(p):
         if ax is None:
             _, ax = figure(p)
