@@ -43,6 +43,10 @@ Primitives
   12607 (2020)). For a pathway of one-electron electrochemical steps it equals :math:`e\eta`; a
   chemical step that is uphill by :math:`\Delta G_c` makes it at least :math:`\Delta G_c`. It is the
   default ranking key of ecatlab (lower is better).
+* :func:`stacked_measures` -- :func:`envelope`, :func:`gmax` and :func:`chemical_obstacle` of many
+  pathways at once, their steps stacked on the *first* axis (one contiguous row per step), for
+  sample-by-surface blocks of the uncertainty propagation; the same numbers as the three
+  functions above.
 * :func:`ranking_order` -- the one ordering rule: surfaces blocked by an uphill chemical step come
   after every unblocked surface; within each group, lower :math:`G_\mathrm{max}` first.
 """
@@ -69,6 +73,7 @@ __all__ = [
     "BLOCKING_TOLERANCE_EV",
     "ranking_order",
     "effective_limiting_potential",
+    "stacked_measures",
 ]
 
 #: Steps with |n_i| at or below this many electrons are chemical (potential-independent).
@@ -313,3 +318,159 @@ def effective_limiting_potential(g_max, equilibrium_potential, direction: str) -
     if direction == "oxidation":
         return u_eq + g
     raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+
+
+def _running_extreme(rows, start: int, stop: int, greater: bool, value: np.ndarray, index: np.ndarray,
+                     mask: np.ndarray, scratch: np.ndarray, transform=None) -> None:
+    """Extreme over ``rows[start:stop]`` (each row one step) and the offset of its first occurrence.
+
+    ``value`` gets the max (``greater``) or min, NaN-propagating like ``np.max``/``np.min``;
+    ``index`` (int8) the position relative to ``start`` of the first row attaining it (meaningless
+    where the value is NaN, as with ``np.argmax``). ``transform(i, out)`` maps row ``i`` into
+    ``out`` first when given. No temporaries beyond the buffers passed in."""
+    pick = np.maximum if greater else np.minimum
+    better = np.greater if greater else np.less
+    if transform is None:
+        np.copyto(value, rows[start])
+    else:
+        transform(start, value)
+    index.fill(0)
+    row = None
+    for k, i in enumerate(range(start + 1, stop), start=1):
+        if transform is None:
+            row = rows[i]
+        else:
+            row = row if row is not None else np.empty_like(value)
+            transform(i, row)
+        better(row, value, out=mask)  # strictly better: the first occurrence wins ties
+        pick(value, row, out=value)
+        # the offset k grows along the loop, so "where(mask, k, index)" is max(index, mask * k)
+        np.multiply(mask.view(np.int8), np.int8(k), out=scratch)
+        np.maximum(index, scratch, out=index)
+
+
+def _to_pathway_index(index: np.ndarray, positions: np.ndarray, contiguous: bool) -> None:
+    """Turn offsets into ``positions`` (int8, in place) into the positions themselves."""
+    if contiguous:
+        if positions[0]:
+            np.add(index, np.int8(positions[0]), out=index)
+    else:
+        np.copyto(index, positions.astype(np.int8)[index])
+
+
+def stacked_measures(a, n, bounds, directions, equilibrium_potentials, out=None) -> list[dict]:
+    """Limiting potential, G_max and chemical obstacle of many pathways whose steps are stacked.
+
+    The batched form of :func:`envelope`, :func:`gmax` and :func:`chemical_obstacle` for
+    sample-by-surface blocks: the steps of all pathways are the rows of one array (step axis
+    *first*, so that each step is one contiguous row and every operation runs over whole rows).
+
+    Parameters
+    ----------
+    a : ndarray (n_steps_total, ...)
+        Step free energies at U = 0 V on the scale in question, eV; pathway ``j`` owns rows
+        ``bounds[j]:bounds[j + 1]``.
+    n : array_like (n_steps_total,)
+        Electrons consumed per step.
+    bounds : sequence of int (n_pathways + 1,)
+        Row offsets of the pathways (first 0, last n_steps_total).
+    directions : sequence of {"reduction", "oxidation"}
+        One per pathway.
+    equilibrium_potentials : sequence of float or ndarray
+        U_eq of each pathway in V on the same scale, broadcast against ``a.shape[1:]``.
+    out : list of dict, optional
+        Per pathway, arrays of shape ``a.shape[1:]`` to write into, any of the keys below.
+
+    Returns
+    -------
+    list of dict, one per pathway, with
+        ``U_L`` (V) and ``step`` (int8, index of the potential-determining step within the
+        pathway) as :func:`envelope`; ``G_max`` (eV) and ``G_max_step`` (int8) as :func:`gmax`;
+        ``max_chemical_dG`` (eV) and ``chemical_step`` (int8) as :func:`chemical_obstacle`, or
+        None for both when the pathway has no chemical step. Where the numbers are NaN the
+        indices mean nothing.
+
+    Notes
+    -----
+    The equations are those of :func:`envelope` (:math:`U_i = -a_i/n_i`, min for a reduction,
+    max for an oxidation), :func:`gmax` (:math:`\\max_i a_i + n_i U_\\mathrm{eq}`) and
+    :func:`chemical_obstacle`, with the same floating-point results: when every
+    electrochemical step of a pathway moves one electron in the pathway's direction
+    (:math:`n_i = +1` for a reduction, :math:`-1` for an oxidation), :math:`-a_i/n_i` is
+    :math:`\\mp a_i` exactly, so the envelope is taken over the rows of ``a`` themselves, and
+    the electrochemical part of :math:`G_\\mathrm{max}` is :math:`e\\eta` of
+    :func:`signed_overpotential`: :math:`\\max_i (a_i \\pm U_\\mathrm{eq})` rounds like
+    :math:`\\max_i a_i \\pm U_\\mathrm{eq}` because rounding is monotonic. The only
+    possible difference is which of two electrochemical steps carries G_max when their
+    :math:`a_i` differ but :math:`a_i + n_i U_\\mathrm{eq}` round to the same number (a tie
+    within one rounding unit; the value is the same).
+    """
+    a = np.asarray(a, dtype=float)
+    n = np.asarray(n, dtype=float)
+    bounds = [int(b) for b in bounds]
+    if n.ndim != 1 or n.shape[0] != a.shape[0] or bounds[0] != 0 or bounds[-1] != a.shape[0] or np.any(np.diff(bounds) < 1):
+        raise OptionError("stacked_measures: n must have one value per row of a, bounds must run from 0 to the "
+                          "number of rows in increasing steps")
+    if len(directions) != len(bounds) - 1 or len(equilibrium_potentials) != len(bounds) - 1:
+        raise OptionError("stacked_measures: give one direction and one equilibrium potential per pathway")
+    if max(np.diff(bounds)) > 127:
+        raise OptionError("stacked_measures: at most 127 steps per pathway (int8 step indices)")
+    shape = a.shape[1:]
+    mask = np.empty(shape, dtype=bool)
+    scratch = np.empty(shape, dtype=np.int8)
+    ec_all = electrochemical_mask(n)
+    results = []
+    for j, direction in enumerate(directions):
+        if direction not in ("reduction", "oxidation"):
+            raise OptionError(f"direction must be 'reduction' or 'oxidation', got {direction!r}")
+        lo, hi = bounds[j], bounds[j + 1]
+        dest = dict(out[j]) if out is not None else {}
+        res = {k: dest.get(k) for k in ("U_L", "step", "G_max", "G_max_step", "max_chemical_dG", "chemical_step")}
+        for k in ("U_L", "G_max"):
+            if res[k] is None:
+                res[k] = np.empty(shape)
+        for k in ("step", "G_max_step"):
+            if res[k] is None:
+                res[k] = np.empty(shape, dtype=np.int8)
+        ec = np.flatnonzero(ec_all[lo:hi]) + lo
+        chem = np.flatnonzero(~ec_all[lo:hi]) + lo
+        if ec.size == 0:
+            raise PathwayError("a pathway without electrochemical steps has no limiting potential")
+        u_eq = equilibrium_potentials[j]
+        sign = 1.0 if direction == "reduction" else -1.0
+        unit = bool(np.all(n[ec] == sign))
+        contiguous = ec.size == ec[-1] - ec[0] + 1
+        u_l, step = res["U_L"], res["step"]
+        if unit and contiguous:
+            # -a_i/n_i is -a_i (reduction: U_L = min(-a) = -max(a)) or a_i (oxidation: U_L = max(a))
+            _running_extreme(a, ec[0], ec[-1] + 1, True, u_l, step, mask, scratch)
+            if direction == "reduction":
+                np.negative(u_l, out=u_l)
+        else:
+            rows = ec
+            onset = lambda i, o: np.divide(a[rows[i]], -n[rows[i]], out=o)  # noqa: E731 - as in envelope
+            _running_extreme(None, 0, rows.size, direction == "oxidation", u_l, step, mask, scratch, transform=onset)
+        _to_pathway_index(step, ec - lo, contiguous)
+        g, g_step = res["G_max"], res["G_max_step"]
+        if unit:
+            np.copyto(g, signed_overpotential(u_l, u_eq, direction))  # max over the electrochemical steps
+            np.copyto(g_step, step)
+        else:
+            line = lambda i, o: np.add(a[ec[i]], n[ec[i]] * np.asarray(u_eq), out=o)  # noqa: E731 - as in gmax
+            _running_extreme(None, 0, ec.size, True, g, g_step, mask, scratch, transform=line)
+            _to_pathway_index(g_step, ec - lo, contiguous)
+        if chem.size:
+            c_val = res["max_chemical_dG"] if res["max_chemical_dG"] is not None else np.empty(shape)
+            c_step = res["chemical_step"] if res["chemical_step"] is not None else np.empty(shape, dtype=np.int8)
+            rows_c = chem
+            take = lambda i, o: np.copyto(o, a[rows_c[i]])  # noqa: E731
+            _running_extreme(None, 0, chem.size, True, c_val, c_step, mask, scratch, transform=take)
+            _to_pathway_index(c_step, chem - lo, chem.size == chem[-1] - chem[0] + 1)
+            # G_max over all steps: the chemical maximum wins when larger, the lower index on a tie
+            np.greater(c_val, g, out=mask)
+            mask |= (c_val == g) & (c_step < g_step)
+            np.copyto(g_step, np.where(mask, c_step, g_step))
+            np.maximum(g, c_val, out=g)
+            res["max_chemical_dG"], res["chemical_step"] = c_val, c_step
+        results.append(res)
+    return results

@@ -431,17 +431,6 @@ def _molecule_matrix(steps, molecules: Sequence[str]) -> np.ndarray | None:
     return c
 
 
-def _balanced_groups(sizes: Sequence[int], workers: int) -> list[list[int]]:
-    """Split pathway indices into at most ``workers`` groups of similar total step count (largest first)."""
-    groups: list[list[int]] = [[] for _ in range(min(workers, len(sizes)))]
-    load = [0] * len(groups)
-    for i in sorted(range(len(sizes)), key=lambda k: -sizes[k]):
-        g = load.index(min(load))
-        groups[g].append(i)
-        load[g] += sizes[i]
-    return [sorted(g) for g in groups if g]
-
-
 def _single_threaded_blas():
     """Limit BLAS to one thread: the (rows x few) @ (few x few) products of the propagation run
     several times faster single-threaded than with threads competing for the cores."""
@@ -454,37 +443,99 @@ def _single_threaded_blas():
     return threadpool_limits(limits=1, user_api="blas")
 
 
-def _propagate_chunk(ch, base, paths, compiled, cols, store, kept, kept_cols, pH, sc, temperature) -> None:
-    """Push one chunk of samples through the kernel for every pathway (no loop over samples)."""
-    S = base.shape[0]
-    rows = slice(ch.start, ch.start + ch.size)
-    for k, j in kept_cols.items():
-        kept[k][rows] = base[None, :, j] + ch.adsorbates[:, :, j]
-    for path, c, col, st in zip(paths, compiled, cols, store):
-        g = base[None, :, col] + ch.adsorbates[:, :, col]  # (c, S, A_p), eV, float64
-        a, n = c.affine(g.reshape(-1, g.shape[-1]), pH, sc, temperature)
-        a = a.reshape(ch.size, S, -1)
+@dataclass(frozen=True)
+class _Stack:
+    """All steps of all pathways (and the kept species) as rows of one array, for one table.
+
+    ``matrix`` (species x rows) maps adsorbate deviations to step free energies (the compiled
+    stoichiometries, transposed) and to the kept species (unit columns); ``central`` (rows x
+    surfaces, eV) holds the deterministic engine's step free energies (``CompiledPathway.affine``
+    on the table) and the kept species' table values; ``molecules`` (rows x molecules) the net
+    coefficient of each error-carrying molecule."""
+
+    matrix: np.ndarray
+    central: np.ndarray
+    molecules: np.ndarray | None
+    electrons: np.ndarray
+    bounds: tuple[int, ...]
+    directions: tuple[str, ...]
+    n_steps: int
+
+
+def _stack(paths, compiled, cols, base, keep_cols, pH, sc, temperature, mols) -> _Stack:
+    sizes = [len(p.steps) for p in paths]
+    bounds = tuple(int(x) for x in np.concatenate([[0], np.cumsum(sizes)]))
+    P = bounds[-1]
+    rows = P + len(keep_cols)
+    A, S = base.shape[1], base.shape[0]
+    matrix = np.zeros((A, rows))
+    central = np.empty((rows, S))
+    electrons = np.empty(P)
+    cmol = np.zeros((rows, len(mols))) if mols else None
+    for j, (path, c, col) in enumerate(zip(paths, compiled, cols)):
+        lo, hi = bounds[j], bounds[j + 1]
+        np.add.at(matrix, (col[:, None], np.arange(lo, hi)[None, :]), c.adsorbate_stoichiometry.T)
+        a, n = c.affine(base[:, col], pH, sc, temperature)  # (S, steps): the engine's own numbers
+        central[lo:hi] = a.T
+        electrons[lo:hi] = n
+        if cmol is not None:
+            cmol[lo:hi] = _molecule_matrix(path.steps, mols)
+    for k, j in enumerate(keep_cols):
+        matrix[j, P + k] = 1.0
+        central[P + k] = base[:, j]
+    return _Stack(matrix, central, cmol, electrons, bounds, tuple(p.direction for p in paths), P)
+
+
+def _propagate_chunk(ch, stack: _Stack, store, kept, kept_names, buffers: dict) -> None:
+    """Push one chunk of samples through the kernel for every pathway (no loop over samples).
+
+    The step free energies of all pathways for all (sample, surface) pairs of the chunk are one
+    array (rows x samples x surfaces): the central values, plus the molecules' deviations, plus the
+    adsorbate deviations mapped through the stoichiometry in one matrix product; the kernel's
+    :func:`~ecatlab.che.kernel.stacked_measures` then writes U_L, G_max, the chemical-step measure
+    and the step indices straight into the result arrays."""
+    c = ch.size
+    rows_total, S = stack.central.shape
+    key = (rows_total, c, S)
+    a = buffers.get(key)
+    if a is None:
+        a = buffers[key] = np.empty(key)
+    rows = slice(ch.start, ch.start + c)
+    common = ch.shared_linear(stack.matrix)  # (c, rows): deviations shared by all surfaces
+    if stack.molecules is not None:
+        mol = ch.molecules @ stack.molecules.T
+        common = mol if common is None else common + mol
+    if common is not None:  # one pass: central values plus the per-sample terms
+        np.add(stack.central[:, None, :], common.T[:, :, None], out=a)
+    else:
+        np.copyto(a, stack.central[:, None, :])
+    ch.add_linear(stack.matrix, a, shared=False)
+    P = stack.n_steps
+    u_eqs, outs = [], []
+    for st in store:
         if st["cmol"] is not None:
-            a += (ch.molecules @ st["cmol"].T)[:, None, :]
             a_eq = st["eq_affine"][0] + ch.molecules @ st["eq_mol"].T  # (c, 1)
             u_eq = kernel.equilibrium_potential_from_affine(a_eq, st["eq_affine"][1])  # (c,)
             st["U_eq"][rows] = u_eq
-            u_eq_b = u_eq[:, None, None]
+            u_eqs.append(u_eq[:, None])
         else:
-            u_eq_b = float(kernel.equilibrium_potential_from_affine(*st["eq_affine"])[0]) + 0.0
-        u_l, idx = kernel.envelope(a, n, path.direction)
-        g_max, g_idx = kernel.gmax(a, n, u_eq_b)
-        missing = np.isnan(u_l)
-        st["U_L"][rows] = u_l
-        st["G"][rows] = g_max
-        st["det"][rows] = np.where(missing, -1, idx)
-        st["gst"][rows] = np.where(missing, -1, g_idx)
-        if st["chem"] is not None:
-            max_chem, _ = kernel.chemical_obstacle(a, n)
-            st["blk"][rows] = kernel.is_blocked(max_chem)
-            st["chem"][rows] = max_chem
+            u_eqs.append(st["u_eq"])
+        outs.append({"U_L": st["U_L"][rows], "step": st["det"][rows], "G_max": st["G"][rows],
+                     "G_max_step": st["gst"][rows], "max_chemical_dG": st["chem"][rows] if st["chem"] is not None else None})
+    results = kernel.stacked_measures(a[:P], stack.electrons, stack.bounds, stack.directions, u_eqs, out=outs)
+    for st, res in zip(store, results):
+        if res["max_chemical_dG"] is not None:
+            st["blk"][rows] = kernel.is_blocked(res["max_chemical_dG"])
         else:
             st["blk"][rows] = False
+        if not st["may_miss"]:
+            continue
+        missing = np.isnan(res["U_L"])
+        if missing.any():
+            res["step"][missing] = -1
+            res["G_max_step"][missing] = -1
+    for k, name in enumerate(kept_names):
+        kept[name][rows] = a[P + k]
 
 
 def propagate(
@@ -530,8 +581,9 @@ def propagate(
     progress : bool, optional
         tqdm bar over the chunks; default on for long runs.
     workers : int
-        Threads that share the pathways of each chunk (numpy releases the GIL in the kernel's
-        array operations); 1 (default) runs in the calling thread. Same numbers for any value.
+        Threads that take chunks of samples in turn (each draws its own chunk and writes its own
+        rows of the results; numpy releases the GIL in the draws, the matrix product and the
+        kernel's array operations); 1 (default) runs in the calling thread. Same numbers for any value.
 
     Returns
     -------
@@ -585,45 +637,58 @@ def propagate(
     store = []
     for path, c in zip(paths, compiled):
         chem = ~c.electrochemical
+        eq_affine = compile_steps((path.overall_step(),), (), table.scheme).affine(np.zeros((1, 0)), pH, sc, temperature)
         store.append({
             "U_L": np.empty((N, S)), "G": np.empty((N, S)), "det": np.empty((N, S), dtype=np.int8),
             "gst": np.empty((N, S), dtype=np.int8), "blk": np.empty((N, S), dtype=bool),
             "chem": np.empty((N, S)) if chem.any() else None,
             "cmol": _molecule_matrix(path.steps, mols),
-            "eq_affine": compile_steps((path.overall_step(),), (), table.scheme).affine(np.zeros((1, 0)), pH, sc, temperature),
+            "eq_affine": eq_affine,
             "eq_mol": _molecule_matrix((path.overall_step(),), mols),
             "U_eq": np.empty(N) if mols else None,
+            "u_eq": float(kernel.equilibrium_potential_from_affine(*eq_affine)[0]) + 0.0,
+            # NaN can come only from missing table values or an ensemble that does not cover a species
+            "may_miss": bool(np.isnan(base[:, [species.index(x) for x in c.adsorbates]]).any()) or getattr(model, "kind", "") == "ensemble",
         })
     kept = {k: np.empty((N, S)) for k in keep}
-    kept_cols = {k: species.index(k) for k in keep}
+    stack = _stack(paths, compiled, cols, base, [species.index(k) for k in keep], pH, sc, temperature, mols)
+    if not isinstance(workers, (int, np.integer)) or isinstance(workers, bool) or workers < 1:
+        raise UncertaintyError(f"workers must be a positive integer, got {workers!r}")
     show = progress if progress is not None else N * S * len(paths) > PROGRESS_THRESHOLD
-    iterator = sampler.chunks(p)
+    starts = sampler.chunk_starts(p)
+    prepared = sampler.prepare(p)
+    bar = None
     if show:
         from tqdm.auto import tqdm
 
-        iterator = tqdm(iterator, total=p.n_chunks, desc="propagating samples", unit="chunk")
-    if not isinstance(workers, (int, np.integer)) or isinstance(workers, bool) or workers < 1:
-        raise UncertaintyError(f"workers must be a positive integer, got {workers!r}")
-    groups = _balanced_groups([len(pth.steps) for pth in paths], int(workers))
+        bar = tqdm(total=p.n_chunks, desc="propagating samples", unit="chunk")
     with _single_threaded_blas():
-        if len(groups) == 1:
-            for ch in iterator:
-                _propagate_chunk(ch, base, paths, compiled, cols, store, kept, kept_cols, pH, sc, temperature)
+        if int(workers) == 1:
+            buffers: dict = {}
+            for start in starts:
+                _propagate_chunk(sampler.chunk_at(p, start, prepared), stack, store, kept, keep, buffers)
+                if bar is not None:
+                    bar.update(1)
         else:
+            import threading
             from concurrent.futures import ThreadPoolExecutor
 
-            def part(ch, idx):
-                sel = lambda seq: [seq[i] for i in idx]  # noqa: E731
-                _propagate_chunk(ch, base, sel(paths), sel(compiled), sel(cols), sel(store), kept if idx == groups[0] else {},
-                                 kept_cols if idx == groups[0] else {}, pH, sc, temperature)
+            local = threading.local()
 
-            with ThreadPoolExecutor(max_workers=len(groups)) as pool:
-                for ch in iterator:
-                    for f in [pool.submit(part, ch, idx) for idx in groups]:
-                        f.result()
+            def work(start):  # chunks are independent and write disjoint rows of the results
+                if not hasattr(local, "buffers"):
+                    local.buffers = {}
+                _propagate_chunk(sampler.chunk_at(p, start, prepared), stack, store, kept, keep, local.buffers)
+
+            with ThreadPoolExecutor(max_workers=int(workers)) as pool:
+                for _ in pool.map(work, starts):
+                    if bar is not None:
+                        bar.update(1)
+    if bar is not None:
+        bar.close()
     results = {}
     for path, st in zip(paths, store):
-        u_eq = st["U_eq"] if st["U_eq"] is not None else float(kernel.equilibrium_potential_from_affine(*st["eq_affine"])[0]) + 0.0
+        u_eq = st["U_eq"] if st["U_eq"] is not None else st["u_eq"]
         results[path.name] = PathwaySamples(path, st["U_L"], u_eq, st["G"], st["det"], st["gst"], st["blk"], st["chem"])
     conditions = {
         "scale": sc, "pH": float(pH), "temperature": float(temperature),

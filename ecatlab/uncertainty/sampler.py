@@ -26,12 +26,12 @@ import numpy as np
 from ecatlab.errors import UncertaintyError
 from ecatlab.uncertainty.models import EnsembleErrors, ErrorModel, _Parametric
 
-__all__ = ["BLOCK", "DEFAULT_CHUNK", "SampleChunk", "SamplePlan", "plan", "chunks", "covariance_factor"]
+__all__ = ["BLOCK", "DEFAULT_CHUNK", "SampleChunk", "SamplePlan", "plan", "chunks", "chunk_at", "chunk_starts", "prepare", "covariance_factor"]
 
 #: Samples per independently seeded block.
 BLOCK = 10
-#: Floating type of the Gaussian draws and deviations (single precision: about 1e-7 relative, far
-#: below any energy error it models; halves memory traffic). Central values stay float64.
+#: Floating type of the standard-normal draws (single precision draws faster; each draw is then
+#: exact in float64, and every product with the covariance factor is float64).
 DTYPE = np.float32
 #: Default chunk: the number of samples per chunk is chosen so a chunk holds about this many
 #: (sample, surface, species) values (~10 MB of float32, small enough to stay in cache-friendly sizes).
@@ -56,23 +56,111 @@ def covariance_factor(cov: np.ndarray) -> np.ndarray:
 class SampleChunk:
     """One chunk of samples.
 
+    The adsorbate deviations (eV) are held in factored form,
+    :math:`\\delta = z F + z_c F_c` (rows of ``own`` are (sample, surface) pairs; ``shared`` is one
+    row per sample, common to all surfaces), so that any linear map of them -- the step free
+    energies of all pathways, a kept species -- is one matrix product of the draws
+    (:meth:`add_linear`) and the (c, S, A) deviations exist only when asked for (:attr:`adsorbates`).
+    Ensembles carry their deviations in ``own`` with ``factor`` None.
+
     Attributes
     ----------
     start : int
         Index of the first sample of the chunk.
-    adsorbates : ndarray (c, n_surfaces, n_species)
-        Deviations (eV).
+    own : ndarray (c, n_surfaces, n_species), float64
+        Gaussian models: independent standard normals; ensembles: the members' deviations (eV).
+    factor : ndarray (n_species, n_species) or None
+        F (eV): deviations = own @ F (+ shared part).
+    shared : ndarray (c, n_species) or None
+        Standard normals shared by all surfaces (surface correlation > 0).
+    shared_factor : ndarray (n_species, n_species) or None
+        F_c (eV) of the shared draws.
     molecules : ndarray (c, n_molecules)
         Deviations of the non-reference molecules (eV).
     """
 
     start: int
-    adsorbates: np.ndarray
+    own: np.ndarray
+    factor: np.ndarray | None
+    shared: np.ndarray | None
+    shared_factor: np.ndarray | None
     molecules: np.ndarray
 
     @property
     def size(self) -> int:
-        return int(self.adsorbates.shape[0])
+        return int(self.own.shape[0])
+
+    @property
+    def adsorbates(self) -> np.ndarray:
+        """Deviations of the adsorbates, (c, n_surfaces, n_species), eV (float64)."""
+        if self.factor is None:
+            return self.own
+        c, S, A = self.own.shape
+        out = (self.own.reshape(-1, A) @ self.factor).reshape(c, S, A)
+        if self.shared is not None:
+            out += (self.shared @ self.shared_factor)[:, None, :]
+        return out
+
+    def shared_linear(self, matrix: np.ndarray) -> np.ndarray | None:
+        """The part of ``deviations @ matrix`` shared by all surfaces, (c, P), or None when there is none."""
+        if self.shared is None:
+            return None
+        return self.shared @ (self.shared_factor @ np.asarray(matrix, dtype=float))
+
+    def add_linear(self, matrix: np.ndarray, out: np.ndarray, shared: bool = True) -> None:
+        """Add ``deviations @ matrix`` to ``out``, laid out with the mapped axis first.
+
+        Parameters
+        ----------
+        matrix : ndarray (n_species, P)
+            A linear map of the adsorbate deviations (e.g. species -> step stoichiometry), eV/eV.
+        out : ndarray (P, c, n_surfaces), float64, C-contiguous
+            Accumulated in place: ``out[p, k, s] += sum_j delta[k, s, j] * matrix[j, p]``.
+            A NaN deviation (an ensemble that does not cover a species) makes NaN only the
+            outputs whose column of ``matrix`` uses that species.
+        shared : bool
+            Include the part shared by all surfaces; False when the caller has added
+            :meth:`shared_linear` itself (e.g. together with other per-sample terms, in one pass).
+        """
+        c, S, A = self.own.shape
+        P = matrix.shape[1]
+        if A == 0 or P == 0:
+            return
+        m = np.asarray(matrix, dtype=float)
+        own = self.own.reshape(-1, A)
+        holes = None
+        if self.factor is None:
+            if np.isnan(own).any():
+                holes = np.isnan(own)
+                own = np.where(holes, 0.0, own)
+            eff = m
+        else:
+            if not np.any(self.factor) and (self.shared is None or not np.any(self.shared_factor)):
+                return  # zero variance: nothing to add, the central values stay exact
+            eff = self.factor @ m
+        _accumulate_product(own, eff, out.reshape(P, -1))
+        if shared and self.shared is not None:
+            out += self.shared_linear(m).T[:, :, None]
+        if holes is not None:
+            hit = (holes.astype(float) @ (m != 0).astype(float)) > 0  # (c*S, P)
+            out.reshape(P, -1)[hit.T] = np.nan
+
+
+def _accumulate_product(x: np.ndarray, m: np.ndarray, out_t: np.ndarray) -> None:
+    """out_t += (x @ m).T for x (R, A) C-contiguous, m (A, P), out_t (P, R) C-contiguous.
+
+    One BLAS dgemm with beta = 1 that writes into ``out_t`` in place (no (R, P) temporary); numpy's
+    matmul plus an addition when scipy's BLAS wrapper is unavailable."""
+    x = np.ascontiguousarray(x, dtype=float)
+    try:
+        from scipy.linalg.blas import dgemm
+    except ImportError:  # pragma: no cover - scipy is a dependency
+        out_t += m.T @ x.T
+        return
+    # column-major view: out_t.T is (R, P) Fortran-ordered, x.T is (A, R) Fortran-ordered
+    res = dgemm(1.0, x.T, np.asfortranarray(m), beta=1.0, c=out_t.T, trans_a=1, overwrite_c=1)
+    if not np.shares_memory(res, out_t):  # pragma: no cover - the wrapper copied: write back
+        out_t[...] = res.T
 
 
 @dataclass(frozen=True)
@@ -144,47 +232,62 @@ def _rng(seed: int, block: int) -> np.random.Generator:
     return np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(block,)))
 
 
+def chunk_starts(p: SamplePlan) -> range:
+    """Index of the first sample of every chunk of a plan."""
+    return range(0, p.n_samples, p.chunk_size)
+
+
 def chunks(p: SamplePlan) -> Iterator[SampleChunk]:
     """Yield the samples of a plan chunk by chunk (see the module docstring for the recipe)."""
+    prepared = prepare(p)
+    for start in chunk_starts(p):
+        yield chunk_at(p, start, prepared)
+
+
+def prepare(p: SamplePlan) -> tuple:
+    """What every chunk of a plan shares (covariance factors, the ensemble's selected members);
+    computed once and passed to :func:`chunk_at`."""
     model = p.model
-    S, A, M = len(p.surfaces), len(p.species), len(p.molecules)
     if isinstance(model, EnsembleErrors):
-        dev = model.select(p.surfaces, p.species)
-        mdev = model.molecule_select(p.molecules)
-        for start in range(0, p.n_samples, p.chunk_size):
-            stop = min(start + p.chunk_size, p.n_samples)
-            if p.members == "all":
-                idx = np.arange(start, stop)
-            else:
-                idx = np.concatenate([
-                    _rng(p.seed, b).integers(0, model.members, size=min(BLOCK, p.n_samples - b * BLOCK))
-                    for b in range(start // BLOCK, -(-stop // BLOCK))
-                ])
-            ads = dev[idx]
-            yield SampleChunk(start, ads, mdev[idx])
-        return
+        return ("ensemble", model.select(p.surfaces, p.species), model.molecule_select(p.molecules))
+    A, M = len(p.species), len(p.molecules)
     L = covariance_factor(model.species_covariance(p.species)) if A else np.zeros((0, 0))
     Lm = covariance_factor(model.molecule_covariance(p.molecules)) if M else np.zeros((0, 0))
-    Lt = np.ascontiguousarray(L.T, dtype=DTYPE)
     rho = float(model.surface_correlation)
-    w_own, w_shared = DTYPE(np.sqrt(1.0 - rho)), DTYPE(np.sqrt(rho))
-    zero = not np.any(L)
-    for start in range(0, p.n_samples, p.chunk_size):
-        stop = min(start + p.chunk_size, p.n_samples)
-        ads = np.empty((stop - start, S, A), dtype=DTYPE)
-        mol = np.empty((stop - start, M))
-        for b in range(start // BLOCK, -(-stop // BLOCK)):
-            lo, hi = b * BLOCK, min((b + 1) * BLOCK, p.n_samples)
-            rng = _rng(p.seed, b)
-            z = rng.standard_normal((hi - lo, S, A), dtype=DTYPE)
-            if rho > 0.0:
-                z *= w_own
-                z += w_shared * rng.standard_normal((hi - lo, 1, A), dtype=DTYPE)
-            zm = rng.standard_normal((hi - lo, M))
-            target = ads[lo - start:hi - start]
-            if zero:
-                target[...] = 0.0
-            else:  # one 2-D product (a batched 3-D matmul is many times slower)
-                np.matmul(z.reshape(-1, A), Lt, out=target.reshape(-1, A))
-            mol[lo - start:hi - start] = zm @ Lm.T if M else zm
-        yield SampleChunk(start, ads, mol)
+    factor = np.sqrt(1.0 - rho) * L.T
+    shared_factor = np.sqrt(rho) * L.T if rho > 0.0 else None
+    return ("gaussian", factor, shared_factor, Lm)
+
+
+def chunk_at(p: SamplePlan, start: int, prepared: tuple | None = None) -> SampleChunk:
+    """The chunk of a plan that begins at sample ``start`` (one of :func:`chunk_starts`).
+
+    Chunks are independent of each other (each draws its own seeded blocks), so they can be
+    drawn in any order or in parallel; ``prepared`` is :func:`prepare` of the plan (computed
+    when not given)."""
+    prepared = prepare(p) if prepared is None else prepared
+    S, A, M = len(p.surfaces), len(p.species), len(p.molecules)
+    stop = min(start + p.chunk_size, p.n_samples)
+    if prepared[0] == "ensemble":
+        _, dev, mdev = prepared
+        if p.members == "all":
+            idx = np.arange(start, stop)
+        else:
+            idx = np.concatenate([
+                _rng(p.seed, b).integers(0, p.model.members, size=min(BLOCK, p.n_samples - b * BLOCK))
+                for b in range(start // BLOCK, -(-stop // BLOCK))
+            ])
+        return SampleChunk(start, np.asarray(dev[idx], dtype=float), None, None, None, mdev[idx])
+    _, factor, shared_factor, Lm = prepared
+    own = np.empty((stop - start, S, A))
+    shared = np.empty((stop - start, A)) if shared_factor is not None else None
+    mol = np.empty((stop - start, M))
+    for b in range(start // BLOCK, -(-stop // BLOCK)):
+        lo, hi = b * BLOCK, min((b + 1) * BLOCK, p.n_samples)
+        rng = _rng(p.seed, b)
+        own[lo - start:hi - start] = rng.standard_normal((hi - lo, S, A), dtype=DTYPE)  # exact in float64
+        if shared is not None:
+            shared[lo - start:hi - start] = rng.standard_normal((hi - lo, A), dtype=DTYPE)
+        zm = rng.standard_normal((hi - lo, M))
+        mol[lo - start:hi - start] = zm @ Lm.T if M else zm
+    return SampleChunk(start, own, factor, shared, shared_factor, mol)
