@@ -80,6 +80,9 @@ class PathwaySamples:
     G_max_step : ndarray int8, 0-based step index (-1 where missing)
     blocked : ndarray bool
     max_chemical_dG : ndarray float64, eV, or None when the pathway has no chemical step
+    G_max_is_overpotential : bool
+        True when the G_max samples are, number for number, the overpotential samples (every step
+        electrochemical with one electron; ``kernel.stacked_measures``), so statistics are shared.
     """
 
     pathway: Pathway
@@ -90,6 +93,7 @@ class PathwaySamples:
     G_max_step: np.ndarray
     blocked: np.ndarray
     max_chemical_dG: np.ndarray | None
+    G_max_is_overpotential: bool = False
 
     @property
     def overpotential(self) -> np.ndarray:
@@ -114,9 +118,14 @@ class PathwaySamples:
             return getattr(self, name)
         raise UncertaintyError(f"unknown quantity {name!r}; use one of {list(QUANTITY_UNITS)}")
 
+    def order(self) -> np.ndarray:
+        """Surfaces best first in every sample, (samples, surfaces) positions, by the kernel's ranking rule
+        (:func:`kernel.ranking_order_rows`, the same positions as :func:`kernel.ranking_order`)."""
+        return kernel.ranking_order_rows(self.G_max, self.blocked)
+
     def ranks(self) -> np.ndarray:
         """Rank of every surface in every sample (0 = best), by :func:`kernel.ranking_order`."""
-        order = kernel.ranking_order(self.G_max, self.blocked)  # lexsort along the surface axis
+        order = self.order()
         ranks = np.empty_like(order)
         np.put_along_axis(ranks, order, np.broadcast_to(np.arange(order.shape[-1]), order.shape), axis=-1)
         return ranks
@@ -171,10 +180,16 @@ class UncertaintyResult:
         return out
 
     def _det(self, path: str) -> pd.DataFrame:
-        d = self.deterministic
-        d = d[(d["pathway"] == path).to_numpy()].copy()
-        d["surface"] = d["surface"].astype(str)
-        return d.set_index("surface").reindex(list(self.surfaces))
+        """The deterministic rows of one pathway, indexed by surface in the result's order (cached;
+        the table's attrs are left behind so that pandas does not copy them at every step)."""
+        cache = self.__dict__.setdefault("_det_cache", {})  # frozen dataclass: the cache lives in __dict__
+        if path not in cache:
+            d = self.deterministic.copy(deep=False)
+            d.attrs = {}
+            d = d[(d["pathway"] == path).to_numpy()].copy()
+            d["surface"] = d["surface"].astype(str)
+            cache[path] = d.set_index("surface").reindex(list(self.surfaces))
+        return cache[path]
 
     # -- tables ---------------------------------------------------------------------------------
     def summary(self, quantities: Sequence[str] = ("limiting_potential", "overpotential", "G_max", "max_chemical_dG"),
@@ -195,24 +210,44 @@ class UncertaintyResult:
         if not 0.0 < float(interval) < 1.0:
             raise UncertaintyError(f"interval must lie strictly between 0 and 1, got {interval!r}")
         lo_q, hi_q = 50.0 * (1.0 - interval), 50.0 * (1.0 + interval)
-        frames = []
+        unknown = [q for q in quantities if q not in QUANTITY_UNITS]
+        if unknown:
+            raise UncertaintyError(f"unknown quantity {unknown[0]!r}; use one of {list(QUANTITY_UNITS)}")
         scale = self.conditions.get("scale", "RHE")
+        S = len(self.surfaces)
+        cols: dict[str, list] = {k: [] for k in ("deterministic", "mean", "std", "median", "low", "high", "p_blocked")}
+        labels: list[tuple[str, str]] = []
+        n = self.n_samples
         for name, ps in self.results.items():
             det = self._det(name)
+            stats = _PathwayStats(ps, (lo_q, 50.0, hi_q))
+            p_blocked = ps.blocked.mean(axis=0)
+            n = ps.limiting_potential.shape[0]
             for q in quantities:
-                x = ps.quantity(q)
-                unit = QUANTITY_UNITS[q].format(scale=scale)
-                with np.errstate(invalid="ignore"):
-                    lo, med, hi = np.percentile(x, [lo_q, 50.0, hi_q], axis=0)
-                    std = x.std(axis=0, ddof=1) if x.shape[0] > 1 else np.zeros(x.shape[1])
-                frames.append(pd.DataFrame({
-                    "pathway": name, "surface": list(self.surfaces), "quantity": q, "unit": unit,
-                    "deterministic": det[q].to_numpy(dtype=float) if q in det.columns else np.nan,
-                    "mean": x.mean(axis=0), "std": std, "mean_se": std / np.sqrt(x.shape[0]),
-                    "median": med, "low": lo, "high": hi, "p_blocked": ps.blocked.mean(axis=0),
-                    "samples": x.shape[0],
-                }))
-        out = pd.concat(frames, ignore_index=True)
+                mean, std, (lo, med, hi) = stats.get(q)
+                labels.append((name, q))
+                for k, v in (("deterministic", det[q].to_numpy(dtype=float) if q in det.columns else np.full(S, np.nan)),
+                             ("mean", mean), ("std", std), ("median", med), ("low", lo), ("high", hi), ("p_blocked", p_blocked)):
+                    cols[k].append(v)
+        blocks = len(labels)
+        # one frame built once (labels repeated with numpy; no per-block frames to concatenate)
+        surfaces = np.tile(np.array(self.surfaces, dtype=object), blocks)
+        std_all = np.concatenate(cols["std"]) if blocks else np.zeros(0)
+        out = pd.DataFrame({
+            "pathway": np.repeat(np.array([p for p, _ in labels], dtype=object), S),
+            "surface": surfaces,
+            "quantity": np.repeat(np.array([q for _, q in labels], dtype=object), S),
+            "unit": np.repeat(np.array([QUANTITY_UNITS[q].format(scale=scale) for _, q in labels], dtype=object), S),
+            "deterministic": np.concatenate(cols["deterministic"]) if blocks else np.zeros(0),
+            "mean": np.concatenate(cols["mean"]) if blocks else np.zeros(0),
+            "std": std_all,
+            "mean_se": std_all / np.sqrt(n),
+            "median": np.concatenate(cols["median"]) if blocks else np.zeros(0),
+            "low": np.concatenate(cols["low"]) if blocks else np.zeros(0),
+            "high": np.concatenate(cols["high"]) if blocks else np.zeros(0),
+            "p_blocked": np.concatenate(cols["p_blocked"]) if blocks else np.zeros(0),
+            "samples": n,
+        })
         out.attrs.update(self._attrs("uncertainty summary", SUMMARY_COLUMNS))
         out.attrs["interval"] = f"central {100 * interval:g}% ({lo_q:g}th to {hi_q:g}th percentile)"
         out.attrs["units"] = {q: QUANTITY_UNITS[q].format(scale=scale) for q in quantities}
@@ -234,8 +269,8 @@ class UncertaintyResult:
         for name, ps in self.results.items():
             steps = ps.pathway.steps
             k = np.arange(len(steps))
-            p = (ps.determining_step[..., None] == k).mean(axis=0)
-            pg = (ps.G_max_step[..., None] == k).mean(axis=0)
+            p = _step_frequencies(ps.determining_step, len(steps))
+            pg = _step_frequencies(ps.G_max_step, len(steps))
             det = self._det(name)["determining_step_index"].to_numpy()
             S = len(self.surfaces)
             frames.append(pd.DataFrame({
@@ -272,10 +307,11 @@ class UncertaintyResult:
         top = int(top)
         if top < 1:
             raise UncertaintyError(f"top must be >= 1, got {top}")
-        ranks = ps.ranks()
-        n = ranks.shape[0]
-        p_best = (ranks == 0).mean(axis=0)
-        p_top = (ranks < top).mean(axis=0)
+        order = ps.order()
+        n, S = order.shape
+        p_best = np.bincount(order[:, 0], minlength=S) / n
+        p_top = np.bincount(order[:, :top].ravel(), minlength=S) / n
+        rank_sum = np.bincount(order.ravel(), weights=np.broadcast_to(np.arange(S, dtype=float), order.shape).ravel(), minlength=S)
         det = self._det(ps.pathway.name)
         det_order = kernel.ranking_order(det["G_max"].to_numpy(dtype=float), det["blocked"].to_numpy(dtype=bool))
         det_rank = np.empty(len(det_order), dtype=int)
@@ -283,7 +319,7 @@ class UncertaintyResult:
         out = pd.DataFrame({
             "p_best": p_best, "p_best_se": np.sqrt(p_best * (1 - p_best) / n),
             f"p_top{top}": p_top, f"p_top{top}_se": np.sqrt(p_top * (1 - p_top) / n),
-            "mean_rank": ranks.mean(axis=0) + 1.0, "deterministic_rank": det_rank + 1,
+            "mean_rank": rank_sum / n + 1.0, "deterministic_rank": det_rank + 1,
             "p_blocked": ps.blocked.mean(axis=0),
         }, index=pd.Index(list(self.surfaces), name="surface"))
         out = out.sort_values(["p_best", "mean_rank"], ascending=[False, True], kind="stable")
@@ -416,6 +452,94 @@ class UncertaintyResult:
         )
 
 
+def _step_frequencies(index: np.ndarray, n_steps: int) -> np.ndarray:
+    """Fraction of the samples (axis 0) in which each step index occurs, per surface: (surfaces, steps).
+
+    One comparison per step over the int8 index array (no (samples, surfaces, steps) temporary)."""
+    out = np.empty((index.shape[1], n_steps))
+    for k in range(n_steps):
+        out[:, k] = (index == k).sum(axis=0, dtype=np.int32 if index.shape[0] < 2**31 else np.int64)
+    return out / index.shape[0]
+
+
+def _percentiles_of_sorted(xs: np.ndarray, qs: Sequence[float]) -> list[np.ndarray]:
+    """Percentiles along the last axis of an array sorted along it, as ``np.percentile``
+    (method "linear": virtual index (n - 1) q / 100, numpy's two-sided linear interpolation)."""
+    n = xs.shape[-1]
+    out = []
+    for q in qs:
+        h = (n - 1) * (q / 100.0)
+        lo = int(np.floor(h))
+        hi = min(lo + 1, n - 1)
+        t = h - lo
+        a, b = xs[..., lo], xs[..., hi]
+        diff = b - a
+        out.append(b - diff * (1.0 - t) if t >= 0.5 else a + diff * t)
+    return out
+
+
+class _PathwayStats:
+    """Mean, standard deviation (ddof=1) and percentiles of one pathway's sampled quantities over
+    the samples, per surface.
+
+    Each distinct array is sorted once, surface by surface (a transposed copy, so every surface's
+    samples are contiguous). The overpotential is the kernel's monotonic map of U_L
+    (:func:`ecatlab.che.kernel.signed_overpotential`) when U_eq is the same in every sample, so its
+    sorted samples are the mapped sorted U_L; G_max reuses them when its samples equal the
+    overpotential's (one-electron steps and no chemical step). A surface with any NaN sample gets
+    NaN statistics, as ``np.percentile`` gives."""
+
+    def __init__(self, ps: "PathwaySamples", qs: Sequence[float]) -> None:
+        self.ps, self.qs, self.cache = ps, tuple(qs), {}
+
+    def _from_sorted(self, xs: np.ndarray, bad: np.ndarray) -> tuple:
+        n = xs.shape[-1]
+        with np.errstate(invalid="ignore"):
+            mean = xs.mean(axis=-1)
+            if n > 1:  # two-pass variance, ddof=1: sum of squared deviations without a squared temporary
+                d = xs - mean[:, None]
+                std = np.sqrt(np.einsum("ij,ij->i", d, d) / (n - 1))
+            else:
+                std = np.zeros(xs.shape[0])
+        pct = _percentiles_of_sorted(xs, self.qs)
+        if bad.any():
+            for arr in (mean, std, *pct):
+                arr[bad] = np.nan
+        return mean, std, pct
+
+    def _sorted(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        xs = np.ascontiguousarray(np.asarray(x, dtype=float).T)  # (surfaces, samples)
+        xs.sort(axis=-1)  # NaN last
+        return xs, np.isnan(xs[:, -1])
+
+    def get(self, q: str) -> tuple:
+        if q in self.cache:
+            return self.cache[q]
+        ps = self.ps
+        if q == "max_chemical_dG" and ps.max_chemical_dG is None:
+            S = ps.limiting_potential.shape[1]
+            res = (np.full(S, np.nan), np.full(S, np.nan), [np.full(S, np.nan) for _ in self.qs])
+        elif q == "overpotential" and np.ndim(ps.equilibrium_potential) == 0:
+            xs, bad = self._sorted_ul()
+            eta = kernel.signed_overpotential(xs, ps.equilibrium_potential, ps.pathway.direction)
+            if ps.pathway.direction == "reduction":  # decreasing map: reverse, NaN rows are masked below
+                eta = eta[:, ::-1]
+            res = self._from_sorted(eta, bad)
+        elif q == "G_max" and ps.G_max_is_overpotential:
+            res = self.get("overpotential")
+        elif q == "limiting_potential":
+            res = self._from_sorted(*self._sorted_ul())
+        else:
+            res = self._from_sorted(*self._sorted(ps.quantity(q)))
+        self.cache[q] = res
+        return res
+
+    def _sorted_ul(self) -> tuple[np.ndarray, np.ndarray]:
+        if "_ul" not in self.cache:
+            self.cache["_ul"] = self._sorted(self.ps.limiting_potential)
+        return self.cache["_ul"]
+
+
 def _molecule_matrix(steps, molecules: Sequence[str]) -> np.ndarray | None:
     """Net coefficient of each error-carrying molecule in each step (n_steps, n_molecules); None if none."""
     if not molecules:
@@ -524,6 +648,7 @@ def _propagate_chunk(ch, stack: _Stack, store, kept, kept_names, buffers: dict) 
                      "G_max_step": st["gst"][rows], "max_chemical_dG": st["chem"][rows] if st["chem"] is not None else None})
     results = kernel.stacked_measures(a[:P], stack.electrons, stack.bounds, stack.directions, u_eqs, out=outs)
     for st, res in zip(store, results):
+        st["g_is_eta"] = res["G_max_is_overpotential"]
         if res["max_chemical_dG"] is not None:
             st["blk"][rows] = kernel.is_blocked(res["max_chemical_dG"])
         else:
@@ -648,6 +773,7 @@ def propagate(
             "U_eq": np.empty(N) if mols else None,
             "u_eq": float(kernel.equilibrium_potential_from_affine(*eq_affine)[0]) + 0.0,
             # NaN can come only from missing table values or an ensemble that does not cover a species
+            "g_is_eta": False,
             "may_miss": bool(np.isnan(base[:, [species.index(x) for x in c.adsorbates]]).any()) or getattr(model, "kind", "") == "ensemble",
         })
     kept = {k: np.empty((N, S)) for k in keep}
@@ -689,7 +815,8 @@ def propagate(
     results = {}
     for path, st in zip(paths, store):
         u_eq = st["U_eq"] if st["U_eq"] is not None else st["u_eq"]
-        results[path.name] = PathwaySamples(path, st["U_L"], u_eq, st["G"], st["det"], st["gst"], st["blk"], st["chem"])
+        results[path.name] = PathwaySamples(path, st["U_L"], u_eq, st["G"], st["det"], st["gst"], st["blk"], st["chem"],
+                                            st["g_is_eta"])
     conditions = {
         "scale": sc, "pH": float(pH), "temperature": float(temperature),
         "references": table.scheme.describe(), "energy_source": table.source,
