@@ -169,3 +169,103 @@ def test_no_module_outside_the_kernel_rederives_the_primitives():
             if re.search(pat, text):
                 offenders.append(f"{path.relative_to(root)}: {pat}")
     assert offenders == []
+
+
+# -- batched forms for many rows (uncertainty samples) -----------------------------------------------
+_STACK_CASES = [  # (electrons consumed per step, direction)
+    (np.array([1.0, 1.0, 1.0, 1.0]), "reduction"),  # ORR 4e-
+    (np.array([0.0, 1.0, 1.0, 1.0, 1.0]), "reduction"),  # chemical step first (dissociative ORR)
+    (np.array([-1.0, -1.0, -1.0, -1.0]), "oxidation"),  # OER
+    (np.array([1.0, 1.0, 0.0]), "reduction"),  # Volmer-Tafel: chemical step last
+    (np.array([2.0, 1.0, 0.0, 3.0]), "reduction"),  # several electrons: the division path
+    (np.array([-1.0, 0.0, -2.0]), "oxidation"),
+    (np.array([1.0, 0.0, 1.0]), "reduction"),  # chemical step in the middle
+    (np.array([1.0, -1.0, 1.0]), "reduction"),  # an electrochemical step against the direction
+]
+
+
+def _stacked_reference(a_rows, n, direction, u_eq):
+    """The single-pathway kernel functions on the same numbers (steps moved to the last axis)."""
+    a = np.moveaxis(a_rows, 0, -1)
+    u_b = u_eq if np.ndim(u_eq) == 0 else np.asarray(u_eq)[..., None]
+    return kernel.envelope(a, n, direction), kernel.gmax(a, n, u_b), kernel.chemical_obstacle(a, n)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_stacked_measures_equal_envelope_gmax_and_chemical_obstacle_bit_for_bit(seed):
+    # the batched function must give the very numbers of the single-pathway functions (exactness, not a tolerance)
+    rng = np.random.default_rng(seed)
+    ns = [c[0] for c in _STACK_CASES]
+    dirs = [c[1] for c in _STACK_CASES]
+    n = np.concatenate(ns)
+    bounds = np.concatenate([[0], np.cumsum([len(x) for x in ns])])
+    a = rng.normal(0.0, 1.0, (len(n), 6, 40))
+    a[:, 2, 3] = np.nan  # a missing surface: NaN in every step
+    a[:, 4, 5] = 0.25  # ties: every step equal, the first step must win as with argmin/argmax
+    u_eqs = [1.23, np.full((6, 1), 0.5), 1.23, 0.0, 0.3, -0.2, np.linspace(0, 1, 6)[:, None], 0.7]
+    results = kernel.stacked_measures(a, n, bounds, dirs, u_eqs)
+    for j, (nj, d) in enumerate(zip(ns, dirs)):
+        (u, i), (g, gi), (c, ci) = _stacked_reference(a[bounds[j]:bounds[j + 1]], nj, d, u_eqs[j])
+        r = results[j]
+        ok = ~np.isnan(u)
+        assert np.array_equal(u, r["U_L"], equal_nan=True)
+        assert np.array_equal(i[ok], r["step"][ok])
+        assert np.array_equal(g, r["G_max"], equal_nan=True)
+        assert np.array_equal(gi[ok], r["G_max_step"][ok])
+        if (nj == 0).any():
+            assert np.array_equal(c, r["max_chemical_dG"], equal_nan=True)
+            assert np.array_equal(ci[ok], r["chemical_step"][ok])
+        else:
+            assert r["max_chemical_dG"] is None
+        assert r["G_max_is_overpotential"] == bool(np.all(nj == (1.0 if d == "reduction" else -1.0)))
+
+
+def test_stacked_measures_writes_into_given_arrays_and_checks_its_input():
+    n = np.array([1.0, 1.0, 0.0])
+    a = np.array([[0.1, -0.2], [0.4, 0.3], [0.2, -0.1]])
+    out = [{"U_L": np.empty(2), "step": np.empty(2, dtype=np.int8), "max_chemical_dG": np.empty(2)}]
+    res = kernel.stacked_measures(a, n, [0, 3], ["reduction"], [0.0], out=out)
+    assert res[0]["U_L"] is out[0]["U_L"] and res[0]["max_chemical_dG"] is out[0]["max_chemical_dG"]
+    np.testing.assert_array_equal(out[0]["U_L"], [-0.4, -0.3])  # U_L = min(-a_i/n_i) over the electrochemical steps
+    np.testing.assert_array_equal(out[0]["step"], [1, 1])
+    np.testing.assert_array_equal(out[0]["max_chemical_dG"], [0.2, -0.1])
+    with pytest.raises(ValueError, match="bounds"):
+        kernel.stacked_measures(a, n, [0, 2], ["reduction"], [0.0])
+    with pytest.raises(ValueError, match="direction"):
+        kernel.stacked_measures(a, n, [0, 3], ["sideways"], [0.0])
+    with pytest.raises(ValueError, match="electrochemical"):
+        kernel.stacked_measures(a, np.zeros(3), [0, 3], ["reduction"], [0.0])
+
+
+def test_stacked_measures_on_the_scaling_limited_orr_optimum():
+    # Man et al., ChemCatChem 3, 1159 (2011): with dG(OOH*) = dG(OH*) + 3.2 eV the best ORR catalyst has
+    # dG(OH*) = 0.86 eV and overpotential ~0.37 V (U_eq 1.23 V); here dG(O*) = 2 dG(OH*) puts the O* step on the line
+    oh = np.linspace(0.0, 2.0, 2001)
+    o, ooh = 2 * oh, oh + 3.2
+    g_o2 = 4 * 1.23  # O2 + 4 (H+ + e-) -> 2 H2O at U = 0 V vs RHE, eV (U_eq = 1.23 V, textbook value)
+    a = np.stack([ooh - g_o2, o - ooh, oh - o, -oh])  # steps O2 -> OOH* -> O* -> OH* -> H2O
+    (res,) = kernel.stacked_measures(a, np.ones(4), [0, 4], ["reduction"], [1.23])
+    eta = res["G_max"]  # one-electron steps: G_max = e * eta (Exner 2020)
+    assert eta.min() == pytest.approx(0.37, abs=0.005)
+    assert oh[eta.argmin()] == pytest.approx(0.86, abs=0.011)
+
+
+def test_ranking_order_rows_equals_ranking_order():
+    # same positions as the lexicographic rule, including exact ties, -0.0 and +0.0, missing data,
+    # and values closer than the packed key can tell apart (1e-15 eV apart)
+    rng = np.random.default_rng(3)
+    for trial in range(150):
+        N, S = int(rng.integers(1, 25)), int(rng.integers(1, 40))
+        kind = trial % 3
+        if kind == 0:
+            g = rng.normal(0.0, 1.0, (N, S))
+        elif kind == 1:
+            g = rng.integers(-3, 3, (N, S)).astype(float)  # many exact ties
+        else:
+            g = 1.0 + rng.integers(0, 3, (N, S)) * 1e-15  # cut ties: re-ranked exactly
+        g[rng.random((N, S)) < 0.1] = np.nan
+        g[rng.random((N, S)) < 0.05] = -0.0
+        b = rng.random((N, S)) < 0.3
+        np.testing.assert_array_equal(kernel.ranking_order_rows(g, b), kernel.ranking_order(g, b))
+    one = kernel.ranking_order_rows(np.array([0.3, np.nan, 0.1, 0.2]), np.array([False, False, False, True]))
+    assert list(one) == [2, 0, 3, 1]  # unblocked by G_max, then blocked, missing last
