@@ -458,7 +458,11 @@ def stacked_measures(a, n, bounds, directions, equilibrium_potentials, out=None)
         _to_pathway_index(step, ec - lo, contiguous)
         g, g_step = res["G_max"], res["G_max_step"]
         if unit:
-            np.copyto(g, signed_overpotential(u_l, u_eq, direction))  # max over the electrochemical steps
+            # max over the electrochemical steps = signed_overpotential(u_l, u_eq, direction), written in place
+            if direction == "reduction":
+                np.subtract(u_eq, u_l, out=g)
+            else:
+                np.subtract(u_l, u_eq, out=g)
             np.copyto(g_step, step)
         else:
             line = lambda i, o: np.add(a[ec[i]], n[ec[i]] * np.asarray(u_eq), out=o)  # noqa: E731 - as in gmax
@@ -534,14 +538,16 @@ def ranking_order_rows(g_max, blocked) -> np.ndarray:
     key |= np.arange(S, dtype=np.uint64)
     # the same group order as ranking_order: missing last, then blocked after unblocked
     if b.any():
-        key |= b.astype(np.uint64) << np.uint64(62)
+        key |= b.view(np.uint8).astype(np.uint64) << np.uint64(62)
     if any_missing:
-        key |= missing.astype(np.uint64) << np.uint64(63)
+        key |= missing.view(np.uint8).astype(np.uint64) << np.uint64(63)
     key.sort(axis=-1)
-    order = (key & np.uint64((1 << index_bits) - 1)).view(np.int64).astype(np.intp, copy=False)
     # equal packed values of different G_max (a cut tie): re-rank those rows exactly
     packed = key >> np.uint64(index_bits)
     near = packed[..., 1:] == packed[..., :-1]
+    del packed
+    key &= np.uint64((1 << index_bits) - 1)
+    order = key.view(np.int64)
     if near.any():
         rows = np.flatnonzero(near.reshape(-1, S - 1).any(axis=-1))
         flat_order = order.reshape(-1, S)

@@ -1,15 +1,18 @@
 r"""Propagation of energy errors through the CHE kernel, vectorised over samples.
 
-For every chunk of samples the sampled free energies :math:`G + \delta` (shape
-(samples, surfaces, adsorbates), eV) go through the same calls the deterministic engine makes:
-:meth:`ecatlab.che.CompiledPathway.affine` gives :math:`(a, n)` with
-:math:`\Delta G_i(U) = a_i + n_i U`, then :func:`ecatlab.che.kernel.envelope` (limiting potential
-and determining step), :func:`~ecatlab.che.kernel.signed_overpotential`,
-:func:`~ecatlab.che.kernel.gmax` (:math:`G_\mathrm{max}` at :math:`U_\mathrm{eq}`, Exner, ACS
-Catal. 10, 12607 (2020)), :func:`~ecatlab.che.kernel.chemical_obstacle` and
-:func:`~ecatlab.che.kernel.ranking_order`. The sample is just a leading array axis; no Python
-loop runs per sample. With zero deviations every number equals
-:func:`ecatlab.che.limiting_potentials`.
+For every chunk of samples, the step free energies :math:`a_i` (eV, at U = 0 V on the scale) of
+all steps of all pathways, for every (sample, surface) pair, are one array: the deterministic
+engine's values (:meth:`ecatlab.che.CompiledPathway.affine` on the table), plus the sampled
+deviations mapped through the stoichiometry (:math:`\delta a = \delta G\,S^T`, one matrix
+product of the draws, :meth:`ecatlab.uncertainty.sampler.SampleChunk.add_linear`), plus the
+molecules' deviations. :func:`ecatlab.che.kernel.stacked_measures` then gives the limiting
+potential and determining step (:func:`~ecatlab.che.kernel.envelope`), :math:`G_\mathrm{max}` at
+:math:`U_\mathrm{eq}` (:func:`~ecatlab.che.kernel.gmax`, Exner, ACS Catal. 10, 12607 (2020)) and
+the chemical-step measure (:func:`~ecatlab.che.kernel.chemical_obstacle`) of every pathway, the
+same numbers as those functions; :func:`~ecatlab.che.kernel.signed_overpotential`,
+:func:`~ecatlab.che.kernel.is_blocked` and :func:`~ecatlab.che.kernel.ranking_order_rows` follow.
+The sample is just an array axis; no Python loop runs per sample. With zero deviations every
+number equals :func:`ecatlab.che.limiting_potentials`.
 
 Results are theoretical estimates (CHE thermodynamics with the stated error model); they do not
 replace measurements, and any experiment follows local safety codes and licensed practice.
@@ -183,12 +186,15 @@ class UncertaintyResult:
         """The deterministic rows of one pathway, indexed by surface in the result's order (cached;
         the table's attrs are left behind so that pandas does not copy them at every step)."""
         cache = self.__dict__.setdefault("_det_cache", {})  # frozen dataclass: the cache lives in __dict__
-        if path not in cache:
+        if not cache:
             d = self.deterministic.copy(deep=False)
             d.attrs = {}
-            d = d[(d["pathway"] == path).to_numpy()].copy()
             d["surface"] = d["surface"].astype(str)
-            cache[path] = d.set_index("surface").reindex(list(self.surfaces))
+            names = list(self.surfaces)
+            for key, part in d.groupby("pathway", observed=True, sort=False):
+                cache[str(key)] = part.set_index("surface").reindex(names)
+        if path not in cache:
+            raise UncertaintyError(f"pathway {path!r} has no deterministic result; propagated: {self.pathways}")
         return cache[path]
 
     # -- tables ---------------------------------------------------------------------------------
