@@ -105,7 +105,9 @@ def main(n_surfaces: int = 1_000, n_samples: int = 2_000, loop_samples: int = 20
     import os
 
     print(f"load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores (timings on a shared machine are noisy)")
-    print(f"surfaces {n_surfaces}, samples {n_samples}, pathways {len(keys)}, species {len(species)}, propagate workers {workers}")
+    print(f"surfaces {n_surfaces}, samples {n_samples}, pathways {len(keys)}, species {len(species)} "
+          "(ILLUSTRATIVE random energies), propagate workers "
+          f"{workers}{' (not like for like: the loop runs one thread)' if workers > 1 else ''}")
     print(f"vectorised side: {t_vec:.2f} s wall, {c_vec:.2f} s CPU (propagate {t_prop:.2f} s wall / {c_prop:.2f} s CPU, "
           f"tables {t_vec - t_prop:.2f} s wall / {c_vec - c_prop:.2f} s CPU); tracemalloc peak {peak_mb:.0f} MB; "
           f"max RSS {rss_before:.0f} MB before, {rss_after:.0f} MB after")
