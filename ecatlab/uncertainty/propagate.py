@@ -491,7 +491,8 @@ class _PathwayStats:
     Each distinct array is sorted once, surface by surface (a transposed copy, so every surface's
     samples are contiguous). The overpotential is the kernel's monotonic map of U_L
     (:func:`ecatlab.che.kernel.signed_overpotential`) when U_eq is the same in every sample, so its
-    sorted samples are the mapped sorted U_L; G_max reuses them when its samples equal the
+    mean and percentiles are the mapped ones of U_L (equal to rounding) and its standard deviation
+    is U_L's; G_max reuses them when its samples equal the
     overpotential's (one-electron steps and no chemical step). A surface with any NaN sample gets
     NaN statistics, as ``np.percentile`` gives."""
 
@@ -525,12 +526,13 @@ class _PathwayStats:
         if q == "max_chemical_dG" and ps.max_chemical_dG is None:
             S = ps.limiting_potential.shape[1]
             res = (np.full(S, np.nan), np.full(S, np.nan), [np.full(S, np.nan) for _ in self.qs])
-        elif q == "overpotential" and np.ndim(ps.equilibrium_potential) == 0:
-            xs, bad = self._sorted_ul()
-            eta = kernel.signed_overpotential(xs, ps.equilibrium_potential, ps.pathway.direction)
-            if ps.pathway.direction == "reduction":  # decreasing map: reverse, NaN rows are masked below
-                eta = eta[:, ::-1]
-            res = self._from_sorted(eta, bad)
+        elif q == "overpotential" and np.ndim(ps.equilibrium_potential) == 0 and self._symmetric():
+            # eta = U_eq - U_L (reduction) or U_L - U_eq (oxidation) with one U_eq: its mean, percentiles and
+            # standard deviation are the kernel's map of those of U_L (the interval's ends swap for a reduction)
+            mean, std, pct = self.get("limiting_potential")
+            u_eq, d = ps.equilibrium_potential, ps.pathway.direction
+            mapped = [kernel.signed_overpotential(x, u_eq, d) for x in pct]
+            res = (kernel.signed_overpotential(mean, u_eq, d), std.copy(), mapped[::-1] if d == "reduction" else mapped)
         elif q == "G_max" and ps.G_max_is_overpotential:
             res = self.get("overpotential")
         elif q == "limiting_potential":
@@ -539,6 +541,10 @@ class _PathwayStats:
             res = self._from_sorted(*self._sorted(ps.quantity(q)))
         self.cache[q] = res
         return res
+
+    def _symmetric(self) -> bool:
+        """True when the percentiles asked for mirror each other (q and 100 - q), as summary's do."""
+        return all(abs(a + b - 100.0) < 1e-12 for a, b in zip(self.qs, self.qs[::-1]))
 
     def _sorted_ul(self) -> tuple[np.ndarray, np.ndarray]:
         if "_ul" not in self.cache:
