@@ -1,8 +1,11 @@
 """The one seeded sampler of ecatlab's error models.
 
 Samples come in chunks along a leading sample axis, so memory stays bounded whatever the number
-of samples: a chunk of ``c`` samples for ``S`` surfaces and ``A`` adsorbates is one
-(c, S, A) float array of deviations in eV, plus a (c, M) array for the non-reference molecules.
+of samples: a chunk of ``c`` samples for ``S`` surfaces and ``A`` adsorbates holds one
+(c, S, A) float64 array (the standard normals of a Gaussian model, kept with their covariance
+factor, or an ensemble's deviations in eV), plus a (c, M) array for the non-reference molecules;
+:class:`SampleChunk` maps them linearly (e.g. into step free energies) without forming the
+deviations first.
 
 Reproducibility: samples are drawn in fixed blocks of :data:`BLOCK` samples, block ``b`` from
 ``numpy.random.default_rng(SeedSequence(seed, spawn_key=(b,)))``. The numbers therefore depend on
@@ -34,7 +37,8 @@ BLOCK = 10
 #: exact in float64, and every product with the covariance factor is float64).
 DTYPE = np.float32
 #: Default chunk: the number of samples per chunk is chosen so a chunk holds about this many
-#: (sample, surface, species) values (~10 MB of float32, small enough to stay in cache-friendly sizes).
+#: (sample, surface, species) values (~19 MB of float64 draws; the propagation's step array per chunk is
+#: about n_steps / n_species times that).
 DEFAULT_CHUNK_VALUES = 2_400_000
 DEFAULT_CHUNK = None
 
