@@ -283,15 +283,18 @@ CHEMICAL_OVERLAY_GID = "uphill-chemical-step"
 
 def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook", label_surfaces: bool = True, caption: bool = True, margin_lines: bool = True,
                          chemical_threshold: float | None = 0.5):
-    """Regions by winning product (least negative onset potential), labelled; surfaces on top.
+    """Regions by winning product, labelled; surfaces on top.
+
+    The winner is :attr:`SelectivityMap.winner`: products whose route has no uphill chemical step
+    first, then the least negative onset potential (the kernel's ranking rule); the caption says so.
 
     Hatching (``margin_lines``) marks where the winner leads the runner-up by less than 0.1 V
     (weak preference).
 
     Dots inside a dotted outline mark where the winner's route has a chemical step uphill by more
     than ``chemical_threshold`` (eV, :attr:`~ecatlab.volcano.SelectivityMap.winner_max_chemical_dG`;
-    default 0.5 eV: common practice, no source; ``None`` = no overlay). The onset ignores such a
-    step, so there the product is not released at any potential (e.g. CO stays bound and
+    default 0.5 eV: common practice, no source; ``None`` = no overlay). Such a winner occurs only
+    where every product is blocked; there the product is not released at any potential (e.g. CO stays bound and
     poisons the surface). The overlay artists carry ``gid`` :data:`CHEMICAL_OVERLAY_GID`; a
     legend entry outside the axes and a caption line explain it.
     """
@@ -323,7 +326,7 @@ def plot_selectivity_map(smap: SelectivityMap, ax=None, style: str = "notebook",
         ax.set_xlabel(f"{smap.descriptors[0].label()} / eV")
         ax.set_ylabel(f"{smap.descriptors[1].label()} / eV")
         basis = "best network routes" if smap.basis == "network" else "built-in pathways"
-        ax.set_title(f"Selectivity: least negative onset potential ({basis})\n{_conditions_text(smap.conditions)}")
+        ax.set_title(f"Selectivity: unblocked routes first, then least negative onset ({basis})\n{_conditions_text(smap.conditions)}")
         if caption:
             width = int(ax.figure.get_figwidth() * 72 / (0.52 * (p.font_pt - 2)))
             _caption(ax, p, _selectivity_caption(smap, width, chemical_threshold if uphill else None))
@@ -376,12 +379,13 @@ def _selectivity_caption(smap: SelectivityMap, width: int = 110, chemical_thresh
             first += f"\nNetwork routes not used: {_shorten(why, 110)}"
         ties = "exact ties go to the product listed first"
     limit = smap.conditions.get("chemical_limit")
-    chem = "Chemical steps (e.g. CO desorption) not in the onset"
+    chem = ("Winner: products whose route has an uphill chemical step (e.g. CO desorption; blocked at every potential) rank last, "
+            "then the least negative onset wins; a blocked product wins only where all are blocked")
     if limit is not None:
         chem += f"; routes with a chemical step above {limit:g} eV excluded"
     if chemical_threshold is not None:
-        chem += (f".\nDotted outline, dots: the winner's route has a chemical step uphill by more than {chemical_threshold:g} eV "
-                 "(product not released at any potential, e.g. CO poisons the surface)")
+        chem += (f".\nDotted outline, dots: every product is blocked and the winner's route has a chemical step uphill by more than "
+                 f"{chemical_threshold:g} eV (product not released at any potential, e.g. CO poisons the surface)")
     text = (f"{first}\nHatched: winner leads the runner-up by less than 0.1 V ({ties}).\n"
             f"{chem}. {_short_refs(smap.conditions)}.\n{_CAUTION}")
     return "\n".join(w for line in text.split("\n") for w in textwrap.wrap(line, max(40, width)))

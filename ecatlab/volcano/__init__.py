@@ -33,8 +33,10 @@ Computed surfaces are placed at their own descriptor values with their *exact* l
 potentials from :func:`ecatlab.che.limiting_potentials` (not the scaling prediction, which is given
 alongside as ``scaling_limiting_potential``).
 
-Selectivity maps compare onset potentials of products (RHE scale by default): the product whose
-onset is least negative wins. By default (``basis="auto"``) the onset of a product is the limiting
+Selectivity maps compare products by the kernel's ranking rule (:func:`ecatlab.che.kernel.ranking_order`):
+products whose route has no uphill chemical step come first (an uphill CO desorption blocks CO at
+every potential), then the least negative onset potential (RHE scale by default) wins; a blocked
+product wins only where every product is blocked. By default (``basis="auto"``) the onset of a product is the limiting
 potential of its best route in the reaction network (:mod:`ecatlab.network`), searched on the
 synthetic surfaces of the whole grid at once; HER comes from the engine's
 ``her-volmer-heyrovsky`` pathway. When the scaling relations do not cover the network, the

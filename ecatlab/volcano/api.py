@@ -95,6 +95,10 @@ def selectivity_map(
 ) -> SelectivityMap:
     """Winning product over two descriptors; see :meth:`VolcanoAnalysis.selectivity_map`.
 
+    The winner at each point: products whose route has no uphill chemical step first, then the
+    least negative onset potential (the kernel's ranking rule, as in the network's
+    ``product_ranking``); a blocked product wins only where every product is blocked.
+
     ``basis="auto"`` (default) compares the best routes of the reaction network when the scaling
     relations cover its adsorbates, else the built-in pathways; ``smap.basis`` and
     ``smap.basis_note`` say which was used and what was left out. ``chemical_limit`` (eV, default

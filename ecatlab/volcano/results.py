@@ -261,7 +261,8 @@ class ActivityMap:
 
 @dataclass(frozen=True)
 class SelectivityMap:
-    """Which product has the least negative onset (limiting) potential over two descriptors.
+    """Which product wins over two descriptors: products whose route has no uphill chemical step first,
+    then the least negative onset (limiting) potential (:func:`ecatlab.che.kernel.ranking_order`).
 
     Attributes
     ----------
@@ -275,9 +276,13 @@ class SelectivityMap:
     onset : ndarray (n_products, len(y), len(x))
         Limiting potential of each product pathway, V on ``scale``.
     winner : ndarray of int (len(y), len(x))
-        Index into ``products`` of the least negative onset.
+        Index into ``products`` of the winner: among the products whose route is not blocked
+        (:func:`ecatlab.che.kernel.is_blocked` on ``max_chemical_dG``: no chemical step uphill) the
+        least negative onset; a blocked product wins only where every product is blocked.
     margin : ndarray (len(y), len(x))
-        Onset of the winner minus the runner-up, V (small margins: no clear selectivity).
+        Onset of the winner minus the best onset of the other products of the same class
+        (unblocked, or blocked where all are), V (small margins: no clear selectivity; ``inf``:
+        no other product of that class competes).
     max_chemical_dG : ndarray (n_products, len(y), len(x))
         Largest chemical-step dG of each product's best route or pathway (eV; NaN if it has no
         chemical step or the product is unavailable there), e.g. CO desorption.
@@ -285,9 +290,12 @@ class SelectivityMap:
         Largest chemical-step dG (eV) of the winning product's route (network basis: the best
         route of :meth:`ecatlab.network.NetworkAnalysis.best_route_arrays`; pathways basis: the
         engine's ``max_chemical_dG`` of the winning pathway); NaN if that route has no chemical
-        step. A positive value is an uphill, potential-independent step the onset ignores: e.g.
-        CO* -> * + CO(g) uphill by 0.8 eV means CO stays bound (poisons the surface) rather than
-        being released, whatever the potential. Computed from ``max_chemical_dG`` and ``winner``.
+        step. A positive value is an uphill, potential-independent step: e.g. CO* -> * + CO(g)
+        uphill by 0.8 eV means CO stays bound (poisons the surface) rather than being released,
+        whatever the potential. By the winner rule it occurs only where every product is blocked.
+        Computed from ``max_chemical_dG`` and ``winner``.
+    winner_blocked : ndarray of bool (len(y), len(x))
+        True where the winner's route is blocked (then every product is).
     surfaces : DataFrame
         ``surface``, ``x``, ``y`` and the exact onset of every product (V), ``winner``, ``margin``
         (network basis: the network search on the surface's own energies; pathways basis:
@@ -333,10 +341,12 @@ class SelectivityMap:
     network: object = field(default=None, repr=False)
     excluded: tuple[str, ...] = ()
     winner_max_chemical_dG: np.ndarray = field(init=False, repr=False)
+    winner_blocked: np.ndarray = field(init=False, repr=False)
 
     def __post_init__(self):
         chem = np.take_along_axis(np.asarray(self.max_chemical_dG, dtype=float), np.asarray(self.winner)[None], axis=0)[0]
         object.__setattr__(self, "winner_max_chemical_dG", chem)
+        object.__setattr__(self, "winner_blocked", kernel.is_blocked(chem))
 
     def winner_route(self) -> np.ndarray:
         """Name of the best route (or pathway) to the winning product at each point, (len(y), len(x))."""
@@ -344,7 +354,7 @@ class SelectivityMap:
 
     def to_frame(self) -> pd.DataFrame:
         """Long table: x, y (eV), onset per product (V), winner (product label), margin (V), winner_route,
-        winner_max_chemical_dG (eV, largest chemical-step dG of the winner's route; NaN if none)."""
+        winner_max_chemical_dG (eV, largest chemical-step dG of the winner's route; NaN if none), winner_blocked."""
         X, Y = np.meshgrid(self.x, self.y)
         frame = pd.DataFrame({"x": X.ravel(), "y": Y.ravel()})
         for k, lab in enumerate(self.product_labels):
@@ -354,6 +364,7 @@ class SelectivityMap:
         if self.routes is not None:
             frame["winner_route"] = self.winner_route().ravel()
         frame["winner_max_chemical_dG"] = self.winner_max_chemical_dG.ravel()
+        frame["winner_blocked"] = self.winner_blocked.ravel()
         frame.attrs.update(self.conditions)
         return frame
 

@@ -29,24 +29,52 @@ SELECTIVITY_BASES: tuple[str, ...] = ("auto", "network", "pathways")
 DEFAULT_PRODUCTS: tuple[str, ...] = ("co2rr-co", "co2rr-hcooh", "co2rr-ch4", "co2rr-ch3oh", "her-volmer-heyrovsky")
 
 
+#: The winner rule of every selectivity map (the kernel's ranking rule, :func:`ecatlab.che.kernel.ranking_order`).
+RANKING_RULE = ("products whose route has no uphill chemical step (kernel.is_blocked) first, then the least negative onset potential; "
+                "a blocked product (e.g. CO* -> * + CO(g) uphill) wins only where every product is blocked")
+
+
 def _product_label(path: Pathway) -> str:
     net = path.overall_net()
     prods = [sp for sp, c in net.items() if c > 0 and sp.is_molecule and sp.formula != "H2O"]
     return ", ".join(sp.formula for sp in prods) or path.name
 
 
-def _winner(onset: np.ndarray, tie_keys: Sequence[str] | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Index of the largest onset (least negative) along axis 0 and its margin over the runner-up (V).
+def _winner(onset: np.ndarray, max_chemical_dG: np.ndarray, tie_keys: Sequence[str] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Winning product along axis 0 by the kernel's ranking rule, and its margin (V).
 
-    Exact ties go to the first product, or, with ``tie_keys``, to the alphabetically first key
-    (the order of :meth:`ecatlab.network.NetworkAnalysis.product_ranking`). NaN never wins.
+    Parameters
+    ----------
+    onset : ndarray (n_products, ...)
+        Onset (limiting) potential of each product's best route or pathway, V; NaN: unavailable.
+    max_chemical_dG : ndarray like ``onset``
+        Largest chemical-step dG of that route or pathway, eV (NaN: none).
+    tie_keys : sequence of str, optional
+        Product keys; exact ties go to the alphabetically first key (the order of
+        :meth:`ecatlab.network.NetworkAnalysis.product_ranking`), else to the product listed first.
+
+    Returns
+    -------
+    winner : ndarray of int
+        Index into the products: :func:`ecatlab.che.kernel.ranking_order` on (-onset, blocked),
+        i.e. products whose route is not blocked (:func:`ecatlab.che.kernel.is_blocked`: no chemical
+        step uphill) first, then the least negative onset; NaN never wins unless every product is
+        NaN. A blocked product therefore wins only where every available product is blocked.
+    margin : ndarray
+        Winner's onset minus the best onset among the other products of the same class (unblocked
+        if the winner is unblocked, else blocked), V; ``inf`` where no other product of that class
+        is available, NaN where none is available at all.
     """
-    filled = np.where(np.isnan(onset), -np.inf, onset)
+    onset = np.asarray(onset, dtype=float)
+    blocked = kernel.is_blocked(max_chemical_dG) & np.isfinite(onset)
     perm = np.arange(len(onset)) if tie_keys is None else np.argsort(np.array(list(tie_keys), dtype=object), kind="stable")
-    winner = perm[np.argmax(filled[perm], axis=0)]
-    srt = np.sort(filled, axis=0)
+    order = kernel.ranking_order(np.moveaxis(-onset[perm], 0, -1), np.moveaxis(blocked[perm], 0, -1))
+    winner = perm[order[..., 0]]
+    w_onset = np.take_along_axis(onset, winner[None], axis=0)[0]
+    w_blocked = np.take_along_axis(blocked, winner[None], axis=0)[0]
+    rivals = np.isfinite(onset) & (blocked == w_blocked[None]) & (np.arange(len(onset)).reshape((-1,) + (1,) * winner.ndim) != winner[None])
     with np.errstate(invalid="ignore"):
-        margin = srt[-1] - srt[-2]
+        margin = w_onset - np.where(rivals, onset, -np.inf).max(axis=0)
     return winner, margin
 
 
@@ -118,7 +146,7 @@ class SelectivityMixin:
         network_options: Mapping | None = None,
         chemical_limit: float | None = None,
     ) -> SelectivityMap:
-        """Product with the least negative onset potential over two descriptors (see :class:`SelectivityMap`).
+        """Winning product over two descriptors: unblocked routes first, then the least negative onset potential (see :class:`SelectivityMap`).
 
         Parameters
         ----------
@@ -152,8 +180,20 @@ class SelectivityMixin:
             basis; also the HER pathway on either basis) with a chemical step whose dG exceeds
             this are unavailable: at such a point that route/pathway does not compete (its onset,
             ``max_chemical_dG`` and route are NaN/NaN/"" when no other route to the product is
-            left). ``None`` (default) keeps every route; chemical steps then never enter the
-            onset and are only reported (:attr:`SelectivityMap.winner_max_chemical_dG`).
+            left). ``None`` (default) keeps every route. Either way the routes that remain are
+            ranked by the winner rule below, so an uphill chemical step (dG > 0 eV) demotes its
+            product whatever the limit.
+
+        Notes
+        -----
+        Winner rule (:func:`ecatlab.che.kernel.ranking_order`, the rule of every ecatlab ranking
+        and of :meth:`ecatlab.network.NetworkAnalysis.product_ranking`): at each point the products
+        whose best route (or pathway) has no uphill chemical step (:func:`ecatlab.che.kernel.is_blocked`,
+        e.g. CO* -> * + CO(g) with dG > 0) come first, then the least negative onset potential.
+        The onset itself is the electrochemical limiting potential; a blocked product, whose
+        product is not released at any potential, wins only where every product is blocked
+        (:attr:`SelectivityMap.winner_blocked`). The network search already prefers an open route
+        to each product when one exists.
         """
         descs = self._two(descriptors)
         chemical_limit = _check_chemical_limit(chemical_limit)
@@ -212,7 +252,7 @@ class SelectivityMixin:
             onsets.append(u_l.reshape(X.shape))
             chems.append(mc.reshape(X.shape))
         onset = np.stack(onsets)
-        winner, margin = _winner(onset)
+        winner, margin = _winner(onset, np.stack(chems))
         labels = tuple(_product_label(p) for p in paths)
         surf = pd.DataFrame(columns=["surface", "x", "y"])
         if self.table is not None and len(points_frames):
@@ -220,34 +260,39 @@ class SelectivityMixin:
             lp = che.limiting_potentials(self.table, paths, self.pH, self.scale, self.temperature, surfaces=names, on_missing="report")
             wide = lp.pivot(index="surface", columns="pathway", values="limiting_potential").reindex(index=names, columns=[p.name for p in paths])
             values = wide.to_numpy(dtype=float)
-            blocked = np.zeros(values.shape, dtype=bool)
+            chem = lp.pivot(index="surface", columns="pathway", values="max_chemical_dG").reindex(index=names, columns=[p.name for p in paths])
+            chem = chem.to_numpy(dtype=float)
+            excluded = np.zeros(values.shape, dtype=bool)
             if chemical_limit is not None:
-                chem = lp.pivot(index="surface", columns="pathway", values="max_chemical_dG").reindex(index=names, columns=[p.name for p in paths])
-                blocked = np.isfinite(values) & (chem.to_numpy(dtype=float) > chemical_limit)
-            surf = self._surface_winners(names, points_frames, labels, np.where(blocked, np.nan, values), None, blocked)
+                excluded = np.isfinite(values) & (chem > chemical_limit)
+            surf = self._surface_winners(names, points_frames, labels, np.where(excluded, np.nan, values), np.where(excluded, np.nan, chem),
+                                         None, excluded)
         routes = np.broadcast_to(np.array([p.name for p in paths], dtype=object)[:, None, None], onset.shape).copy()
         routes[np.isnan(onset)] = ""
         cond = self._selectivity_conditions([p.name for p in paths], "pathways", note,
-                                            "winner = least negative limiting (onset) potential of each pathway; ties to the product listed first; chemical steps not included"
+                                            "winner = " + RANKING_RULE + " (limiting potential of each pathway); ties to the product listed first"
                                             + _limit_rule(chemical_limit), chemical_limit)
         return SelectivityMap(descs, gx, gy, tuple(p.name for p in paths), labels, onset, winner, margin, np.stack(chems), surf, space.relations, cond,
                               space=space, basis="pathways", basis_note=note, routes=routes)
 
-    def _surface_winners(self, names, points_frames, labels, values: np.ndarray, tie_keys, blocked=None) -> pd.DataFrame:
-        """Computed surfaces with every product's exact onset (columns ``onset <label>``), winner and margin.
+    def _surface_winners(self, names, points_frames, labels, values: np.ndarray, chem: np.ndarray, tie_keys, excluded=None) -> pd.DataFrame:
+        """Computed surfaces with every product's exact onset (columns ``onset <label>``, V), winner, margin
+        and ``winner_blocked``, by the rule of :func:`_winner` (``chem``: max chemical dG per product, eV).
 
-        Surfaces missing data for a product are dropped; ``blocked`` (bool, like ``values``) marks
+        Surfaces missing data for a product are dropped; ``excluded`` (bool, like ``values``) marks
         onsets that are NaN because of ``chemical_limit`` (kept: that product just does not compete).
         """
-        complete = (np.isfinite(values) | (False if blocked is None else blocked)).all(axis=1)
+        complete = (np.isfinite(values) | (False if excluded is None else excluded)).all(axis=1)
         surf = pd.DataFrame({"surface": names, "x": points_frames.iloc[:, 0].to_numpy(dtype=float), "y": points_frames.iloc[:, 1].to_numpy(dtype=float)})
         for k, lab in enumerate(labels):
             surf[f"onset {lab}"] = values[:, k]
         surf = surf[complete].reset_index(drop=True)
         if len(surf):
-            w, mg = _winner(values[complete].T, tie_keys)
+            w, mg = _winner(values[complete].T, chem[complete].T, tie_keys)
             surf["winner"] = np.array(labels, dtype=object)[w]
             surf["margin"] = mg
+            w_chem = np.take_along_axis(chem[complete], w[:, None], axis=1)[:, 0]
+            surf["winner_blocked"] = kernel.is_blocked(w_chem)
         return surf
 
     def _selectivity_conditions(self, products, basis, note, rule, chemical_limit=None) -> dict:
@@ -361,36 +406,40 @@ class SelectivityMixin:
             keys.append("H2(g)")
         shape = (len(keys),) + X.shape
         onset = np.stack(onsets).reshape(shape)
-        winner, margin = _winner(onset, keys)
+        chem_all = np.stack(chems).reshape(shape)
+        winner, margin = _winner(onset, chem_all, keys)
         labels = tuple(Species.parse(k).formula for k in keys)
         surf = pd.DataFrame(columns=["surface", "x", "y"])
         if self.table is not None and len(points_frames):
             names = list(points_frames.index)
             real = NetworkAnalysis(net, self.table, pH=self.pH, scale=self.scale, temperature=self.temperature, surfaces=names,
                                    chemical_limit=chemical_limit)
-            cols = [real.best_route_arrays(p)[0] for p in carbon]
+            best = [real.best_route_arrays(p) for p in carbon]
+            cols = [b[0] for b in best]
+            chem_cols = [b[1] for b in best]
             if chemical_limit is not None:  # which NaNs come from the limit, not from missing data
                 free = NetworkAnalysis(net, self.table, pH=self.pH, scale=self.scale, temperature=self.temperature, surfaces=names)
                 had = [np.isfinite(free.best_route_arrays(p)[0]) for p in carbon]
             if her:
                 lp = che.limiting_potentials(self.table, her, self.pH, self.scale, self.temperature, surfaces=names, on_missing="report").set_index("surface")
-                u_h, _ = _apply_chemical_limit(lp.loc[names, "limiting_potential"].to_numpy(dtype=float),
-                                               lp.loc[names, "max_chemical_dG"].to_numpy(dtype=float), chemical_limit)
+                u_h, mc_h = _apply_chemical_limit(lp.loc[names, "limiting_potential"].to_numpy(dtype=float),
+                                                  lp.loc[names, "max_chemical_dG"].to_numpy(dtype=float), chemical_limit)
                 cols.append(u_h)
+                chem_cols.append(mc_h)
                 if chemical_limit is not None:
                     had.append(np.isfinite(lp.loc[names, "limiting_potential"].to_numpy(dtype=float)))
             values = np.column_stack(cols)
-            blocked = None if chemical_limit is None else (np.column_stack(had) & np.isnan(values))
-            surf = self._surface_winners(names, points_frames, labels, values, keys, blocked)
+            excluded = None if chemical_limit is None else (np.column_stack(had) & np.isnan(values))
+            surf = self._surface_winners(names, points_frames, labels, values, np.column_stack(chem_cols), keys, excluded)
         desc = (f"best network routes from {net.reactant} ({len(net.states)} states, {len(net.edges)} steps, "
                 f"{len(net.adsorbates)} adsorbates through scaling relations)" + (f"; HER: {her}" if her else ""))
         note = "; ".join([desc] + plan["notes"])
         cond = self._selectivity_conditions(keys, "network", note,
-                                            "winner = least negative onset potential (limiting potential of the best network route; HER from its pathway); "
-                                            "ties to the alphabetically first product, as in product_ranking; chemical steps not in the onset"
+                                            "winner = " + RANKING_RULE + " (limiting potential of the best network route; HER from its pathway); "
+                                            "ties to the alphabetically first product, as in product_ranking"
                                             + _limit_rule(chemical_limit), chemical_limit)
         cond["network"] = repr(net)
         cond["her"] = her
-        return SelectivityMap(descs, gx, gy, tuple(keys), labels, onset, winner, margin, np.stack(chems).reshape(shape), surf, space.relations, cond,
+        return SelectivityMap(descs, gx, gy, tuple(keys), labels, onset, winner, margin, chem_all, surf, space.relations, cond,
                               space=space, basis="network", basis_note=note, routes=np.stack(routes).reshape(shape), network=net,
                               excluded=plan["excluded"])
