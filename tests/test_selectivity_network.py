@@ -197,13 +197,13 @@ def test_fallback_to_pathways_when_network_cannot_be_used():
 def test_plot_caption_names_basis(demo, smap, tmp_path):
     from ecatlab.plotting.volcano import plot_selectivity_map
 
-    ax = plot_selectivity_map(smap)
+    ax = plot_selectivity_map(smap).ax
     texts = " ".join(t.get_text() for t in ax.texts)
     assert "best network routes" in ax.get_title()
     assert "reaction network" in texts and "22 states" in texts.replace("\n", " ")
     ax.figure.savefig(tmp_path / "net.png", bbox_inches="tight")
     p = selectivity_map(demo, ("CO*", "OH*"), basis="pathways", points=31)
-    ax = plot_selectivity_map(p)
+    ax = plot_selectivity_map(p).ax
     assert "built-in pathways" in ax.get_title()
     assert "Basis: built-in pathways co2rr-co" in " ".join(t.get_text() for t in ax.texts)
 
@@ -308,14 +308,16 @@ def test_plot_marks_uphill_chemical_step(demo, tmp_path):
     def overlay(ax):
         return [a for a in ax.get_children() if a.get_gid() == CHEMICAL_OVERLAY_GID]
 
-    ax = plot_selectivity_map(smap)
+    drawn = plot_selectivity_map(smap)
+    ax = drawn.ax
+    assert len(drawn.parts["overlay"]) == 3 and all(a.get_gid() == CHEMICAL_OVERLAY_GID for a in drawn.parts["overlay"])
     assert np.any(smap.winner_max_chemical_dG > 0.5) and len(overlay(ax)) == 3  # stipple, dotted outline, legend
     assert smap.winner_blocked.any() and not smap.winner_blocked.all()
     texts = " ".join(t.get_text() for t in ax.texts).replace("\n", " ")
     assert "chemical step uphill by more than 0.5 eV" in texts
     assert "0.5 eV" in ax.get_legend().get_texts()[0].get_text()
     ax.figure.savefig(tmp_path / "chem.png", bbox_inches="tight")
-    assert overlay(plot_selectivity_map(smap, chemical_threshold=None)) == []
+    assert overlay(plot_selectivity_map(smap, chemical_threshold=None).ax) == []
     s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=0.3, network_options=DESORB_ONLY)
-    ax = plot_selectivity_map(s)  # no winner above 0.5 eV: no overlay, the caption names the limit
+    ax = plot_selectivity_map(s).ax  # no winner above 0.5 eV: no overlay, the caption names the limit
     assert overlay(ax) == [] and "above 0.3 eV excluded" in " ".join(t.get_text() for t in ax.texts).replace("\n", " ")
