@@ -172,3 +172,27 @@ def test_label_placement_has_teeth():
         t.remove()
     placed = _label_points(ax, names, xs, ys, 8)
     assert overlaps(placed, ax) == 0
+
+
+def test_box_segment_crossing_cases():
+    # hand-made cases for the clipping test used by the label placement (box 0..10 x 0..10)
+    from ecatlab.plotting.volcano import _boxes_hit_segments
+
+    box = np.array([[0.0, 0.0, 10.0, 10.0]])
+    cases = {
+        ((-5, 5), (15, 5)): True,     # straight through, both ends outside
+        ((2, 2), (3, 3)): True,       # inside
+        ((11, -5), (30, 10)): False,  # to the right
+        ((-1, -1), (-1, 20)): False,  # vertical, left of the box
+        ((5, -3), (5, -1)): False,    # vertical, below, pointing at it
+        ((5, -3), (5, 1)): True,      # vertical, reaching in
+        ((-4, 9), (9, 22)): False,    # diagonal passing above the top-left corner (y - x = 13 > 10)
+        ((-4, 6), (4, 14)): True,     # diagonal through the top-left corner (y - x = 10 at (0, 10))
+    }
+    for (p0, p1), expect in cases.items():
+        seg = np.array([[p0, p1]], dtype=float)
+        assert bool(_boxes_hit_segments(box, seg)[0]) is expect, (p0, p1)
+    # vectorised over boxes: the same answers box by box
+    boxes = np.array([[0, 0, 10, 10], [20, 20, 30, 30], [-10, -10, -5, -5]], dtype=float)
+    segs = np.array([[(-5, 5), (15, 5)], [(25, 0), (25, 40)]], dtype=float)
+    assert list(_boxes_hit_segments(boxes, segs)) == [True, True, False]

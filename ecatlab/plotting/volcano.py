@@ -48,6 +48,10 @@ _OFFSETS = [(float(r * np.cos(a)), float(r * np.sin(a))) for r in (6.0, 12.0, 20
 def _boxes_hit_segments(boxes: np.ndarray, segments: np.ndarray) -> np.ndarray:
     """For boxes (B, 4: x0, y0, x1, y1) and segments (M, 2, 2), all in display coordinates: True
     where a box is crossed by any segment (Liang-Barsky clipping, vectorised over both)."""
+    if len(segments) and len(boxes):  # only segments whose extent meets the region of all boxes can cross one
+        lo, hi = boxes[:, :2].min(axis=0), boxes[:, 2:].max(axis=0)
+        smin, smax = segments.min(axis=1), segments.max(axis=1)
+        segments = segments[np.all((smax >= lo) & (smin <= hi), axis=1)]
     if not len(segments):
         return np.zeros(len(boxes), dtype=bool)
     x0, y0 = segments[:, 0, 0][None], segments[:, 0, 1][None]
