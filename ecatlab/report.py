@@ -493,11 +493,10 @@ def _fmt_value(value, unit: str = "eV") -> str:
 
 def _svg_figure(ax_or_fig, element_id: str, caption: str, size: str = "wide") -> str:
     import matplotlib.pyplot as plt
-    from matplotlib.figure import Figure
 
-    from ecatlab.plotting.export import svg_fragment
+    from ecatlab.plotting.export import _as_figure, svg_fragment
 
-    fig = ax_or_fig if isinstance(ax_or_fig, Figure) else ax_or_fig.figure  # a Figure, an Axes or a plotter's Drawn
+    fig = _as_figure(ax_or_fig)  # a Figure, an Axes or a plotter's Drawn
     try:
         svg = svg_fragment(fig, element_id=element_id)
     finally:

@@ -35,10 +35,12 @@ _NO_METADATA = {
 
 
 def _as_figure(obj):
-    """The Figure of a Figure, an Axes or a :class:`ecatlab.plotting.handles.Drawn`."""
-    from matplotlib.figure import Figure, SubFigure
+    """The Figure of a :class:`ecatlab.plotting.handles.Drawn` or an Axes; anything else with ``savefig`` (a Figure) as is."""
+    from ecatlab.plotting.handles import Drawn
 
-    return obj if isinstance(obj, (Figure, SubFigure)) else obj.figure
+    if isinstance(obj, Drawn):
+        return obj.figure
+    return obj if hasattr(obj, "savefig") else obj.figure
 
 
 def _savefig(fig, target, fmt: str, dpi: float, transparent: bool) -> None:
