@@ -796,8 +796,8 @@ def pourbaix_section(states, energies=None, pathways=(), *, pH: float = 0.0, sca
 
         lp = flag_surface_states(limiting_potentials(energies, pathways, pH=pH, scale=scale, temperature=temperature), st)
     for s in names[:max_maps]:
-        ax = plot_pourbaix(pourbaix_map(st, s, scale=scale, temperature=temperature), limiting=lp, style=style)
-        parts.append(_svg_figure(ax, f"pourbaix-{s}", f"Surface Pourbaix diagram of {s} (V vs {check_scale(scale)}); dashed: water stability limits.", size="medium"))
+        drawn = plot_pourbaix(pourbaix_map(st, s, scale=scale, temperature=temperature), limiting=lp, style=style)
+        parts.append(_svg_figure(drawn, f"pourbaix-{s}", f"Surface Pourbaix diagram of {s} (V vs {check_scale(scale)}); dashed: water stability limits.", size="medium"))
     if lp is not None:
         shown = lp[["surface", "pathway", "limiting_potential", "surface_state_at_U_L", "surface_state_coverage", "assumed_state_margin", "surface_state_flag"]].copy()
         shown = shown[shown["surface"].astype(str).isin(names)].round(3).reset_index(drop=True)

@@ -494,9 +494,9 @@ def _fmt_value(value, unit: str = "eV") -> str:
 def _svg_figure(ax_or_fig, element_id: str, caption: str, size: str = "wide") -> str:
     import matplotlib.pyplot as plt
 
-    from ecatlab.plotting.export import svg_fragment
+    from ecatlab.plotting.export import _as_figure, svg_fragment
 
-    fig = ax_or_fig if hasattr(ax_or_fig, "savefig") else ax_or_fig.figure
+    fig = _as_figure(ax_or_fig)  # a Figure, an Axes or a plotter's Drawn
     try:
         svg = svg_fragment(fig, element_id=element_id)
     finally:
@@ -555,8 +555,8 @@ def volcano_section(
         f"<b>{apex.descriptor[0]:.3f} eV</b>, U<sub>L</sub> <b>{apex.limiting_potential:.3f} V</b>, overpotential "
         f"<b>{apex.overpotential:.3f} V</b>.</p>"
     )
-    ax = plot_volcano(curve, style=style)
-    figure = _svg_figure(ax, anchor + "-fig",
+    drawn = plot_volcano(curve, style=style)
+    figure = _svg_figure(drawn, anchor + "-fig",
                          f"Volcano of {key} vs {curve.descriptor.text} ({_fmt_value(apex.overpotential)} V minimum overpotential "
                          "set by the scaling relations).")
     return ReportSection(f"Volcano: {key} vs {curve.descriptor.text}", intro + figure + to_html(shown), anchor)
@@ -638,9 +638,9 @@ def routes_section(
     ok = best.dropna(subset=["limiting_potential"])
     if len(ok):
         top = ok.loc[ok["limiting_potential"].idxmax()]
-        ax = plot_network(analysis, str(top["surface"]), key, potential=0.0, style=style)
+        drawn = plot_network(analysis, str(top["surface"]), key, potential=0.0, style=style)
         parts.insert(1, _svg_figure(
-            ax, anchor + "-fig",
+            drawn, anchor + "-fig",
             f"Routes to {key} on {top['surface']} (best U_L = {top['limiting_potential']:.3f} V vs {sc}) at U = 0 V: arrows "
             "coloured by step dG (blue downhill, red uphill), dashed = chemical steps, thick band = the best route.",
             size="medium",

@@ -70,26 +70,108 @@ def test_cli_currents_writes_tables_and_refuses_overwrite(tmp_path, capsys):
     assert "not found" in capsys.readouterr().err
 
 
-def test_plots_take_and_return_axes(demo):
+def test_plots_take_axes_and_return_drawn(demo):
     import matplotlib.pyplot as plt
 
+    from ecatlab.plotting.handles import Drawn
     from ecatlab.plotting.kinetics import plot_coverages, plot_faradaic_efficiency, plot_polarization, plot_tafel
 
     model = build_model(demo, ["orr-4e", "orr-2e"], surfaces=["ALY-01", "SAS-02"], activities={"H2O2(aq)": 1e-6})
     ss = solve_steady_state(model, np.linspace(0.3, 1.0, 15))
     fig, axs = plt.subplots(2, 2)
     try:
-        assert plot_polarization(ss, ax=axs[0, 0], current_limit=100) is axs[0, 0]
+        d = plot_polarization(ss, ax=axs[0, 0], current_limit=100)
+        assert isinstance(d, Drawn) and d.ax is axs[0, 0] and d.figure is fig
         assert axs[0, 0].get_ylim() == (-100, 100)
-        assert plot_tafel(A.polarization_curve(ss), ax=axs[0, 1]) is axs[0, 1]
-        assert plot_coverages(ss, "SAS-02", ax=axs[1, 0]) is axs[1, 0]
-        assert len(axs[1, 0].get_lines()) == model.n_species
-        assert plot_faradaic_efficiency(ss, "ALY-01", ax=axs[1, 1]) is axs[1, 1]
+        assert set(d.parts["lines"]) == {"ALY-01", "SAS-02"} and d.parts["caption"] is not None
+        # the lines drawn are the frame's converged currents
+        f = d.data[d.data["surface"] == "SAS-02"].sort_values("potential")
+        np.testing.assert_allclose(d.parts["lines"]["SAS-02"].get_ydata(), np.where(f["converged"], f["current_density"], np.nan))
+        assert plot_tafel(A.polarization_curve(ss), ax=axs[0, 1]).ax is axs[0, 1]
+        cov = plot_coverages(ss, "SAS-02", ax=axs[1, 0])
+        assert cov.ax is axs[1, 0] and len(axs[1, 0].get_lines()) == model.n_species == len(cov.parts["lines"])
+        fe = plot_faradaic_efficiency(ss, "ALY-01", ax=axs[1, 1], caption=False)
+        assert fe.ax is axs[1, 1] and fe.parts["caption"] is None
         assert "pH 0" in axs[1, 1].get_title()
     finally:
         plt.close(fig)
     with pytest.raises(ecatlab.errors.KineticsInputError, match="unknown surface"):
         plot_coverages(ss, "nope")
+
+
+def _text_boxes(fig):
+    """(text, window extent) of every text drawn: titles, axis labels, offset texts, tick labels inside the view,
+    legend entries, figure-level texts (the caption)."""
+    fig.canvas.draw()
+    r = fig.canvas.get_renderer()
+    texts = list(fig.texts) + [a for a in fig.artists if isinstance(a, matplotlib.text.Text)]
+    for ax in fig.axes:
+        texts += [ax.title, ax._left_title, ax._right_title, ax.xaxis.label, ax.yaxis.label, ax.xaxis.offsetText, ax.yaxis.offsetText]
+        texts += list(ax.texts)
+        for axis in (ax.xaxis, ax.yaxis):
+            lo, hi = sorted(axis.get_view_interval())
+            texts += [t.label1 for t in axis.get_major_ticks() if lo - 1e-9 <= t.get_loc() <= hi + 1e-9 and t.label1.get_visible()]
+        if ax.get_legend() is not None:
+            texts += list(ax.get_legend().get_texts())
+    return [(t.get_text(), t.get_window_extent(r)) for t in texts if t.get_visible() and t.get_text().strip()]
+
+
+def test_two_panel_polarization_tafel_caption_overlaps_nothing(demo):
+    # bbox non-intersection of the one caption with every other text of the two-panel figure
+    import matplotlib.pyplot as plt
+
+    from ecatlab.plotting.kinetics import plot_polarization, plot_polarization_tafel, plot_tafel
+
+    model = build_model(demo, "orr-4e", surfaces=["ALY-01", "SAS-02", "SAS-05"])
+    ss = solve_steady_state(model, np.linspace(0.3, 1.2, 19))
+    pol = A.polarization_curve(ss)
+    d = plot_polarization_tafel(pol)
+    try:
+        assert len(d.axes) == 2 and d.parts["polarization"].ax is d.axes[0] and d.parts["tafel"].ax is d.axes[1]
+        cap = d.parts["caption"]
+        boxes = _text_boxes(d.figure)
+        captions = [b for text, b in boxes if text == cap.get_text()]
+        assert len(captions) == 1  # one caption for both panels
+        others = [(text, b) for text, b in boxes if text != cap.get_text()]
+        assert not [text for text, b in others if b.overlaps(captions[0])]
+        r = d.figure.canvas.get_renderer()
+        assert captions[0].y1 < min(ax.xaxis.label.get_window_extent(r).y0 for ax in d.axes)  # under both x labels
+        # no two texts of the figure overlap (titles, offset texts, labels, ticks, legends, caption)
+        clashes = [(a, b) for i, (a, ba) in enumerate(boxes) for b, bb in boxes[i + 1:] if ba.overlaps(bb)]
+        assert clashes == []
+    finally:
+        plt.close(d.figure)
+    # the check has teeth: the two per-panel captions of the same figure drawn panel by panel do overlap
+    fig, axs = plt.subplots(1, 2, figsize=(11.0, 4.5))
+    try:
+        c1 = plot_polarization(pol, ax=axs[0]).parts["caption"]
+        c2 = plot_tafel(pol, ax=axs[1]).parts["caption"]
+        fig.canvas.draw()
+        r = fig.canvas.get_renderer()
+        assert c1.get_window_extent(r).overlaps(c2.get_window_extent(r))
+    finally:
+        plt.close(fig)
+
+
+def test_cli_currents_figure_has_one_caption(tmp_path, monkeypatch):
+    import matplotlib.pyplot as plt
+
+    from ecatlab.plotting import kinetics as K
+
+    made = []
+    original = K.plot_polarization_tafel
+
+    def spy(*args, **kwargs):
+        made.append(original(*args, **kwargs))
+        return made[-1]
+
+    monkeypatch.setattr(K, "plot_polarization_tafel", spy)
+    before = set(plt.get_fignums())
+    code = main(["currents", str(ecatlab.demo_path()), "-p", "orr-4e", "--surface", "ALY-01", "SAS-01", "--potentials", "0.4", "1.1", "0.1",
+                 "-o", str(tmp_path / "j.csv"), "--figure", str(tmp_path / "j.png")])
+    assert code == 0 and (tmp_path / "j.png").stat().st_size > 5000
+    assert len(made) == 1 and made[0].parts["caption"] is not None and len(made[0].axes) == 2
+    assert set(plt.get_fignums()) == before  # closed after writing
 
 
 def test_report_section_included(demo):

@@ -274,12 +274,18 @@ def test_network_figure_draws_route_on_given_axes(table, co2, tmp_path):
 
     fig, ax = plt.subplots()
     out = plot_network(co2, "SAS-03", "CH4", potential=-0.3, ax=ax)
-    assert out is ax
+    assert out.ax is ax and out.parts["colorbar"].ax in out.axes
+    # data: the steps drawn with their dG at -0.3 V from the kernel; route 0 = the best route's steps
+    route_steps = out.data[out.data["route"] == 0]
+    assert len(route_steps) == len(co2.best_route("SAS-03", "CH4").steps) and out.data.attrs["potential"] == -0.3
+    assert set(out.parts["states"].values()) <= set(ax.texts) and out.parts["caption"] in ax.texts
+    assert len(out.parts["states"]) == len([t for t in ax.texts if t.get_text()]) - 1  # every text but the caption (arrows have none)
+    assert sum(len(r) for r in out.parts["routes"]) == len([t for t in ax.texts if not t.get_text()])
     labels = [t.get_text() for t in ax.texts]
     route = co2.best_route("SAS-03", "CH4")
     assert len([t for t in labels if "CHO" in t]) >= 1
     assert "U_L" in ax.get_title(loc="left") and "-0.63" in ax.get_title(loc="left")
-    full = plot_network(co2, "SAS-03", "CH4", full=True, ax=plt.subplots()[1])
+    full = plot_network(co2, "SAS-03", "CH4", full=True, ax=plt.subplots()[1]).ax
     assert len(full.texts) > len(ax.texts)  # the full network has more states than those on routes to CH4
     fig.savefig(tmp_path / "n.png")
     plt.close("all")

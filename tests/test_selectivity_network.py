@@ -39,9 +39,8 @@ def smap(demo):
 
 
 #: With the concerted releases of CO(g) (from COOH* and from CO2(g) with OH*) left out, CO(g) leaves only by
-#: desorption of CO*, uphill on strong-CO-binding surfaces: every CO route there is blocked, so the
-#: map shows a winner whose route has an uphill chemical step (the network search prefers open
-#: routes whenever one exists, so the full network has none there).
+#: desorption of CO*, uphill on strong-CO-binding surfaces: every CO route there is blocked, so CO,
+#: whose onset is the best there, must not win (kernel ranking rule: unblocked first).
 DESORB_ONLY = {"forbid": ["COOH* + H+ + e- -> * + CO(g) + H2O(l)", "CO2(g) + * + H+ + e- -> OH* + CO(g)"]}
 
 
@@ -198,13 +197,13 @@ def test_fallback_to_pathways_when_network_cannot_be_used():
 def test_plot_caption_names_basis(demo, smap, tmp_path):
     from ecatlab.plotting.volcano import plot_selectivity_map
 
-    ax = plot_selectivity_map(smap)
+    ax = plot_selectivity_map(smap).ax
     texts = " ".join(t.get_text() for t in ax.texts)
     assert "best network routes" in ax.get_title()
     assert "reaction network" in texts and "22 states" in texts.replace("\n", " ")
     ax.figure.savefig(tmp_path / "net.png", bbox_inches="tight")
     p = selectivity_map(demo, ("CO*", "OH*"), basis="pathways", points=31)
-    ax = plot_selectivity_map(p)
+    ax = plot_selectivity_map(p).ax
     assert "built-in pathways" in ax.get_title()
     assert "Basis: built-in pathways co2rr-co" in " ".join(t.get_text() for t in ax.texts)
 
@@ -216,9 +215,17 @@ def test_winner_chemical_dG_equals_direct_network_and_engine(demo, smap, smap_de
     smap = smap_desorb
     w = smap.winner_max_chemical_dG
     assert w.shape == smap.winner.shape
-    # the demo's strong-CO-binding corner: CO wins there, but CO* -> * + CO(g) is uphill
+    # the demo's strong-CO-binding corner: CO has the best onset there, but CO* -> * + CO(g) is uphill,
+    # so CO is blocked and ranks last; HER (never blocked) wins
     strong = smap.x < -1.0
-    assert np.all(smap.winner[:, strong] == smap.products.index("CO(g)")) and np.all(w[:, strong] > 0.5)
+    co, h2 = smap.products.index("CO(g)"), smap.products.index("H2(g)")
+    assert np.all(smap.max_chemical_dG[co][:, strong] > 0.5)
+    assert np.all(smap.onset[co][:, strong] >= smap.onset.max(axis=0)[:, strong])  # onset alone would pick CO
+    assert np.all(smap.winner[:, strong] == h2) and not smap.winner_blocked.any()
+    # a blocked winner only where every available product is blocked
+    blocked = (smap.max_chemical_dG > 0) & np.isfinite(smap.onset)
+    open_exists = (np.isfinite(smap.onset) & ~blocked).any(axis=0)
+    assert not np.any(smap.winner_blocked & open_exists)
     rng = np.random.default_rng(11)
     for _ in range(8):
         i, j = int(rng.integers(len(smap.y))), int(rng.integers(len(smap.x)))
@@ -247,12 +254,14 @@ def test_winner_chemical_dG_equals_direct_network_and_engine(demo, smap, smap_de
 def test_chemical_limit_excludes_uphill_routes(demo, smap_desorb):
     smap = smap_desorb
     limit = 0.3
-    assert np.nanmax(smap.winner_max_chemical_dG) > limit  # without the limit some winners have such a step
+    assert np.nanmax(smap.max_chemical_dG) > limit  # without the limit some best routes have such a step
     s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=limit, network_options=DESORB_ONLY)
     assert s.conditions["chemical_limit"] == limit and "chemical_limit = 0.3 eV" in s.conditions["rule"]
     assert not np.any(s.winner_max_chemical_dG > limit)  # NaN: no chemical step at all
     assert not np.any(s.max_chemical_dG > limit)
-    assert not np.array_equal(s.winner, smap.winner)
+    # the limit only removes routes the ranking rule already puts last (HER stays open): same winners
+    np.testing.assert_array_equal(s.winner, smap.winner)
+    assert np.isnan(s.onset).sum() > np.isnan(smap.onset).sum()
     rng = np.random.default_rng(5)
     carbon_won = np.argwhere(s.winner != s.products.index("H2(g)"))
     assert len(carbon_won)  # CO still wins somewhere, by a route without a large chemical step
@@ -289,20 +298,26 @@ def test_chemical_limit_excludes_uphill_routes(demo, smap_desorb):
         selectivity_map(demo, ("CO*", "OH*"), points=5, chemical_limit="high")
 
 
-def test_plot_marks_uphill_chemical_step(demo, smap_desorb, tmp_path):
-    smap = smap_desorb
+def test_plot_marks_uphill_chemical_step(demo, tmp_path):
+    # every product blocked on part of the map (invented relations): Volmer-Tafel HER with H* = -0.3 eV
+    # (Tafel dG = +0.6 eV) and CO with CO* < 0.21 eV (desorption uphill); there H2 wins at +0.3 V, blocked
+    rels = [R.given("H*", (), (), -0.3), R.given("COOH*", "CO*", 1.0, 0.1)]
+    smap = selectivity_map(None, ("CO*", "OH*"), ["co2rr-co", "her-volmer-tafel"], rels, x=(-0.6, 0.6), y=(0.0, 1.0), points=(25, 5))
     from ecatlab.plotting.volcano import CHEMICAL_OVERLAY_GID, plot_selectivity_map
 
     def overlay(ax):
         return [a for a in ax.get_children() if a.get_gid() == CHEMICAL_OVERLAY_GID]
 
-    ax = plot_selectivity_map(smap)
+    drawn = plot_selectivity_map(smap)
+    ax = drawn.ax
+    assert len(drawn.parts["overlay"]) == 3 and all(a.get_gid() == CHEMICAL_OVERLAY_GID for a in drawn.parts["overlay"])
     assert np.any(smap.winner_max_chemical_dG > 0.5) and len(overlay(ax)) == 3  # stipple, dotted outline, legend
+    assert smap.winner_blocked.any() and not smap.winner_blocked.all()
     texts = " ".join(t.get_text() for t in ax.texts).replace("\n", " ")
     assert "chemical step uphill by more than 0.5 eV" in texts
     assert "0.5 eV" in ax.get_legend().get_texts()[0].get_text()
     ax.figure.savefig(tmp_path / "chem.png", bbox_inches="tight")
-    assert overlay(plot_selectivity_map(smap, chemical_threshold=None)) == []
+    assert overlay(plot_selectivity_map(smap, chemical_threshold=None).ax) == []
     s = selectivity_map(demo, ("CO*", "OH*"), points=(41, 37), chemical_limit=0.3, network_options=DESORB_ONLY)
-    ax = plot_selectivity_map(s)  # no winner above 0.5 eV: no overlay, the caption names the limit
+    ax = plot_selectivity_map(s).ax  # no winner above 0.5 eV: no overlay, the caption names the limit
     assert overlay(ax) == [] and "above 0.3 eV excluded" in " ".join(t.get_text() for t in ax.texts).replace("\n", " ")

@@ -35,7 +35,8 @@ def test_figures_take_and_return_axes(result):
         lambda ax: plot_determining_step_probabilities(result, "orr-4e", ax=ax),
     ):
         fig, ax = plt.subplots()
-        assert draw(ax) is ax
+        drawn = draw(ax)
+        assert drawn.ax is ax and drawn.data is not None and drawn.parts["caption"] is not None
         assert "ILLUSTRATIVE" in ax.get_title()
         texts = " ".join(t.get_text() for t in ax.texts).replace("\n", " ")
         assert "Theoretical estimates" in texts and "200 samples" in texts
@@ -44,7 +45,10 @@ def test_figures_take_and_return_axes(result):
 
 def test_diagram_band_contains_the_deterministic_level(result):
     fig, ax = plt.subplots()
-    plot_diagram_bands(result, "orr-4e", "ALY-01", potential=0.0, ax=ax)
+    drawn = plot_diagram_bands(result, "orr-4e", "ALY-01", potential=0.0, ax=ax)
+    assert drawn.parts["levels"]["ALY-01"] == [l for l in ax.lines if l.get_linewidth() > 2]
+    d = drawn.data
+    assert ((d["low"] <= d["level"] + 1e-12) & (d["level"] <= d["high"] + 1e-12)).all() and len(d) == 5
     bars = [l for l in ax.lines if l.get_linewidth() > 2]
     bands = ax.collections
     assert len(bars) == 5 and len(bands) == 5
@@ -69,5 +73,6 @@ def test_volcano_band_without_errors_is_the_volcano_line():
     assert summary.loc["apex_descriptor", "low"] <= curve.apex.descriptor[0] + 0.05
     fig, ax = plt.subplots()
     res = propagate(table, "orr-4e", GaussianErrors(0.1), n_samples=100, keep_species=["OH*"])
-    assert plot_volcano_intervals(res, "orr-4e", "OH*", curve=curve, band=default, ax=ax) is ax
+    drawn = plot_volcano_intervals(res, "orr-4e", "OH*", curve=curve, band=default, ax=ax)
+    assert drawn.ax is ax and drawn.parts["volcano"].data is curve and drawn.parts["band"] is not None
     plt.close(fig)

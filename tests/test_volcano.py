@@ -170,7 +170,15 @@ def test_selectivity_map_matches_engine(demo):
     lp = che.limiting_potentials(table, list(s.products))
     wide = lp.pivot(index="surface", columns="pathway", values="limiting_potential").loc[[f"p{i}" for i in range(len(D))], list(s.products)]
     np.testing.assert_allclose(wide.to_numpy().T, s.onset.reshape(5, -1)[:, ::29], atol=1e-12)
-    np.testing.assert_array_equal(np.argmax(wide.to_numpy(), axis=1), s.winner.ravel()[::29])
+    # winner by the ranking rule, written out as a plain loop: unblocked (no uphill chemical step) first,
+    # then the highest onset, ties to the product listed first
+    chem = lp.pivot(index="surface", columns="pathway", values="max_chemical_dG").loc[[f"p{i}" for i in range(len(D))], list(s.products)]
+    expect = []
+    for u_row, c_row in zip(wide.to_numpy(), chem.to_numpy()):
+        keys = [(bool(c > 0), -u, k) for k, (u, c) in enumerate(zip(u_row, c_row))]
+        expect.append(min(keys)[2])
+    np.testing.assert_array_equal(expect, s.winner.ravel()[::29])
+    assert not np.array_equal(expect, np.argmax(wide.to_numpy(), axis=1))  # the onset alone picks differently here
     assert analysis.scale == "RHE"
     assert list(s.surfaces.columns[:3]) == ["surface", "x", "y"] and len(s.surfaces) == 12
 
@@ -182,10 +190,81 @@ def test_selectivity_analytic_her_vs_co():
     s = selectivity_map(None, ("CO*", "OH*"), ["co2rr-co", "her-volmer-heyrovsky"], rels, x=(-1.5, 0.5), y=(0.0, 1.0), points=(81, 5))
     assert np.allclose(s.onset[1], -0.3)
     assert np.all(s.onset[0] == s.onset[0][0])  # OH* plays no role in these pathways
-    co_wins = s.onset[0] > -0.3
-    assert np.array_equal(s.winner == 0, co_wins)
+    # CO beats HER electrochemically where CO* < -0.2 eV, but there CO* -> * + CO(g) is uphill
+    # (dG = G(CO(g)) - G(CO*) = 0.208 - CO* > 0): CO is blocked and HER wins the whole range
+    co_better_onset = s.onset[0] > -0.3
+    assert co_better_onset.any() and np.all(s.max_chemical_dG[0][co_better_onset] > 0)
+    assert np.all(s.winner == 1) and not s.winner_blocked.any()
     with pytest.raises(ScalingError, match="oxidations"):
         selectivity_map(None, ("OH*", "O*"), ["orr-4e", "oer-4e"], [OOH_FROM_OH])
+
+
+#: G(CO(g)) relative to CO2(g), H2(g), H2O(l): dfG(CO,g) + dfG(H2O,l) - dfG(CO2,g)
+#: = -137.168 - 237.129 + 394.359 = 20.062 kJ/mol = 0.2079 eV (NBS tables, Wagman et al., J. Phys. Chem.
+#: Ref. Data 11, suppl. 2 (1982); 96.485 kJ/mol per eV).
+G_CO_GAS = 20.062 / 96.485
+#: Invented relations: H* fixed at 0.5 eV, COOH* = CO* + 0.1 eV.
+BLOCK_RELS = [R.given("H*", (), (), 0.5), R.given("COOH*", "CO*", 1.0, 0.1)]
+BLOCK_X = np.array([-0.3, 0.0, 0.3])
+DESORB_ONLY_NET = {"forbid": ["COOH* + H+ + e- -> * + CO(g) + H2O(l)", "CO2(g) + * + H+ + e- -> OH* + CO(g)"]}
+
+
+def test_blocked_product_does_not_win_the_selectivity_map():
+    # Hand arithmetic at pH 0, RHE (CHE: H+ + e- = 1/2 H2 - eU; G(CO2) = G(H2) = 0 as references):
+    #   HER (Volmer-Heyrovsky), H* = 0.5: onsets -0.5 and +0.5 V -> U_L = -0.5 V, no chemical step.
+    #   CO2 -> CO: dG1 = G(COOH*) + eU, dG2 = G(CO*) - G(COOH*) + eU = -0.1 + eU, dG3 = G(CO(g)) - G(CO*).
+    #   CO* = -0.3: COOH* = -0.2, onsets +0.2, +0.1 -> U_L = +0.1 V; dG3 = 0.208 + 0.3 = 0.508 eV uphill (blocked)
+    #   CO* =  0.0: COOH* = +0.1, onsets -0.1, +0.1 -> U_L = -0.1 V; dG3 = 0.208 eV uphill (blocked)
+    #   CO* = +0.3: COOH* = +0.4, onsets -0.4, +0.1 -> U_L = -0.4 V; dG3 = -0.092 eV (released)
+    # By onset alone CO would win all three columns; by the ranking rule H2 wins the two blocked ones.
+    from ecatlab.references import ReferenceScheme
+
+    assert ReferenceScheme().molecule_free_energy("CO(g)") == pytest.approx(G_CO_GAS, abs=2e-4)
+    s = selectivity_map(None, ("CO*", "OH*"), ["co2rr-co", "her-volmer-heyrovsky"], BLOCK_RELS, x=BLOCK_X, y=[0.0, 0.5, 1.0])
+    assert s.basis == "pathways"
+    np.testing.assert_allclose(s.onset[0], np.broadcast_to([0.1, -0.1, -0.4], (3, 3)), atol=1e-9)
+    np.testing.assert_allclose(s.onset[1], -0.5, atol=1e-9)
+    np.testing.assert_allclose(s.max_chemical_dG[0], np.broadcast_to([G_CO_GAS + 0.3, G_CO_GAS, G_CO_GAS - 0.3], (3, 3)), atol=2e-4)
+    assert np.all(s.winner == [1, 1, 0])
+    np.testing.assert_allclose(s.margin[:, 2], 0.1, atol=1e-9)  # CO -0.4 V vs H2 -0.5 V
+    assert np.all(np.isinf(s.margin[:, :2]))  # H2 is the only unblocked product there
+    assert not s.winner_blocked.any()
+    assert "blocked" in s.conditions["rule"]
+    frame = s.to_frame()
+    assert list(frame["winner"][:3]) == ["H2", "H2", "CO"] and not frame["winner_blocked"].any()
+
+
+def test_blocked_product_wins_only_where_every_product_is_blocked():
+    # Volmer-Tafel HER with H* = -0.3 eV (invented): Volmer onsets +0.3 V, Tafel 2 H* -> H2: dG = +0.6 eV (blocked).
+    # CO as above: blocked at CO* = -0.3 and 0.0 (U_L +0.1, -0.1 V), open at +0.3 (U_L -0.4 V).
+    rels = [R.given("H*", (), (), -0.3), R.given("COOH*", "CO*", 1.0, 0.1)]
+    s = selectivity_map(None, ("CO*", "OH*"), ["co2rr-co", "her-volmer-tafel"], rels, x=BLOCK_X, y=[0.0, 0.5, 1.0])
+    np.testing.assert_allclose(s.onset[1], 0.3, atol=1e-9)
+    np.testing.assert_allclose(s.max_chemical_dG[1], 0.6, atol=1e-9)
+    # both blocked: best onset among them (H2, +0.3 V; margins 0.2 and 0.4 V); CO open at +0.3 eV: CO wins
+    assert np.all(s.winner == [1, 1, 0])
+    np.testing.assert_allclose(s.margin[:, :2], np.broadcast_to([0.2, 0.4], (3, 2)), atol=1e-9)
+    assert np.all(s.winner_blocked == [True, True, False])
+    np.testing.assert_allclose(s.winner_max_chemical_dG[:, 0], 0.6, atol=1e-9)
+
+
+def test_blocked_winner_rule_equals_network_product_ranking():
+    # the same energies as computed surfaces: the map's surfaces and the network's product ranking agree
+    from ecatlab.network import NetworkAnalysis, build_network
+
+    wide = pd.DataFrame({"CO*": BLOCK_X, "COOH*": BLOCK_X + 0.1, "H*": 0.5, "OH*": 0.5}, index=["bind", "mid", "weak"])
+    table = EnergyTable.from_matrix(wide)
+    m = selectivity_map(table, ("CO*", "OH*"), ["CO", "H2"], BLOCK_RELS, x=BLOCK_X, y=[0.0, 0.5, 1.0], basis="network",
+                        network_options=DESORB_ONLY_NET)
+    assert m.basis == "network"
+    ranking = NetworkAnalysis(build_network(table, "CO2", **DESORB_ONLY_NET), table).product_ranking(["CO(g)"])
+    top = ranking[ranking["rank"] == 1].set_index("surface")["product"]
+    assert dict(top) == {"bind": "H2(g)", "mid": "H2(g)", "weak": "CO(g)"}
+    labels = {"H2(g)": "H2", "CO(g)": "CO"}
+    assert list(m.surfaces["winner"]) == [labels[top[n]] for n in m.surfaces["surface"]]
+    assert m.surfaces.set_index("surface").loc["bind", "onset CO"] == pytest.approx(0.1, abs=1e-9)  # better onset, still loses
+    # the grid (synthetic surfaces at the same descriptor values) gives the same winners
+    assert [m.products[k] for k in m.winner[0]] == ["H2(g)", "H2(g)", "CO(g)"]
 
 
 def test_frames_carry_conditions(demo):

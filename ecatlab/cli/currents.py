@@ -163,11 +163,9 @@ def run(args: argparse.Namespace) -> int:
         matplotlib.use("Agg")
         import matplotlib.pyplot as plt
 
-        from ecatlab.plotting.kinetics import plot_polarization, plot_tafel
+        from ecatlab.plotting.kinetics import plot_polarization_tafel
 
-        fig, axs = plt.subplots(1, 2, figsize=(11, 4.5))
-        plot_polarization(pol, ax=axs[0], surfaces=list(model.surfaces)[:8])
-        plot_tafel(pol, ax=axs[1], surfaces=list(model.surfaces)[:8])
+        fig = plot_polarization_tafel(pol, surfaces=list(model.surfaces)[:8]).figure
         target = pathlib.Path(args.figure)
         fd, tmp = temp_file(target.parent if str(target.parent) else ".", suffix=target.suffix)
         os.close(fd)

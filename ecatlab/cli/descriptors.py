@@ -99,8 +99,8 @@ def run(args: argparse.Namespace) -> int:
 
         for name, draw in (("scree", lambda: plot_scree(an, target_rmse=args.target_error)), ("biplot", lambda: plot_biplot(an))):
             if name in targets:
-                ax = draw()
-                write_atomic(targets[name], lambda tmp: ax.figure.savefig(tmp, bbox_inches="tight", format=targets[name].suffix.lstrip(".") or None))
-                plt.close(ax.figure)
+                drawn = draw()
+                write_atomic(targets[name], lambda tmp: drawn.figure.savefig(tmp, bbox_inches="tight", format=targets[name].suffix.lstrip(".") or None))
+                plt.close(drawn.figure)
                 print(f"{name} written to {getattr(args, name)}")
     return 0

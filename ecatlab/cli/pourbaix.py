@@ -122,8 +122,8 @@ def run(args: argparse.Namespace) -> int:
         surface = names[0]
         pmap = pourbaix_map(states, surface, np.linspace(args.range[0], args.range[1], 401), np.linspace(0, 14, 141), args.scale, args.temperature)
         lines = limiting_potential_vs_pH(energies, args.pathway, surface, scale=args.scale, temperature=args.temperature) if energies is not None and surface in energies.surfaces else None
-        ax = plot_pourbaix(pmap, limiting=lines)
-        write_atomic(target, lambda tmp: ax.figure.savefig(tmp, bbox_inches="tight", format=target.suffix.lstrip(".") or None))
-        plt.close(ax.figure)
+        drawn = plot_pourbaix(pmap, limiting=lines)
+        write_atomic(target, lambda tmp: drawn.figure.savefig(tmp, bbox_inches="tight", format=target.suffix.lstrip(".") or None))
+        plt.close(drawn.figure)
         print(f"figure written to {args.output}")
     return 0

@@ -158,14 +158,17 @@ def run(args: argparse.Namespace) -> int:
         matplotlib.use("Agg")
         from ecatlab.plotting.uncertainty import plot_ranking_probabilities
 
-        ax = plot_ranking_probabilities(res, res.pathways[0], top=args.top)
+        import matplotlib.pyplot as plt
+
+        drawn = plot_ranking_probabilities(res, res.pathways[0], top=args.top)
         folder = os.path.dirname(os.path.abspath(args.figure))
         fd, tmp = temp_file(folder, suffix=os.path.splitext(args.figure)[1] or ".png")
         os.close(fd)
         try:
-            ax.figure.savefig(tmp, bbox_inches="tight")
+            drawn.figure.savefig(tmp, bbox_inches="tight")
             os.replace(tmp, args.figure)
         finally:
+            plt.close(drawn.figure)
             if os.path.exists(tmp):
                 os.unlink(tmp)
         print(f"figure written to {args.figure}")

@@ -107,13 +107,13 @@ def run(args: argparse.Namespace) -> int:
         from ecatlab.plotting.export import save_figure
         from ecatlab.plotting.volcano import plot_volcano
 
-        ax = plot_volcano(curve, style=args.style)
+        drawn = plot_volcano(curve, style=args.style)
         try:
-            save_figure(ax.figure, args.output, force=args.force, inputs=[i for i in inputs if i])
+            save_figure(drawn.figure, args.output, force=args.force, inputs=[i for i in inputs if i])
         finally:
             import matplotlib.pyplot as plt
 
-            plt.close(ax.figure)
+            plt.close(drawn.figure)
     if args.json:
         print(json.dumps({"summary": json.loads(summary.to_json(orient="records")), "scaling": json.loads(fits.to_json(orient="records")),
                           "surfaces": json.loads(curve.surfaces.to_json(orient="records")), "conditions": curve.conditions}, indent=2, default=str))

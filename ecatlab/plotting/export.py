@@ -34,6 +34,15 @@ _NO_METADATA = {
 }
 
 
+def _as_figure(obj):
+    """The Figure of a :class:`ecatlab.plotting.handles.Drawn` or an Axes; anything else with ``savefig`` (a Figure) as is."""
+    from ecatlab.plotting.handles import Drawn
+
+    if isinstance(obj, Drawn):
+        return obj.figure
+    return obj if hasattr(obj, "savefig") else obj.figure
+
+
 def _savefig(fig, target, fmt: str, dpi: float, transparent: bool) -> None:
     import matplotlib as mpl
 
@@ -64,7 +73,7 @@ def save_figure(
 
     Parameters
     ----------
-    fig : Figure or Axes
+    fig : Figure, Axes or Drawn
     path : str or PathLike
         Target file. With ``formats`` omitted its suffix picks the format; with ``formats`` given,
         the suffix is replaced by each format's (``"out/orr"`` + ``("svg", "png")`` ->
@@ -102,7 +111,7 @@ def save_figure(
     from ecatlab import safe_io
     from ecatlab.errors import OutputPathError, clip
 
-    fig = getattr(fig, "figure", fig) if not hasattr(fig, "savefig") else fig
+    fig = _as_figure(fig)
     target = pathlib.Path(path)
     if formats is None:
         suffix = target.suffix.lower().lstrip(".")
@@ -140,7 +149,7 @@ def svg_fragment(fig, element_id: str | None = None) -> str:
 
     Parameters
     ----------
-    fig : Figure, Axes or str
+    fig : Figure, Axes, Drawn or str
         The figure, or the text of an SVG file already written by :func:`save_figure` (saves
         rendering the figure twice).
     element_id : str, optional
@@ -150,7 +159,7 @@ def svg_fragment(fig, element_id: str | None = None) -> str:
     if isinstance(fig, str):
         text = fig
     else:
-        fig = fig if hasattr(fig, "savefig") else fig.figure
+        fig = _as_figure(fig)
         buf = io.StringIO()
         _savefig(fig, buf, "svg", 100, False)
         text = buf.getvalue()

@@ -12,6 +12,7 @@ import re
 
 import numpy as np
 
+from ecatlab.plotting.handles import Drawn
 from ecatlab.plotting.style import HIGHLIGHT, PALETTE, preset, style_context
 
 __all__ = ["plot_network", "state_mathtext", "network_view"]
@@ -146,9 +147,15 @@ def plot_network(
 
     Returns
     -------
-    matplotlib Axes
+    Drawn
+        ``data``: DataFrame of the steps drawn (``edge`` index, ``step`` equation, ``dG`` in eV at
+        ``potential``, ``route``: 0 best route, 1.. alternatives, -1 neither); ``parts``: ``states``
+        {state index: Text}, ``dots``, ``background`` (LineCollections), ``routes`` (list per route
+        of arrow Annotations), ``stuck`` (or None), ``colorbar``, ``legend``, ``caption`` (or None);
+        ``axes``: the network and the colour bar.
     """
     import matplotlib.pyplot as plt
+    import pandas as pd
     from matplotlib.collections import LineCollection
     from matplotlib.colors import TwoSlopeNorm
     from matplotlib.lines import Line2D
@@ -180,6 +187,11 @@ def plot_network(
     colormap = plt.get_cmap(cmap)
     labelled = set(shown_states) if len(shown_states) <= max_labels else set(route_states) | {i for r in alt_states for i in r}
     on_any = set(route_edges) | {j for r in alt_routes for j in r}
+    route_of = {j: rank for rank, edges in reversed(list(enumerate([route_edges] + alt_routes))) for j in edges}
+    drawn = pd.DataFrame({"edge": list(shown_edges), "step": [net.edges[j].step.equation for j in shown_edges],
+                          "dG": [float(dG[j]) for j in shown_edges], "route": [route_of.get(j, -1) for j in shown_edges]})
+    drawn.attrs.update({"surface": surface, "potential": float(potential), "scale": analysis.scale, "units": {"dG": "eV"}})
+    background, route_arrows, state_texts, dot_art, ring = [], [], {}, None, None
     with style_context(p):
         if ax is None:
             fig, ax = plt.subplots(figsize=p.figsize)
@@ -191,39 +203,41 @@ def plot_network(
                 continue
             segs = [(pos[net.edges[j].source], pos[net.edges[j].target]) for j in sel]
             cols = [colormap(norm(dG[j])) if np.isfinite(dG[j]) else "#BBBBBB" for j in sel]
-            ax.add_collection(LineCollection(segs, colors=cols, linewidths=p.connector_width_pt * (1.3 if len(sel) < 200 else 0.5),
-                                             linestyles="dashed" if chem else "solid", alpha=1.0 if len(sel) < 200 else 0.5, zorder=1))
+            background.append(ax.add_collection(LineCollection(segs, colors=cols, linewidths=p.connector_width_pt * (1.3 if len(sel) < 200 else 0.5),
+                                                               linestyles="dashed" if chem else "solid", alpha=1.0 if len(sel) < 200 else 0.5, zorder=1)))
         for rank, edges in enumerate([route_edges] + alt_routes):
+            arrows = []
+            route_arrows.append(arrows)
             for j in edges:
                 e = net.edges[j]
                 (x0, y0), (x1, y1) = pos[e.source], pos[e.target]
                 colour = colormap(norm(dG[j])) if np.isfinite(dG[j]) else "#BBBBBB"
                 bend = "arc3,rad=0.0" if x1 != x0 else "arc3,rad=0.35"
                 if rank == 0:
-                    ax.annotate("", xy=(x1, y1), xytext=(x0, y0), zorder=1,
+                    arrows.append(ax.annotate("", xy=(x1, y1), xytext=(x0, y0), zorder=1,
                                 arrowprops=dict(arrowstyle="-", lw=p.level_width_pt * 2.4, color=HIGHLIGHT, shrinkA=9, shrinkB=9,
-                                                connectionstyle=bend))
-                ax.annotate(
+                                                connectionstyle=bend)))
+                arrows.append(ax.annotate(
                     "", xy=(x1, y1), xytext=(x0, y0), zorder=2,
                     arrowprops=dict(arrowstyle="-|>", mutation_scale=9 if rank == 0 else 7, lw=p.connector_width_pt * (2.4 if rank == 0 else 1.4),
                                     color=colour, shrinkA=11, shrinkB=11, linestyle="-" if e.is_electrochemical else (0, (3, 2)),
                                     connectionstyle=bend),
-                )
+                ))
         dots = [i for i in shown_states if i not in labelled]
         if dots:
-            ax.scatter([pos[i][0] for i in dots], [pos[i][1] for i in dots], s=6, color="#777777", zorder=2, linewidths=0)
+            dot_art = ax.scatter([pos[i][0] for i in dots], [pos[i][1] for i in dots], s=6, color="#777777", zorder=2, linewidths=0)
         for i in shown_states:
             if i not in labelled:
                 continue
             s = net.states[i]
             x, y = pos[i]
             on_route = i in route_states
-            ax.text(
+            state_texts[i] = ax.text(
                 x, y, state_mathtext(s.label), ha="center", va="center", fontsize=p.font_pt - 2, zorder=3, linespacing=1.0,
                 bbox=dict(boxstyle="round,pad=0.25", fc="white", ec=PALETTE[0] if on_route else "#999999", lw=1.1 if on_route else 0.6),
             )
         if stuck is not None and stuck in pos:
-            ax.scatter([pos[stuck][0]], [pos[stuck][1]], s=900, facecolors="none", edgecolors=PALETTE[3 % len(PALETTE)],
+            ring = ax.scatter([pos[stuck][0]], [pos[stuck][1]], s=900, facecolors="none", edgecolors=PALETTE[3 % len(PALETTE)],
                        linewidths=1.6, zorder=4, label="stuck here (before the bottleneck step)")
         xs = [xy[0] for xy in pos.values()]
         ys = [xy[1] for xy in pos.values()]
@@ -244,15 +258,18 @@ def plot_network(
         if stuck is not None:
             handles.append(Line2D([], [], ls="", marker="o", mfc="none", mec=PALETTE[3 % len(PALETTE)], ms=10, label="stuck here"))
         below = offset_copy(ax.transAxes, fig=fig, y=-3.6 * p.font_pt, units="points")  # under the x label
-        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(0.0, 0.0), bbox_transform=below, ncol=4, frameon=False,
+        leg = ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(0.0, 0.0), bbox_transform=below, ncol=4, frameon=False,
                   borderaxespad=0.0)
+        cap = None
         if caption:
             est = int(analysis.estimated_mask.sum())
-            ax.annotate(
+            cap = ax.annotate(
                 f"CHE, pH {analysis.pH:g}, {analysis.temperature:g} K; energies: {analysis.table.source}"
                 + (f"; {est} adsorbate energies estimated ({getattr(analysis.estimator, 'method', '')})" if est else "")
                 + f"; {len(shown_states)} of {len(net.states)} states shown. Theoretical estimate (thermodynamics only).",
                 xy=(0, 0), xycoords="axes fraction", xytext=(0, -5.6 * p.font_pt), textcoords="offset points",
                 fontsize=p.font_pt - 2, color="#444444", va="top",
             )
-    return ax
+    return Drawn(ax=ax, data=drawn, axes=(ax, cbar.ax), parts={"states": state_texts, "dots": dot_art, "background": background,
+                                                             "routes": route_arrows, "stuck": ring, "colorbar": cbar, "legend": leg,
+                                                             "caption": cap})

@@ -1,6 +1,7 @@
 """Plot scaling relations: computed points, the fitted line and a ±RMSE residual band.
 
-Draws only; the numbers come from :mod:`ecatlab.scaling`.
+Draws only; the numbers come from :mod:`ecatlab.scaling`. Plotters return a
+:class:`ecatlab.plotting.handles.Drawn`.
 """
 
 from __future__ import annotations
@@ -8,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from ecatlab.notation import Species
+from ecatlab.plotting.handles import Drawn
 from ecatlab.plotting.style import MARKERS, PALETTE, preset, style_context
 from ecatlab.scaling import ScalingRelation, fit_scaling
 
@@ -40,7 +42,10 @@ def plot_scaling(relation: ScalingRelation, energies=None, ax=None, style: str =
 
     Returns
     -------
-    matplotlib Axes
+    Drawn
+        ``data`` the relation; ``parts``: ``line`` (relation, or y = x for two descriptors),
+        ``band`` (±RMSE, or None), ``points`` (or None), ``labels`` (list of Text), ``stats``
+        (the statistics box), ``legend``, ``caption`` (or None).
     """
     from ecatlab.scaling import _as_table
     from ecatlab.plotting.style import figure
@@ -59,17 +64,18 @@ def plot_scaling(relation: ScalingRelation, energies=None, ax=None, style: str =
             y = vals[ok, 0]
             x = vals[ok, 1:]
         band = relation.rmse if relation.rmse is not None else None
+        band_art = points = None
         if len(relation.descriptors) == 1:
             xs = x[:, 0] if len(names) else np.array([])
             lo, hi = (xs.min(), xs.max()) if xs.size else (-1.0, 2.0)
             pad = 0.1 * (hi - lo or 1.0)
             line_x = np.linspace(lo - pad, hi + pad, 50)
             line_y = relation.predict(line_x[:, None])
-            ax.plot(line_x, line_y, color=PALETTE[0], lw=1.6, label="relation", zorder=2)
+            (line,) = ax.plot(line_x, line_y, color=PALETTE[0], lw=1.6, label="relation", zorder=2)
             if band:
-                ax.fill_between(line_x, line_y - band, line_y + band, color=PALETTE[0], alpha=0.15, lw=0, label=f"±RMSE ({band:.2f} eV)", zorder=1)
+                band_art = ax.fill_between(line_x, line_y - band, line_y + band, color=PALETTE[0], alpha=0.15, lw=0, label=f"±RMSE ({band:.2f} eV)", zorder=1)
             if xs.size:
-                ax.scatter(xs, y, s=28, marker=MARKERS[0], color=PALETTE[1], edgecolor="white", linewidth=0.5, zorder=3, label="computed surfaces")
+                points = ax.scatter(xs, y, s=28, marker=MARKERS[0], color=PALETTE[1], edgecolor="white", linewidth=0.5, zorder=3, label="computed surfaces")
                 px, py = xs, y
             ax.set_xlabel(f"{_dg(relation.descriptors[0])} / eV")
             ax.set_ylabel(f"{_dg(relation.target)} / eV")
@@ -78,31 +84,34 @@ def plot_scaling(relation: ScalingRelation, energies=None, ax=None, style: str =
             lo = min(pred.min(), y.min()) if len(names) else -1.0
             hi = max(pred.max(), y.max()) if len(names) else 2.0
             pad = 0.1 * (hi - lo or 1.0)
-            line = np.array([lo - pad, hi + pad])
-            ax.plot(line, line, color=PALETTE[0], lw=1.6, label="y = x", zorder=2)
+            diag = np.array([lo - pad, hi + pad])
+            (line,) = ax.plot(diag, diag, color=PALETTE[0], lw=1.6, label="y = x", zorder=2)
             if band:
-                ax.fill_between(line, line - band, line + band, color=PALETTE[0], alpha=0.15, lw=0, label=f"±RMSE ({band:.2f} eV)", zorder=1)
+                band_art = ax.fill_between(diag, diag - band, diag + band, color=PALETTE[0], alpha=0.15, lw=0, label=f"±RMSE ({band:.2f} eV)", zorder=1)
             if len(names):
-                ax.scatter(pred, y, s=28, marker=MARKERS[0], color=PALETTE[1], edgecolor="white", linewidth=0.5, zorder=3, label="computed surfaces")
+                points = ax.scatter(pred, y, s=28, marker=MARKERS[0], color=PALETTE[1], edgecolor="white", linewidth=0.5, zorder=3, label="computed surfaces")
             px, py = pred, y
             terms = " + ".join(f"{a:.2f} {_dg(d)}" for a, d in zip(relation.slopes, relation.descriptors))
             ax.set_xlabel(f"predicted {_dg(relation.target)} / eV")
             ax.set_ylabel(f"computed {_dg(relation.target)} / eV")
+        labels = []
         if label_points and len(names):
             for k, (nm, xx, yy) in enumerate(zip(names, px, py)):
-                ax.annotate(nm, (xx, yy), xytext=(4, 4 if k % 2 == 0 else -9), textcoords="offset points", fontsize=p.font_pt - 2, color="#404040")
+                labels.append(ax.annotate(nm, (xx, yy), xytext=(4, 4 if k % 2 == 0 else -9), textcoords="offset points", fontsize=p.font_pt - 2, color="#404040"))
         # leave the top ~40 % of the axes for the statistics box
         y0, y1 = ax.get_ylim()
         ax.set_ylim(y0, y1 + 0.6 * (y1 - y0))
-        ax.text(0.02, 0.98, _stats_text(relation), transform=ax.transAxes, va="top", ha="left", fontsize=p.font_pt - 1,
+        stats = ax.text(0.02, 0.98, _stats_text(relation), transform=ax.transAxes, va="top", ha="left", fontsize=p.font_pt - 1,
                 bbox=dict(boxstyle="round,pad=0.3", fc="white", ec="#BBBBBB", lw=0.6))
-        ax.legend(loc="lower right" if (relation.slopes and relation.slopes[0] >= 0) or len(relation.descriptors) != 1 else "lower left", frameon=False)
+        leg = ax.legend(loc="lower right" if (relation.slopes and relation.slopes[0] >= 0) or len(relation.descriptors) != 1 else "lower left", frameon=False)
         ax.set_title(f"Scaling relation of {relation.target}")
+        cap = None
         if caption:
             source = relation.source if table is None else f"{relation.source}"
-            ax.annotate(f"{source}. Theoretical estimate.", xy=(0.5, 0), xycoords=ax.xaxis.label, xytext=(0, -3), textcoords="offset points",
-                        fontsize=p.font_pt - 2, color="#555555", va="top", ha="center", annotation_clip=False)
-    return ax
+            cap = ax.annotate(f"{source}. Theoretical estimate.", xy=(0.5, 0), xycoords=ax.xaxis.label, xytext=(0, -3), textcoords="offset points",
+                              fontsize=p.font_pt - 2, color="#555555", va="top", ha="center", annotation_clip=False)
+    return Drawn(ax=ax, data=relation, parts={"line": line, "band": band_art, "points": points, "labels": labels, "stats": stats,
+                                              "legend": leg, "caption": cap})
 
 
 def _stats_text(r: ScalingRelation) -> str:
