@@ -333,6 +333,7 @@ def browser_page(chromium_executable, sync_playwright_factory, artifacts_dir, pr
 def open_and_run_all(page, lab, notebook: str) -> None:
     """Open ``notebook`` (a path under the server's root) in JupyterLab, wait for an idle kernel,
     run all cells from the Run menu as a user would, and wait until every code cell has run."""
+    t0 = time.monotonic()
     page.goto(lab.url(f"lab/tree/{notebook}", reset=""), timeout=PAGE_LOAD_MS)
     page.wait_for_selector(".jp-NotebookPanel .jp-Notebook .jp-Cell", timeout=PAGE_LOAD_MS)
     _wait_for_kernel_answering_dialogs(page, PAGE_LOAD_MS)
@@ -347,3 +348,4 @@ def open_and_run_all(page, lab, notebook: str) -> None:
         arg=n_code, timeout=RUN_ALL_MS,
     )
     _wait_kernel_idle(page, RUN_ALL_MS)
+    print(f"[e2e] {notebook}: opened and ran {n_code} code cells in {time.monotonic() - t0:.1f} s")
