@@ -37,7 +37,6 @@ from __future__ import annotations
 
 import base64
 import hashlib
-import io
 import json
 import math
 import re
@@ -250,6 +249,8 @@ def _check_subtitle(probe: dict, entry: str, label: str) -> None:
 def _check_png_is_fresh(page, explorer, probe: dict, label: str) -> None:
     """The diagram PNG in the page is the one the kernel sent last, and that equals a fresh full
     render of the same figure: the fast redraw path left nothing stale behind (no text drawn twice)."""
+    outputs = _tab(explorer)["diagram_outputs"]
+    assert outputs == [1], f"{label}: the diagram area holds {outputs} images, expected one (no stacked pictures)"
     src = explorer.evaluate("(root) => { const i = Array.from(root.querySelectorAll('.widget-output img')).find("
                             "(el) => el.getClientRects().length > 0); return i ? i.getAttribute('src') : null; }")
     assert src and src.startswith("data:image/png;base64,"), f"{label}: diagram image source not understood: {str(src)[:60]!r}"
@@ -566,30 +567,35 @@ def _network_tab(page, explorer, artifacts, seen: dict) -> None:
     image = _image(snap)
     product = snap["network_product"]["selected"][0]
     surface = snap["network_surface"]["selected"][0]
-    for surf, label in ((surface, "default surface"), (_best_ranked("orr-4e")[0], "another surface")):
-        if label == "another surface":
-            if surf == surface:
-                surf = snap["network_surface"]["options"][-1]
-            explorer.locator(".widget-dropdown", has=page.locator("label", has_text=re.compile(r"^surface$"))).filter(visible=True) \
-                .locator("select").select_option(label=surf)
-            page.wait_for_function(
-                "([root, before]) => Array.from(root.querySelectorAll('img')).some((i) => i.getClientRects().length > 0 && i.getAttribute('src') !== before)",
-                arg=[explorer.element_handle(), image["src"]], timeout=UPDATE_MS,
-            )
-            snap = _wait_images(page, explorer, "network tab, another surface")
-            _no_errors(snap, "network tab, another surface")
-            assert snap["network_surface"]["selected"] == [surf]
-        rows, best_row, best_path, stuck = _expected_network(surf, product, 0.0)
-        print(f"[e2e] network {surf} -> {product}: page best route {snap['network'][:1]}; library {rows[:1]}")
-        assert snap["network"] == rows, f"network routes on {surf} differ from the library:\npage    {snap['network']}\nlibrary {rows}"
-        assert snap["network"][0][0] == "1", snap["network"]
-        steps = "; ".join(s.equation for s in best_path.steps)
-        assert steps == str(best_row["route_steps"]), f"best_route() {steps!r} and best_routes() rank 1 {best_row['route_steps']!r} differ"
-        note = snap["network_note"] or ""
-        want = (f"At U = +0.00 V the surface gets stuck at {stuck['stuck_at']} (next step {stuck['bottleneck_step']}, "
-                f"dG = {stuck['bottleneck_dG']:+.2f} eV).")
-        assert note.startswith(want), f"network stuck point: page {note!r}, library {want!r}"
-        _save(explorer, artifacts, f"tabs_06_network_{surf}.png")
+    _check_network(explorer, snap, surface, product, artifacts)
+    # another surface (the best-ranked ORR surface; the tab starts on the table's first one)
+    other = next(s for s in [_best_ranked("orr-4e")[0]] + snap["network_surface"]["options"] if s != surface)
+    explorer.locator(".widget-dropdown", has=page.locator("label", has_text=re.compile(r"^surface$"))).filter(visible=True) \
+        .locator("select").select_option(label=other)
+    page.wait_for_function(
+        "([root, before]) => Array.from(root.querySelectorAll('img')).some((i) => i.getClientRects().length > 0 && i.getAttribute('src') !== before)",
+        arg=[explorer.element_handle(), image["src"]], timeout=UPDATE_MS,
+    )
+    snap = _wait_images(page, explorer, "network tab, another surface")
+    _no_errors(snap, "network tab, another surface")
+    assert snap["network_surface"]["selected"] == [other], snap["network_surface"]
+    _check_network(explorer, snap, other, product, artifacts)
+
+
+def _check_network(explorer, snap: dict, surface: str, product: str, artifacts) -> None:
+    """Routes table (best first), best route and stuck point of the page against the network analysis here."""
+    _image(snap)
+    rows, best_row, best_path, stuck = _expected_network(surface, product, 0.0)
+    print(f"[e2e] network {surface} -> {product}: page best route {snap['network'][:1]}; library {rows[:1]}")
+    assert snap["network"] == rows, f"network routes on {surface} differ from the library:\npage    {snap['network']}\nlibrary {rows}"
+    assert snap["network"][0][0] == "1", snap["network"]
+    steps = "; ".join(s.equation for s in best_path.steps)
+    assert steps == str(best_row["route_steps"]), f"best_route() {steps!r} and best_routes() rank 1 {best_row['route_steps']!r} differ"
+    note = snap["network_note"] or ""
+    want = (f"At U = +0.00 V the surface gets stuck at {stuck['stuck_at']} (next step {stuck['bottleneck_step']}, "
+            f"dG = {stuck['bottleneck_dG']:+.2f} eV).")
+    assert note.startswith(want), f"network stuck point: page {note!r}, library {want!r}"
+    _save(explorer, artifacts, f"tabs_06_network_{surface}.png")
 
 
 def _kinetics_tab(page, explorer, artifacts, seen: dict) -> None:
@@ -602,7 +608,8 @@ def _kinetics_tab(page, explorer, artifacts, seen: dict) -> None:
     assert len(surfaces) == DEFAULT_SURFACE_COUNT, surfaces
     want = _expected_kinetics("orr-4e", surfaces)
     assert snap["kinetics"] == want, f"kinetics onset table differs from the library:\npage    {snap['kinetics']}\nlibrary {want}"
-    for row in want:  # reduction: onsets below U_eq = 1.229 V (common practice, no source: onset overpotential >= 0)
+    # a net reduction current needs U below U_eq (Bard & Faulkner, Electrochemical Methods, 2nd ed. 2001, ch. 3; from memory)
+    for row in want:
         if row[1] != "not reached":
             assert float(row[1].replace(MINUS, "-")) <= E0_O2_H2O + E0_TOLERANCE, row
     assert "ESTIMATED barriers" in snap["kinetics_info"], snap["kinetics_info"]
