@@ -188,19 +188,27 @@ _ERROR_PATTERNS = re.compile(r"Not applied;|\((?:volcano|network|kinetics|surfac
 # the notebook and the kernel probe
 # ------------------------------------------------------------------------------------------------
 def _write_notebook(folder) -> None:
-    import nbformat
+    """The test's notebook (nbformat 4.5 JSON, written directly: ``nbformat.write`` validates for ~30 s
+    on this machine). The server serves a temporary copy of notebooks/, so nothing lands in the checkout."""
 
-    nb = nbformat.v4.new_notebook()
-    nb.metadata["kernelspec"] = {"display_name": "Python 3", "language": "python", "name": "python3"}
-    nb.metadata["language_info"] = {"name": "python"}
-    nb.cells = [
-        nbformat.v4.new_markdown_cell("**ILLUSTRATIVE data** (invented scenario): browser test of every explorer tab. "
-                                      "Theoretical estimates only."),
-        nbformat.v4.new_code_cell(_SETUP),
-        nbformat.v4.new_code_cell(_PROBE),
-        nbformat.v4.new_code_cell(_SHOW),
-    ]
-    nbformat.write(nb, str(folder / NOTEBOOK))
+    def cell(i: int, kind: str, source: str) -> dict:
+        c = {"cell_type": kind, "id": f"e2e-tabs-{i}", "metadata": {}, "source": source.splitlines(keepends=True)}
+        if kind == "code":
+            c.update(execution_count=None, outputs=[])
+        return c
+
+    nb = {
+        "nbformat": 4, "nbformat_minor": 5,
+        "metadata": {"kernelspec": {"display_name": "Python 3", "language": "python", "name": "python3"},
+                     "language_info": {"name": "python"}},
+        "cells": [
+            cell(0, "markdown", "**ILLUSTRATIVE data** (invented scenario): browser test of every explorer tab. Theoretical estimates only."),
+            cell(1, "code", _SETUP),
+            cell(2, "code", _PROBE),
+            cell(3, "code", _SHOW),
+        ],
+    }
+    (folder / NOTEBOOK).write_text(json.dumps(nb, indent=1), encoding="utf-8")
 
 
 def _probe(page) -> dict:
