@@ -278,10 +278,6 @@ def _energies():
     return demo_energies()
 
 
-def _num(value, fmt: str) -> str:
-    return format(float(value), fmt).replace("-", MINUS)
-
-
 def _best_ranked(pathway: str) -> list[str]:
     from ecatlab import che
     from ecatlab.che import kernel
@@ -291,19 +287,15 @@ def _best_ranked(pathway: str) -> list[str]:
     return [str(s) for s in lp.index[order]]
 
 
-def _expected_volcano(pathway: str, descriptor: str) -> list[list[str]]:
-    """Rows of ``volcano(...).summary()`` as the page prints them (floats signed, 3 digits)."""
+def _expected_volcano(pathway: str, descriptor: str) -> list[list]:
+    """Rows of ``volcano(...).summary()``: quantity, value (float or text), unit, note."""
     from ecatlab.volcano import volcano
 
     fit_against = "OH*" if descriptor == "O* - OH*" else None  # documented in docs/scaling_and_volcanoes.md
     curve = volcano(_energies(), pathway, descriptor, pH=0.0, scale="RHE", temperature=TEMPERATURE, fit_against=fit_against)
 
-    def cell(v):
-        if isinstance(v, float):
-            return _num(v, "+.3f") if math.isfinite(v) else "n/a"
-        return str(v)
-
-    return [[str(r.quantity), cell(r.value), str(r.unit), str(r.note)] for r in curve.summary().itertuples(index=False)]
+    return [[str(r.quantity), float(r.value) if isinstance(r.value, float) else str(r.value), str(r.unit), str(r.note)]
+            for r in curve.summary().itertuples(index=False)]
 
 
 def _expected_network(surface: str, product: str, potential: float):
@@ -313,15 +305,14 @@ def _expected_network(surface: str, product: str, potential: float):
     an = NetworkAnalysis(build_network(table, "CO2"), table, pH=0.0, scale="RHE", temperature=TEMPERATURE)
     routes = an.best_routes(product, top=3)
     routes = routes[routes["surface"] == surface]
-    rows = [[str(int(r["rank"])), f"{r['limiting_potential']:+.3f}", "yes" if r["blocked"] else "no", str(r["determining_step"]),
-             f"yes (±{r['estimate_error']:.2f} eV)" if r["estimated"] else "no", str(r["route"]).split(" via ")[-1]]
-            for _, r in routes.iterrows()]
+    rows = [[float(r["rank"]), float(r["limiting_potential"]), bool(r["blocked"]), str(r["determining_step"]), bool(r["estimated"]),
+             str(r["route"]).split(" via ")[-1]] for _, r in routes.iterrows()]  # the page names a route by its intermediates
     best = best_route(table, surface, "CO2", product, pH=0.0, scale="RHE", temperature=TEMPERATURE)
     stuck = an.stuck_points(product, potential=potential).set_index("surface").loc[surface]
     return rows, routes.iloc[0], best, stuck
 
 
-def _expected_kinetics(pathway: str, surfaces: list[str], onset_current: float = 10.0) -> list[list[str]]:
+def _expected_kinetics(pathway: str, surfaces: list[str], onset_current: float = 10.0) -> list[list]:
     """Onset table of the kinetics tab from the public kinetics API: estimated barriers (intrinsic
     0.3 eV, symmetry factor 0.5: the tab's defaults), 111 potentials from U_eq - 1 V to U_eq + 0.1 V
     (reduction) or U_eq - 0.1 V to U_eq + 1 V (oxidation), onset at 10 mA/cm^2."""
@@ -334,9 +325,36 @@ def _expected_kinetics(pathway: str, surfaces: list[str], onset_current: float =
     u_eq = info.equilibrium_potential_at_activities
     lo, hi = (u_eq - 1.0, u_eq + 0.1) if info.direction == "reduction" else (u_eq - 0.1, u_eq + 1.0)
     summary = kinetics_summary(solve_steady_state(model, np.linspace(lo, hi, 111), warn=False), onset_current)
-    return [[str(r.surface), _num(r.onset_potential, "+.3f") if r.reached else "not reached",
-             _num(r.onset_overpotential, ".3f") if r.reached else "n/a", _num(r.max_abs_current_density, ".2e"), str(r.barriers),
-             "yes" if r.all_converged else "NO"] for r in summary.itertuples(index=False)]
+    return [[str(r.surface), float(r.onset_potential) if r.reached else "not reached", float(r.onset_overpotential) if r.reached else "n/a",
+             float(r.max_abs_current_density), str(r.barriers), bool(r.all_converged)] for r in summary.itertuples(index=False)]
+
+
+_NUMBER = re.compile(r"[+-]?\d+(?:\.(\d+))?(?:e([+-]?\d+))?")
+
+
+def _same_cell(shown: str, value) -> bool:
+    """Does the page's cell text show the library ``value``? A float matches a number within half a unit of
+    its last shown digit (any sign/minus style, fixed or e-notation; 'n/a' for a non-finite value), a bool
+    'yes'/'no' (a trailing note allowed), anything else the same text."""
+    text = shown.replace(MINUS, "-").replace("\u00a0", " ").strip()
+    if isinstance(value, bool):
+        return text.lower().split(" ")[0] == ("yes" if value else "no")
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            return text == "n/a"
+        m = _NUMBER.fullmatch(text)
+        if not m:
+            return False
+        tol = 0.5 * 10.0 ** (int(m.group(2) or 0) - len(m.group(1) or "")) * (1 + 1e-9) + 1e-12
+        return abs(float(text) - value) <= tol
+    return text == str(value)
+
+
+def _same_rows(page_rows: list[list[str]], library_rows: list[list], label: str) -> None:
+    bad = [(i, j, p, v) for i, (pr, lr) in enumerate(zip(page_rows, library_rows)) for j, (p, v) in enumerate(zip(pr, lr))
+           if not _same_cell(p, v)]
+    assert len(page_rows) == len(library_rows) and all(len(p) == len(v) for p, v in zip(page_rows, library_rows)) and not bad, (
+        f"{label}: the page differs from the library (row, column, page, library): {bad[:8]}\npage    {page_rows}\nlibrary {library_rows}")
 
 
 def _expected_pourbaix(surface: str, pathway: str, potential: float):
@@ -540,6 +558,7 @@ def _uncertainty_option(page, explorer, artifacts, seen: dict) -> None:
     )
     snap = _wait_images(page, explorer, "uncertainty redraw", count=2)
     _no_errors(snap, "uncertainty redraw")
+    assert "sigma 0.11 eV" in snap["uncertainty_info"], f"the redraw does not state the new sigma: {snap['uncertainty_info']!r}"
     state = _settle(page, explorer, quiet_s=QUIET_S)
     _check_readout(state, "orr-4e")  # the read-out is untouched by the uncertainty option
     _save(explorer.locator(".widget-vbox:has(> .widget-html .ecatlab-uncertainty-info)"), artifacts, "tabs_03_diagram_uncertainty.png")
@@ -550,7 +569,7 @@ def _volcano_tab(page, explorer, artifacts, seen: dict) -> None:
     image = _image(snap)
     assert snap["descriptor"]["selected"] == ["OH*"], snap["descriptor"]
     want = _expected_volcano("orr-4e", "OH*")
-    assert snap["volcano"] == want, f"volcano summary differs from the library:\npage    {snap['volcano']}\nlibrary {want}"
+    _same_rows(snap["volcano"], want, "volcano summary, orr-4e vs OH*")
     assert "orr-4e vs OH*" in snap["volcano_info"], snap["volcano_info"]
     _save(explorer, artifacts, "tabs_04_volcano.png")
     hash_before = _pixel_hash(_visible_image(explorer, "img.widget-image"))
@@ -564,7 +583,7 @@ def _volcano_tab(page, explorer, artifacts, seen: dict) -> None:
     _no_errors(snap, "volcano tab, descriptor O*")
     assert snap["descriptor"]["selected"] == ["O*"], snap["descriptor"]
     want = _expected_volcano("orr-4e", "O*")
-    assert snap["volcano"] == want, f"volcano summary (O*) differs from the library:\npage    {snap['volcano']}\nlibrary {want}"
+    _same_rows(snap["volcano"], want, "volcano summary, orr-4e vs O*")
     assert _pixel_hash(_visible_image(explorer, "img.widget-image")) != hash_before, "the volcano image did not change with the descriptor"
     seen["volcano ORR O*"] = _pixel_hash(_visible_image(explorer, "img.widget-image"))
     _save(explorer, artifacts, "tabs_05_volcano_descriptor.png")
@@ -595,8 +614,8 @@ def _check_network(explorer, snap: dict, surface: str, product: str, artifacts) 
     _image(snap)
     rows, best_row, best_path, stuck = _expected_network(surface, product, 0.0)
     print(f"[e2e] network {surface} -> {product}: page best route {snap['network'][:1]}; library {rows[:1]}")
-    assert snap["network"] == rows, f"network routes on {surface} differ from the library:\npage    {snap['network']}\nlibrary {rows}"
-    assert snap["network"][0][0] == "1", snap["network"]
+    _same_rows(snap["network"], rows, f"network routes on {surface}")
+    assert snap["network"][0][0] == "1", snap["network"]  # best first
     steps = "; ".join(s.equation for s in best_path.steps)
     assert steps == str(best_row["route_steps"]), f"best_route() {steps!r} and best_routes() rank 1 {best_row['route_steps']!r} differ"
     note = snap["network_note"] or ""
@@ -615,11 +634,11 @@ def _kinetics_tab(page, explorer, artifacts, seen: dict) -> None:
 
     assert len(surfaces) == DEFAULT_SURFACE_COUNT, surfaces
     want = _expected_kinetics("orr-4e", surfaces)
-    assert snap["kinetics"] == want, f"kinetics onset table differs from the library:\npage    {snap['kinetics']}\nlibrary {want}"
+    _same_rows(snap["kinetics"], want, "kinetics onset table")
     # a net reduction current needs U below U_eq (Bard & Faulkner, Electrochemical Methods, 2nd ed. 2001, ch. 3; from memory)
     for row in want:
         if row[1] != "not reached":
-            assert float(row[1].replace(MINUS, "-")) <= E0_O2_H2O + E0_TOLERANCE, row
+            assert row[1] <= E0_O2_H2O + E0_TOLERANCE, row
     assert "ESTIMATED barriers" in snap["kinetics_info"], snap["kinetics_info"]
     _save(explorer, artifacts, "tabs_07_kinetics.png")
 
@@ -675,7 +694,7 @@ def _reaction_switch(page, explorer, artifacts, seen: dict) -> None:
             assert snap["descriptor"]["selected"] == ["O* - OH*"], snap["descriptor"]
             assert _pixel_hash(_visible_image(explorer, "img.widget-image")) != seen["volcano ORR O*"], "the volcano image did not change with the pathway"
             want = _expected_volcano("oer-4e", "O* - OH*")
-            assert snap["volcano"] == want, f"volcano summary (OER) differs from the library:\npage    {snap['volcano']}\nlibrary {want}"
+            _same_rows(snap["volcano"], want, "volcano summary, oer-4e vs O* - OH*")
             _save(explorer, artifacts, "tabs_10_volcano_OER.png")
             explorer.locator(".lm-TabBar-tab", has_text=re.compile("^diagram$")).click()
             _wait_images(page, explorer, "diagram tab again", count=2)
