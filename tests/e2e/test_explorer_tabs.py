@@ -5,7 +5,8 @@ checkout): the explorer on the bundled ILLUSTRATIVE demo table with the opt-in "
 added, plus a probe cell that prints, as one JSON line, what only the kernel knows (the texts of the
 diagram figure with their window extents, the PNG last sent to the page and a fresh full render of
 the same figure). A user's clicks then go through every tab; each step is checked in the page
-against the library called **in this test process**:
+against the library called **in this test process** (numbers: equal within half a unit of the last
+digit the page shows, whatever number format the page uses):
 
 * diagram tab: live widgets and a non-empty image; the default surface selection is the
   best-ranked surfaces (``che.kernel.ranking_order`` on ``che.limiting_potentials``); the subtitle
@@ -14,7 +15,8 @@ against the library called **in this test process**:
   text behind); "snap to limiting potential" puts the engine's U_L into the number box to 0.1 mV
   (not the slider's 0.01 V step) and the focus surface then has no uphill electrochemical step;
   switching reaction resets U to that reaction's equilibrium potential.
-* "show uncertainty" on the diagram tab: its figure appears and the redraw completes.
+* "show uncertainty" on the diagram tab: its figure (ranking and determining-step probabilities with
+  Monte-Carlo error bars) appears, and a redraw for another sigma completes and states that sigma.
 * volcano tab: the summary table equals ``ecatlab.volcano.volcano(...).summary()``; a new descriptor
   and a new pathway each change the image and the table stays equal to the library.
 * network tab: the routes shown (best first) equal ``NetworkAnalysis.best_routes`` and the best one
