@@ -630,6 +630,11 @@ def _check_network(explorer, snap: dict, surface: str, product: str, artifacts) 
 def _kinetics_tab(page, explorer, artifacts, seen: dict) -> None:
     snap = _open_tab(page, explorer, "kinetics")
     _image(snap)
+    controls = explorer.evaluate(
+        "(root) => Array.from(root.querySelectorAll('.widget-text')).filter((el) => el.getClientRects().length > 0)"
+        ".map((el) => [(el.querySelector('.widget-label') || {textContent: ''}).textContent.trim(), el.querySelector('input').value])")
+    assert controls == [["intrinsic barrier (eV)", "0.3"], ["symmetry factor", "0.5"], ["onset j (mA/cm²)", "10"]], (
+        f"kinetics tab controls: {controls}")
     surfaces = [r[0] for r in snap["kinetics"]]
     assert sorted(surfaces) == sorted(_best_ranked("orr-4e")[:len(surfaces)]) and surfaces, f"kinetics surfaces {surfaces}"
     from ecatlab.explorer.model import DEFAULT_SURFACE_COUNT
