@@ -153,9 +153,14 @@ class JupyterLabServer:
             return ""
 
 
-@pytest.fixture
-def jupyterlab(tmp_path: pathlib.Path, artifacts_dir: pathlib.Path):
-    """JupyterLab on 127.0.0.1:<free port> with a random token, serving a temporary copy of notebooks/."""
+@pytest.fixture(scope="session")
+def jupyterlab(tmp_path_factory: pytest.TempPathFactory, artifacts_dir: pathlib.Path):
+    """JupyterLab on 127.0.0.1:<free port> with a random token, serving a temporary copy of notebooks/.
+
+    One server for the whole session (its start-up is a good part of a browser test's time); each
+    test opens its own notebook in a fresh browser, and tests that write notebooks write them into
+    ``root_dir`` (the temporary copy), never into the checkout."""
+    tmp_path = tmp_path_factory.mktemp("jupyterlab")
     root_dir = tmp_path / "notebooks"
     shutil.copytree(ROOT / "notebooks", root_dir, ignore=shutil.ignore_patterns(".ipynb_checkpoints"))
     home = tmp_path / "jupyter"
