@@ -18,6 +18,7 @@ matplotlib.use("Agg")
 import importlib.util
 import io
 import math
+import re
 import pathlib
 
 import numpy as np
@@ -194,3 +195,40 @@ def test_one_notebook_cell_route_equals_cli(route):
     assert np.allclose(direct["limiting_potential"], via_csv["limiting_potential"], atol=1e-5)
     assert list(direct["determining_step"]) == list(via_csv["determining_step"])
     assert math.isfinite(direct["limiting_potential"].sum())
+
+
+def test_illustrative_label_travels_through_every_output(route, tmp_path):
+    """ingest -> table (CSV and Markdown) -> report: the tree's ILLUSTRATIVE label is in each output."""
+    import contextlib
+
+    csv, printed, report = route
+    text = csv.read_text(encoding="utf-8")
+    assert text.startswith("# ILLUSTRATIVE EXAMPLE -- INVENTED NUMBERS, NOT CALCULATIONS")
+    rows = pd.read_csv(csv, comment="#")
+    assert set(rows["provenance"]) == {"ILLUSTRATIVE EXAMPLE -- INVENTED NUMBERS, NOT CALCULATIONS"}  # on every row
+    assert printed.startswith("# ILLUSTRATIVE data")  # the table's CSV caption comment
+    buf = io.StringIO()
+    with contextlib.redirect_stdout(buf):
+        assert main(["table", str(csv), "--pathway", *PATHWAYS, "--format", "markdown"]) == 0
+    assert buf.getvalue().startswith("**Table.** ILLUSTRATIVE data")
+    banner = report.split('<div class="banner">')[1].split("</div>")[0]
+    assert banner.startswith("ILLUSTRATIVE data")
+    captions = re.findall(r"<caption[^>]*>(.*?)</caption>", report, flags=re.S)
+    assert captions and all("ILLUSTRATIVE" in c for c in captions)
+    # the route writes only where it is told: nothing left in the tree or the working folder
+    assert not (TREE / "energies.csv").exists() and not (ROOT / "energies.csv").exists() and not (ROOT / "report.html").exists()
+
+
+def test_real_tree_without_the_label_stays_unlabelled(tmp_path):
+    """A tree without an ILLUSTRATIVE README gets no label (the label is not stamped on everything)."""
+    import shutil
+
+    from ecatlab.ingest import energy_table_from_vasp, illustrative_label
+
+    copy = tmp_path / "tree"
+    shutil.copytree(TREE, copy)
+    (copy / "README.txt").write_text("Pt(111) runs of 2025, PBE\n", encoding="utf-8")
+    assert illustrative_label(copy) == ""
+    frame = energy_table_from_vasp(copy, corrections=copy / "corrections.csv")
+    assert "provenance" not in frame.columns and not frame.attrs.get("illustrative")
+    assert illustrative_label(TREE) == "ILLUSTRATIVE EXAMPLE -- INVENTED NUMBERS, NOT CALCULATIONS"
