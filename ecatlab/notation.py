@@ -557,12 +557,14 @@ class Pathway:
     def _repr_html_(self) -> str:
         from html import escape
 
+        from ecatlab import chemtext
+
         rows = "".join(
-            f"<tr><td>{i + 1}</td><td>{escape(s.equation)}</td><td>{'electrochemical' if s.is_electrochemical else 'chemical'}</td></tr>"
+            f"<tr><td>{i + 1}</td><td>{chemtext.html(s.equation)}</td><td>{'electrochemical' if s.is_electrochemical else 'chemical'}</td></tr>"
             for i, s in enumerate(self.steps)
         )
         return (
-            f"<b>{escape(self.name)}</b> ({self.direction}, {abs(self.total_electrons):g} e<sup>-</sup>): "
+            f"<b>{escape(self.name)}</b> ({self.direction}, {abs(self.total_electrons):g} {chemtext.html('e-')}): "
             f"{escape(self.description)}<table><tr><th>#</th><th>step</th><th>kind</th></tr>{rows}</table>"
         )
 
