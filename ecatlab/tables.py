@@ -363,8 +363,8 @@ def is_illustrative(obj) -> bool:
         frame = obj.frame
         for col in ("source", "provenance", "note"):
             if col in frame.columns:
-                values = pd.unique(frame[col].astype(str))
-                if any("illustrative" in v.lower() for v in values):
+                values = pd.unique(frame[col])  # distinct values first: cheap on large screens
+                if any("illustrative" in str(v).lower() for v in values):
                     return True
     return False
 
