@@ -150,3 +150,15 @@ def test_render_table_is_what_the_cli_prints(capsys):
         "limiting_potential [V vs RHE]", "equilibrium_potential [V vs RHE]", "overpotential [V]"]
     lines = [ln for ln in out.splitlines() if ln.startswith("| ALY-01")]
     assert lines and "1.229" in lines[0]
+
+
+def test_latex_escapes_hostile_surface_names():
+    r"""A surface name is user text: TeX specials escaped, no \input executed, structure intact."""
+    matrix = pd.DataFrame({"H*": [0.1, -0.2, 0.3]}, index=[r"\input{/etc/passwd}", "50%_A&B #1", "$x^2$ ~y"])
+    lp = limiting_potentials(EnergyTable.from_matrix(matrix), "her-volmer-heyrovsky")
+    tex = T.to_latex(T.limiting_potential_table(lp))
+    body = tex.split(r"\midrule")[1].split(r"\bottomrule")[0]
+    assert r"\textbackslash{}input\{/etc/passwd\}" in body and r"\input{" not in body
+    assert r"50\%\_A\&B \#1" in body and r"\$x\textasciicircum{}2\$ \textasciitilde{}y" in body
+    rows = [ln for ln in body.strip().splitlines() if ln.strip()]
+    assert len(rows) == 3 and all(len(re.findall(r"(?<!\\)&", r)) == len(T.limiting_potential_table(lp).columns) - 1 for r in rows)
