@@ -446,13 +446,17 @@ def _plan(table: pd.DataFrame, decimals: int | None, units_in_headers: bool = Tr
             header = f"{header} [{unit}]"
         if pd.api.types.is_bool_dtype(s):
             kind = "bool"
+        elif pd.api.types.is_numeric_dtype(s) and quantity in ("pH", "temperature"):
+            kind = "float"  # conditions: 2 decimals in text tables (CSV: shortest digits)
         elif pd.api.types.is_integer_dtype(s):
             kind = "int"
         elif pd.api.types.is_numeric_dtype(s):
             values = s.to_numpy(dtype=float, na_value=np.nan)
             finite = values[np.isfinite(values)]
             integral = finite.size > 0 and bool(np.all(finite == np.round(finite))) and np.all(np.abs(finite) < 2**53)
-            kind = "int" if integral and quantity == "other" else "float"
+            # a whole-number column of counts (electrons, steps) is written as integers; a column
+            # whose decimals are set explicitly, or holding potentials/energies, stays a float
+            kind = "int" if integral and quantity == "other" and per_col.get(col) is None else "float"
         else:
             kind = "text"
         d = None
