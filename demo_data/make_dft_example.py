@@ -15,7 +15,7 @@ The tree follows the folder convention of ``ecatlab ingest`` (docs/ingestion.md)
       DEMO-A/slab/, OH/, O/, OOH/, H/     with vib/ runs (vasprun.xml <dynmat>) for OH, O, OOH
       DEMO-B/slab/, OH/, O/, OOH/, H/     with vib/ runs for OH (OUTCAR only) and OOH
 
-The files are written by :mod:`ecatlab.ingest.synthetic` and are byte-reproducible; a test
+The files are written by ``tests/fake_vasp.py`` (a test helper) and are byte-reproducible; a test
 regenerates the tree and compares it with the committed copy.
 
 Run from the repository root:  python demo_data/make_dft_example.py [TARGET_FOLDER]
@@ -77,16 +77,21 @@ Layout (see docs/ingestion.md):
   corrections.csv            ZPE, CpdT, TS (eV) for adsorbates without a vib/ run
 
 Regenerate with: python demo_data/make_dft_example.py
-Route (from the repository root):
-  ecatlab ingest demo_data/dft_example -o energies.csv --corrections demo_data/dft_example/corrections.csv
-  ecatlab table energies.csv --pathway orr-4e oer-4e her-volmer-heyrovsky
-  ecatlab report energies.csv --pathway orr-4e oer-4e her-volmer-heyrovsky -o report.html
+Route (from the repository root; the outputs go to a scratch folder, not into the checkout):
+  ecatlab ingest demo_data/dft_example -o /tmp/ecatlab-dft/energies.csv --corrections demo_data/dft_example/corrections.csv
+  ecatlab table /tmp/ecatlab-dft/energies.csv --pathway orr-4e oer-4e her-volmer-heyrovsky
+  ecatlab report /tmp/ecatlab-dft/energies.csv --pathway orr-4e oer-4e her-volmer-heyrovsky -o /tmp/ecatlab-dft/report.html
+Every output carries the ILLUSTRATIVE label (energy table comment and provenance column, table
+captions, report banner).
 """
 
 
 def write_tree(root: str | pathlib.Path = ROOT) -> pathlib.Path:
     """Write the example tree under ``root`` (files are overwritten); returns ``root``."""
-    from ecatlab.ingest.synthetic import add_adsorbate, fcc111_slab, molecule_in_box, write_outcar_modes, write_run, write_vib_run
+    tests = str(pathlib.Path(__file__).resolve().parents[1] / "tests")
+    if tests not in sys.path:  # the fake-VASP writer is a test helper, not part of the package
+        sys.path.insert(0, tests)
+    from fake_vasp import add_adsorbate, fcc111_slab, molecule_in_box, write_outcar_modes, write_run, write_vib_run
 
     root = pathlib.Path(root)
     root.mkdir(parents=True, exist_ok=True)

@@ -151,8 +151,10 @@ class Species:
         return 1 if self.phase in ("ads", "site") else 0
 
     def latex(self) -> str:
-        """Matplotlib mathtext label with subscripts, e.g. ``OOH*`` -> ``$\\mathrm{OOH}^{*}$``."""
-        return _species_mathtext(self)
+        """Matplotlib mathtext label (:func:`ecatlab.chemtext.mathtext`), e.g. ``OOH*`` -> ``$\\mathrm{OOH}{\\ast}$``."""
+        from ecatlab import chemtext
+
+        return chemtext.mathtext(self.key)
 
 
 SITE = Species("", "site")
@@ -197,23 +199,6 @@ def _check_formula(raw: str, formula: str) -> None:
     if not formula or not _FORMULA_RE.match(formula):
         raise NotationError(raw, f"{formula!r} is not a formula (element symbols with optional counts)")
     _element_counts(formula)  # raises NotationError on unknown elements
-
-
-def _species_mathtext(sp: Species) -> str:
-    if sp.phase == "site":
-        return r"$^{*}$"
-    if sp.phase == "proton":
-        return r"$\mathrm{H}^{+}$"
-    if sp.phase == "electron":
-        return r"$e^{-}$"
-    if sp.phase == "hydroxide":
-        return r"$\mathrm{OH}^{-}$"
-    body = re.sub(r"(\d+(?:\.\d+)?)", r"}_{\1}\\mathrm{", sp.formula)
-    body = r"\mathrm{" + body + "}"
-    body = body.replace(r"\mathrm{}", "")
-    if sp.phase == "ads":
-        return f"${body}^{{*}}$"
-    return f"${body}$" + f"({sp.phase})"
 
 
 # ------------------------------------------------------------------------------------------------
@@ -572,12 +557,14 @@ class Pathway:
     def _repr_html_(self) -> str:
         from html import escape
 
+        from ecatlab import chemtext
+
         rows = "".join(
-            f"<tr><td>{i + 1}</td><td>{escape(s.equation)}</td><td>{'electrochemical' if s.is_electrochemical else 'chemical'}</td></tr>"
+            f"<tr><td>{i + 1}</td><td>{chemtext.html(s.equation)}</td><td>{'electrochemical' if s.is_electrochemical else 'chemical'}</td></tr>"
             for i, s in enumerate(self.steps)
         )
         return (
-            f"<b>{escape(self.name)}</b> ({self.direction}, {abs(self.total_electrons):g} e<sup>-</sup>): "
+            f"<b>{escape(self.name)}</b> ({self.direction}, {abs(self.total_electrons):g} {chemtext.html('e-')}): "
             f"{escape(self.description)}<table><tr><th>#</th><th>step</th><th>kind</th></tr>{rows}</table>"
         )
 

@@ -199,6 +199,9 @@ def analyse(
             raise PathwayError("the report needs at least one pathway (e.g. --pathway orr-4e)")
         names = list(table.surfaces) if surfaces is None else list(surfaces)
         lp = limiting_potentials(table, paths, pH=pH, scale=scale, temperature=temperature, surfaces=names, on_missing="report")
+        from ecatlab.tables import is_illustrative
+
+        lp.attrs["illustrative"] = is_illustrative(table) or is_illustrative(lp)  # carried into every table caption
         figures: list[ReportFigure] = []
         if diagrams:
             figures = _draw_figures(table, paths, lp, pH, scale, temperature, top, style)
@@ -274,7 +277,7 @@ h3{font-size:1.05rem;margin-top:1.6rem}
 .caution{border-left:6px solid #D55E00;background:#fff4ec;padding:.6rem .9rem;margin:1rem 0}
 .banner{border:2px dashed #B8860B;background:#fff9e6;padding:.5rem .9rem;margin:1rem 0;font-weight:600}
 table.ecatlab-table{border-collapse:collapse;font-size:.86rem;margin:.6rem 0 1rem;width:100%}
-table.ecatlab-table caption{caption-side:bottom;text-align:left;font-size:.8rem;color:#555;padding-top:.4rem}
+table.ecatlab-table caption{caption-side:top;text-align:left;font-size:.8rem;color:#555;padding-bottom:.4rem}
 table.ecatlab-table th{border-bottom:1.5px solid #333;text-align:left;padding:.25rem .5rem;vertical-align:bottom}
 table.ecatlab-table td{border-bottom:1px solid #e3e3e0;padding:.2rem .5rem}
 table.ecatlab-table td.num{text-align:right;font-variant-numeric:tabular-nums}
@@ -433,7 +436,8 @@ def render_html(
         Python call built from the analysis parameters.
     title : str, optional
     banner : str, optional
-        A notice shown prominently at the top (e.g. that the data are illustrative).
+        A notice shown prominently at the top; default: the ILLUSTRATIVE notice when the energies
+        are illustrative (:func:`ecatlab.tables.is_illustrative`), none otherwise.
     """
     from ecatlab import __version__
     from ecatlab.tables import limiting_potential_table, to_html
@@ -468,6 +472,10 @@ def render_html(
         f"{a.temperature:.2f} K · potentials in V vs {_esc(a.scale)} · {len(a.surfaces)} surfaces · "
         f"{len(a.pathways)} pathways</p>",
     ]
+    if banner is None and a.limiting.attrs.get("illustrative"):
+        from ecatlab.tables import ILLUSTRATIVE_NOTE
+
+        banner = ILLUSTRATIVE_NOTE + " The energies are the invented example numbers shipped with ecatlab."
     if banner:
         parts.append(f'<div class="banner">{_esc(banner)}</div>')
     parts.append(f'<div class="caution" id="caution"><b>Caution.</b> {_esc(SAFETY_CAUTION)}</div>')

@@ -48,6 +48,7 @@ __all__ = [
     "atomic_write_bytes",
     "atomic_path",
     "write_csv",
+    "comment_lines",
     "csv_text",
     "neutralise_cell",
     "neutralise_frame",
@@ -299,13 +300,22 @@ def write_csv(frame, path: str | os.PathLike, *, header_lines: Sequence[str] = (
     ``header_lines`` are written first, each prefixed with ``# `` unless it already starts with
     ``#`` (ecatlab's readers and ``pandas.read_csv(comment="#")`` skip them).
     """
-    lines = [h if h.startswith("#") else f"# {h}" for h in header_lines]
-    text = "".join(line.replace("\r", " ").replace("\n", " ") + "\n" for line in lines)
+    text = comment_lines(header_lines)
     suffix = pathlib.Path(path).suffix.lower().lstrip(".")
     sep = to_csv.pop("sep", "\t" if suffix == "tsv" else ",")
     text += csv_text(frame, sep=sep, **to_csv)
     return atomic_write_text(path, text, force=force, inputs=inputs, suffixes=("csv", "tsv", "txt"), option=option,
                              what="CSV file")
+
+
+def comment_lines(lines: Iterable[str]) -> str:
+    """``#`` comment lines for the top of a CSV file: each line prefixed with ``# `` (unless it
+    already starts with ``#``), line breaks inside a line turned into spaces, one per line."""
+    out = []
+    for line in lines:
+        text = str(line).replace("\r", " ").replace("\n", " ")
+        out.append((text if text.startswith("#") else f"# {text}") + "\n")
+    return "".join(out)
 
 
 def markdown_cell(text) -> str:

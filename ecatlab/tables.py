@@ -13,15 +13,20 @@ Exports (all carry the conditions: potential scale, pH, temperature and referenc
 =========== ============================================================================
 format      what is written
 =========== ============================================================================
-CSV         full-precision numbers; the conditions as columns (``scale``, ``pH``, ``T [K]``)
-Markdown    pipe table, numbers rounded, caption as a paragraph under the table
-LaTeX       ``table`` float with ``booktabs`` rules (``\usepackage{booktabs}``), caption
-HTML        ``<table>`` with ``<caption>``, chemical formulas with ``<sub>``/``<sup>``
+CSV         6 decimals, counts as integers; the conditions as columns (``scale``, ``pH``, ``T [K]``)
+Markdown    pipe table, numbers right-aligned, units in headers, caption paragraph above
+LaTeX       ``table`` with ``booktabs`` rules, caption above; ``longtable`` beyond 40 rows
+HTML        ``<table>`` with ``<caption>`` on top, chemical formulas with ``<sub>``/``<sup>``
 =========== ============================================================================
 
-Potentials are rounded to 2 decimals by default (0.01 V), well below the typical uncertainty of
-DFT adsorption energies (about 0.1–0.2 eV; common practice, no source), so more digits would claim
-a precision the numbers do not have. The CSV keeps full precision for further work.
+Text tables (Markdown, LaTeX, HTML) give potentials and energies with 3 decimals (1 mV, 1 meV),
+pH and temperature with 2, counts (electrons, steps, ranks) as integers; the typical uncertainty
+of DFT adsorption energies is about 0.1–0.2 eV (common practice, no source), so the last digit
+serves traceability, not precision. CSV keeps 6 decimals (:data:`CSV_DECIMALS`, shortest form),
+counts as integers and conditions with their shortest digits (``0``, ``298.15``). Headers of the
+text tables carry units; captions come first (above the table) and start with the ILLUSTRATIVE
+label when the energies are the invented demo numbers (:func:`is_illustrative`). A missing number
+is ``—`` (explained in the caption). Chemical text is formatted by :mod:`ecatlab.chemtext`.
 """
 
 from __future__ import annotations
@@ -30,6 +35,7 @@ import html
 import os
 import pathlib
 import re
+from dataclasses import dataclass
 from typing import Iterable, Sequence
 
 import numpy as np
@@ -53,6 +59,10 @@ __all__ = [
     "table_format",
     "TABLE_FORMATS",
     "TableInputError",
+    "is_illustrative",
+    "ILLUSTRATIVE_NOTE",
+    "CSV_DECIMALS",
+    "LONGTABLE_ROWS",
 ]
 
 # source column -> (display header template, LaTeX header, documentation with unit, decimals or None)
@@ -60,17 +70,17 @@ _SPEC: dict[str, tuple[str, str, str, int | None]] = {
     "surface": ("surface", "surface", "surface name", None),
     "pathway": ("pathway", "pathway", "pathway key (see ecatlab.list_pathways())", None),
     "limiting_potential": ("U_L [V vs {scale}]", r"$U_\mathrm{{L}}$ / V vs {scale}",
-                           "limiting potential: least extreme potential at which every electrochemical step is downhill [V vs {scale}]", 2),
+                           "limiting potential: least extreme potential at which every electrochemical step is downhill [V vs {scale}]", 3),
     "equilibrium_potential": ("U_eq [V vs {scale}]", r"$U_\mathrm{{eq}}$ / V vs {scale}",
-                              "equilibrium potential of the overall reaction at the stated pH and T [V vs {scale}]", 2),
-    "overpotential": ("eta [V]", r"$\eta$ / V", "theoretical overpotential, positive = loss [V]", 2),
+                              "equilibrium potential of the overall reaction at the stated pH and T [V vs {scale}]", 3),
+    "overpotential": ("eta [V]", r"$\eta$ / V", "theoretical overpotential, positive = loss [V]", 3),
     "determining_step": ("potential-determining step", "potential-determining step",
                          "potential-determining step (equation)", None),
     "G_max": ("G_max [eV]", r"$G_\mathrm{{max}}$ / eV",
-              "largest step free energy at U_eq over all steps, chemical steps included (Exner 2020); ranking key, lower is better [eV]", 2),
+              "largest step free energy at U_eq over all steps, chemical steps included (Exner 2020); ranking key, lower is better [eV]", 3),
     "blocked": ("blocked", "blocked", "True if an uphill chemical step blocks the pathway at every potential", None),
     "max_chemical_dG": ("max chemical dG [eV]", r"max.\ chemical $\Delta G$ / eV",
-                        "largest free energy of a potential-independent (chemical) step; empty if none [eV]", 2),
+                        "largest free energy of a potential-independent (chemical) step; empty if none [eV]", 3),
     "missing_species": ("missing species", "missing species", "adsorbates lacking for this surface (then no numbers)", None),
 }
 
@@ -123,6 +133,8 @@ def table_caption(lp: pd.DataFrame, what: str = "Limiting potentials and theoret
     if c["source"]:
         text += f" Energies: {c['source']}."
     text += " Theoretical estimates (thermodynamics only, no kinetics)."
+    if is_illustrative(lp) and "ILLUSTRATIVE" not in text:
+        text = ILLUSTRATIVE_NOTE + " " + text
     return text
 
 
@@ -172,6 +184,7 @@ def limiting_potential_table(lp: pd.DataFrame, columns: Sequence[str] | None = N
     out.attrs["decimals"] = {_SPEC[k][0].format(scale=c["scale"]): _SPEC[k][3] for k in cols}
     out.attrs["caption"] = table_caption(lp)
     out.attrs["conditions"] = c
+    out.attrs["illustrative"] = is_illustrative(lp)
     return out
 
 
@@ -281,8 +294,9 @@ def rank_surfaces(
         "determining_step": "potential-determining step (equation)",
         "why": "the uphill chemical step(s) that block the pathway; empty if not blocked",
     }
-    out.attrs["decimals"] = {"G_max": 2, "overpotential": 2, "limiting_potential": 2}
+    out.attrs["decimals"] = {"G_max": 3, "overpotential": 3, "limiting_potential": 3}
     out.attrs["conditions"] = c
+    out.attrs["illustrative"] = is_illustrative(lp)
     return out
 
 
@@ -294,39 +308,219 @@ def overpotential_matrix(lp: pd.DataFrame) -> pd.DataFrame:
     wide.columns.name = None
     wide.attrs["caption"] = table_caption(lp, "Theoretical overpotentials in V (rows: surfaces, columns: pathways)")
     wide.attrs["conditions"] = _conditions(lp)
-    wide.attrs["decimals"] = {c: 2 for c in wide.columns}
+    wide.attrs["decimals"] = {c: 3 for c in wide.columns}
+    wide.attrs["illustrative"] = is_illustrative(lp)
     return wide
 
 
 # ------------------------------------------------------------------------------------------------
-# text rendering
+# text rendering: the one table writer
 # ------------------------------------------------------------------------------------------------
-def _cells(table: pd.DataFrame, decimals: int | None, missing: str) -> list[list[str]]:
-    per_col = dict(table.attrs.get("decimals", {}))
-    out = []
+#: The word that marks invented demo numbers wherever they travel.
+ILLUSTRATIVE_NOTE = "ILLUSTRATIVE data (invented numbers, not results; do not cite)."
+
+#: Shown in text tables for a number that does not exist (NaN/None); the caption then explains it.
+MISSING_MARK = "\N{EM DASH}"
+MISSING_NOTE = f"{MISSING_MARK} = no value (not applicable, e.g. no chemical step, or not computed)."
+
+#: LaTeX tables with more body rows than this are written as ``longtable`` (page breaks, header repeated).
+LONGTABLE_ROWS = 40
+
+#: Decimals of potentials (V) and energies (eV) in CSV files unless ``decimals`` is given: 1e-6 V or
+#: eV is far below any DFT precision and keeps every number traceable; floats print in their
+#: shortest form (0.69, not 0.690000).
+CSV_DECIMALS = 6
+
+# decimals by kind of number (text formats): potentials and energies 3 (1 meV / 1 mV), pH and T 2
+_DEFAULT_DECIMALS = {"energy": 3, "potential": 3, "pH": 2, "temperature": 2, "other": 3}
+_UNIT_RE = re.compile(r"\[([^\[\]]+)\]")
+_CHEM_WORDS = ("step", "reaction", "species", "route", "state", "product", "reactant", "stuck", "equation",
+               "adsorbate", "why", "descriptor", "intermediate")
+
+
+def is_illustrative(obj) -> bool:
+    """True when an energy table, a result frame or a text carries the ILLUSTRATIVE label.
+
+    Looks at (in this order) ``attrs["illustrative"]`` of a DataFrame, the word "illustrative"
+    (any case) in its ``attrs`` energy source / caption, a ``source`` column of an energy table's
+    rows (the ingested example tree and the demo CSV label every row), and the table's ``source``.
+    """
+    if isinstance(obj, str):
+        return "illustrative" in obj.lower()
+    attrs = getattr(obj, "attrs", None)
+    if isinstance(attrs, dict):
+        if attrs.get("illustrative"):
+            return True
+        cond = attrs.get("conditions") if isinstance(attrs.get("conditions"), dict) else {}
+        texts = [attrs.get("energy_source", ""), cond.get("source", ""), cond.get("energy_source", "")]
+        if any("illustrative" in str(t).lower() for t in texts):
+            return True
+    if hasattr(obj, "scheme") and hasattr(obj, "frame"):  # an EnergyTable
+        if "illustrative" in str(getattr(obj, "source", "")).lower():
+            return True
+        if any("illustrative" in str(n).lower() for n in getattr(obj, "notes", ())):
+            return True
+        frame = obj.frame
+        for col in ("source", "provenance", "note"):
+            if col in frame.columns:
+                values = pd.unique(frame[col])  # distinct values first: cheap on large screens
+                if any("illustrative" in str(v).lower() for v in values):
+                    return True
+    return False
+
+
+def _unit_of(doc: str | None) -> str | None:
+    """The unit in the last ``[...]`` of a column doc (``"... [V vs scale]"`` -> ``"V vs scale"``)."""
+    if not doc:
+        return None
+    found = _UNIT_RE.findall(str(doc))
+    return found[-1].strip() if found else None
+
+
+def _kind_of(name: str, unit: str | None) -> str:
+    low = str(name).lower().strip()
+    if low in ("ph", "ph [-]"):
+        return "pH"
+    if unit == "K" or low in ("temperature", "t [k]", "t", "temperature [k]"):
+        return "temperature"
+    if unit is not None and (unit == "V" or unit.startswith("V vs") or unit.startswith("V ")):
+        return "potential"
+    if unit is not None and unit in ("eV", "eV/site", "eV per site"):
+        return "energy"
+    if "[v" in low:
+        return "potential"
+    if "[ev" in low:
+        return "energy"
+    return "other"
+
+
+@dataclass(frozen=True)
+class _Column:
+    name: str
+    header: str
+    kind: str  # "float", "int", "bool", "text"
+    decimals: int | None
+    quantity: str  # "potential", "energy", "pH", "temperature", "other"
+    chemistry: bool
+
+
+def _docs_of(table: pd.DataFrame) -> dict:
+    docs = table.attrs.get("columns")
+    docs = dict(docs) if isinstance(docs, dict) else {}
+    try:
+        from ecatlab.che.engine import LIMITING_POTENTIAL_COLUMNS
+    except ImportError:  # pragma: no cover - the engine is part of the package
+        LIMITING_POTENTIAL_COLUMNS = {}
+    for k, v in LIMITING_POTENTIAL_COLUMNS.items():
+        docs.setdefault(k, v)
+    return docs
+
+
+def _scale_of(table: pd.DataFrame) -> str | None:
+    c = table.attrs.get("conditions")
+    if isinstance(c, dict) and c.get("scale"):
+        return str(c["scale"])
+    if table.attrs.get("scale"):
+        return str(table.attrs["scale"])
+    if "scale" in table.columns and len(table):
+        values = pd.unique(table["scale"].astype(str))
+        if len(values) == 1:
+            return str(values[0])
+    return None
+
+
+def _plan(table: pd.DataFrame, decimals: int | None, units_in_headers: bool = True) -> list[_Column]:
+    """How each column is written: header with unit, kind of cell, decimals."""
+    docs = _docs_of(table)
+    per_col = dict(table.attrs.get("decimals", {}) or {})
+    scale = _scale_of(table)
+    plan = []
     for col in table.columns:
-        values = table[col].to_numpy()
-        d = decimals if decimals is not None else per_col.get(col)
-        numeric = pd.api.types.is_numeric_dtype(table[col]) and not pd.api.types.is_bool_dtype(table[col])
-        cells = []
-        for v in values:
-            if v is None or (isinstance(v, float) and not np.isfinite(v)) or v is pd.NA:
-                cells.append(missing)
-            elif numeric and isinstance(v, (float, np.floating)):
-                cells.append(f"{v:.{d if d is not None else 3}f}")
+        s = table[col]
+        unit = _unit_of(docs.get(col))
+        if unit and scale:
+            unit = unit.replace("vs scale", f"vs {scale}")
+        quantity = _kind_of(col, unit)
+        header = str(col)
+        if units_in_headers and unit and unit not in ("-", "") and "[" not in header:
+            header = f"{header} [{unit}]"
+        if pd.api.types.is_bool_dtype(s):
+            kind = "bool"
+        elif pd.api.types.is_numeric_dtype(s) and quantity in ("pH", "temperature"):
+            kind = "float"  # conditions: 2 decimals in text tables (CSV: shortest digits)
+        elif pd.api.types.is_integer_dtype(s):
+            kind = "int"
+        elif pd.api.types.is_numeric_dtype(s):
+            values = s.to_numpy(dtype=float, na_value=np.nan)
+            finite = values[np.isfinite(values)]
+            integral = finite.size > 0 and bool(np.all(finite == np.round(finite))) and np.all(np.abs(finite) < 2**53)
+            # a whole-number column of counts (electrons, steps) is written as integers; a column
+            # whose decimals are set explicitly, or holding potentials/energies, stays a float
+            kind = "int" if integral and quantity == "other" and per_col.get(col) is None else "float"
+        else:
+            kind = "text"
+        d = None
+        if kind == "float":
+            if quantity in ("pH", "temperature"):
+                d = per_col.get(col) if per_col.get(col) is not None else _DEFAULT_DECIMALS[quantity]
+            elif decimals is not None:
+                d = decimals
+            elif per_col.get(col) is not None:
+                d = int(per_col[col])
             else:
-                cells.append(str(v))
-        out.append(cells)
-    return [list(row) for row in zip(*out)] if out else []
+                d = _DEFAULT_DECIMALS[quantity]
+        chem = kind == "text" and any(w in str(col).lower() for w in _CHEM_WORDS)
+        plan.append(_Column(str(col), header, kind, d, quantity, chem))
+    return plan
 
 
-def _chemistry_columns(table: pd.DataFrame) -> list[bool]:
-    """Text columns holding chemical equations or species (formatted with sub/superscripts)."""
-    return [any(w in str(c).lower() for w in ("step", "reaction", "species")) for c in table.columns]
+def _missing(v) -> bool:
+    return v is None or v is pd.NA or (isinstance(v, (float, np.floating)) and not np.isfinite(v))
 
 
-def _numeric_columns(table: pd.DataFrame) -> list[bool]:
-    return [pd.api.types.is_numeric_dtype(table[c]) and not pd.api.types.is_bool_dtype(table[c]) for c in table.columns]
+def _cell_texts(table: pd.DataFrame, plan: list[_Column], missing: str) -> tuple[list[list[str]], bool]:
+    """Rows of cell texts (numbers formatted per column) and whether any number was missing."""
+    columns = []
+    any_missing = False
+    for spec, col in zip(plan, table.columns):
+        values = table[col].to_numpy(dtype=object)
+        if spec.kind == "float":
+            d = spec.decimals
+            cells = [missing if _missing(v) else f"{float(v):.{d}f}" for v in values]
+        elif spec.kind == "int":
+            cells = [missing if _missing(v) else str(int(round(float(v)))) for v in values]
+        elif spec.kind == "bool":
+            cells = [missing if _missing(v) else str(bool(v)) for v in values]
+        else:
+            cells = ["" if _missing(v) else str(v) for v in values]
+        if spec.kind != "text" and any(c == missing for c in cells):
+            any_missing = True
+        # "-0.000" reads as a sign that is not there
+        if spec.kind == "float":
+            zero = "-" + f"{0:.{spec.decimals}f}"
+            cells = [c[1:] if c == zero else c for c in cells]
+        columns.append(cells)
+    rows = [list(r) for r in zip(*columns)] if columns else []
+    return rows, any_missing
+
+
+def _caption_text(table: pd.DataFrame, caption: str | bool, any_missing: bool, missing_note: str = MISSING_NOTE) -> str:
+    """Caption with the ILLUSTRATIVE label first (when the data are illustrative) and the missing-value note."""
+    cap = table.attrs.get("caption", "") if caption is True else (caption or "")
+    if caption is False:
+        return ""
+    cap = str(cap).strip()
+    if is_illustrative(table) and "ILLUSTRATIVE" not in cap:
+        cap = (ILLUSTRATIVE_NOTE + " " + cap).strip()
+    if any_missing:
+        cap = (cap + " " + missing_note).strip()
+    return cap
+
+
+def _chem(text: str, fmt: str) -> str:
+    from ecatlab import chemtext
+
+    return chemtext.render(text, fmt)
 
 
 def _index_frame(table: pd.DataFrame) -> pd.DataFrame:
@@ -344,48 +538,42 @@ def _index_frame(table: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-def to_markdown(table: pd.DataFrame, decimals: int | None = None, caption: str | bool = True, missing: str = "n/a") -> str:
-    """Markdown pipe table (numbers right-aligned) followed by the caption as a paragraph.
+def to_markdown(table: pd.DataFrame, decimals: int | None = None, caption: str | bool = True, missing: str = MISSING_MARK) -> str:
+    """Markdown pipe table with its caption as a paragraph *above* it.
 
-    ``decimals`` overrides the per-column rounding kept in ``table.attrs``; ``caption=True`` uses
-    ``table.attrs["caption"]``, a string replaces it, ``False`` leaves it out.
+    Headers carry the units of the column docs (``attrs["columns"]``, falling back to
+    :data:`ecatlab.che.LIMITING_POTENTIAL_COLUMNS`); numbers are right-aligned with one number of
+    decimals per column (potentials and energies 3, pH and T 2, counts as integers; ``decimals``
+    overrides the physics columns); a missing number is ``—`` and the caption says so. Chemistry
+    stays in the notation's ASCII (copyable back into ecatlab); ``|`` in cells is escaped.
     """
     from ecatlab.safe_io import markdown_cell as esc
 
     decimals = check_decimals(decimals)
     table = _index_frame(table)
-    headers = [str(c) for c in table.columns]
-    rows = _cells(table, decimals, missing)
-    numeric = _numeric_columns(table)
-
+    plan = _plan(table, decimals)
+    headers = [c.header for c in plan]
+    rows, any_missing = _cell_texts(table, plan, missing)
+    numeric = [c.kind in ("float", "int") for c in plan]
     widths = [max([len(esc(h))] + [len(esc(r[j])) for r in rows] + [3]) for j, h in enumerate(headers)]
+
     def line(cells):
         return "| " + " | ".join(esc(c).rjust(w) if num else esc(c).ljust(w) for c, w, num in zip(cells, widths, numeric)) + " |"
+
     rule = "| " + " | ".join(("-" * (w - 1) + ":") if num else ("-" * w) for w, num in zip(widths, numeric)) + " |"
-    text = "\n".join([line(headers), rule] + [line(r) for r in rows])
-    cap = table.attrs.get("caption", "") if caption is True else (caption or "")
+    text = "\n".join([line(headers), rule] + [line(r) for r in rows]) + "\n"
+    cap = _caption_text(table, caption, any_missing)
     if cap:
-        text += "\n\n" + f"*{esc(cap)}*"
-    return text + "\n"
+        text = f"**Table.** {esc(cap)}\n\n" + text
+    return text
 
 
-_LATEX_SPECIAL = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_", "{": r"\{",
-                  "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}"}
+def _latex_cell(text: str, spec: _Column) -> str:
+    from ecatlab import chemtext
 
-
-def _latex_escape(text: str) -> str:
-    return "".join(_LATEX_SPECIAL.get(ch, ch) for ch in text)
-
-
-def _latex_chem(text: str) -> str:
-    """Chemistry-aware LaTeX for cell text: H2O -> H$_{2}$O, H+ -> H$^{+}$, -> -> $\\rightarrow$."""
-    out = _latex_escape(text)
-    out = out.replace("->", r"$\rightarrow$").replace("→", r"$\rightarrow$")
-    out = re.sub(r"(?<=[A-Za-z)])(\d+)", r"$_{\1}$", out)
-    out = re.sub(r"\bH\+", r"H$^{+}$", out)
-    out = re.sub(r"\be-", r"e$^{-}$", out)
-    out = re.sub(r"\bOH-", r"OH$^{-}$", out)
-    return out
+    if spec.kind in ("float", "int"):
+        return "---" if text == MISSING_MARK else text.replace("-", "$-$", 1) if text.startswith("-") else text
+    return chemtext.latex(text) if spec.chemistry else chemtext.latex_escape(text)
 
 
 def to_latex(
@@ -393,81 +581,123 @@ def to_latex(
     decimals: int | None = None,
     caption: str | bool = True,
     label: str | None = "tab:limiting-potentials",
-    missing: str = "--",
+    missing: str = MISSING_MARK,
+    longtable: bool | None = None,
 ) -> str:
-    r"""LaTeX ``table`` with ``booktabs`` rules (``\toprule``, ``\midrule``, ``\bottomrule``).
+    r"""LaTeX table with ``booktabs`` rules, caption above; long tables as ``longtable``.
 
-    Needs ``\usepackage{booktabs}`` in the preamble. Numbers are right-aligned; chemical formulas
-    in text cells get subscripts; headers come from ``table.attrs["latex_headers"]`` when present.
+    Needs ``\usepackage{booktabs}`` (and ``\usepackage{longtable}`` for a table of more than
+    :data:`LONGTABLE_ROWS` rows, or ``longtable=True``): the header repeats on every page and
+    the table breaks across pages. Numbers are right-aligned with per-column decimals; a missing
+    number is ``---`` (explained in the caption); chemical formulas in text cells are set with
+    sub/superscripts (:func:`ecatlab.chemtext.latex`); every other special character is escaped.
+    Headers come from ``table.attrs["latex_headers"]`` when present, else the unit-bearing header.
     """
+    from ecatlab import chemtext
+
     table = _index_frame(table)
     decimals = check_decimals(decimals)
-    headers = table.attrs.get("latex_headers", {})
-    numeric = _numeric_columns(table)
-    rows = _cells(table, decimals, missing)
-    spec = "".join("r" if n else "l" for n in numeric)
-    head = " & ".join(headers.get(c, _latex_escape(str(c))) for c in table.columns) + r" \\"
-    chem = _chemistry_columns(table)
-    body = [" & ".join(cell if num else (_latex_chem(cell) if ch else _latex_escape(cell)) for cell, num, ch in zip(r, numeric, chem))
-            + r" \\" for r in rows]
-    cap = table.attrs.get("caption", "") if caption is True else (caption or "")
-    lines = [r"\begin{table}", r"  \centering"]
-    if cap:
-        lines.append(r"  \caption{" + _latex_chem(cap) + "}")
-    if label:
-        lines.append(r"  \label{" + label + "}")
+    plan = _plan(table, decimals)
+    headers = table.attrs.get("latex_headers", {}) or {}
+    rows, any_missing = _cell_texts(table, plan, missing)
+    spec = "".join("r" if c.kind in ("float", "int") else "l" for c in plan)
+    head = " & ".join(headers.get(c.name, chemtext.latex_escape(c.header)) for c in plan) + r" \\"
+    body = [" & ".join(_latex_cell(cell, c) for cell, c in zip(r, plan)) + r" \\" for r in rows]
+    cap = _caption_text(table, caption, any_missing, MISSING_NOTE.replace(MISSING_MARK, "---", 1))
+    cap_tex = chemtext.latex(cap).replace("---", "---") if cap else ""
+    long = (len(rows) > LONGTABLE_ROWS) if longtable is None else bool(longtable)
+    label_tex = (r"\label{" + chemtext.latex_escape(label) + "}") if label else ""
+    if long:
+        n = len(plan)
+        lines = [r"% needs \usepackage{booktabs} and \usepackage{longtable}", r"\begin{longtable}{" + spec + "}"]
+        if cap_tex or label_tex:
+            lines.append((r"\caption{" + cap_tex + "}" if cap_tex else "") + label_tex + r" \\")
+        lines += [r"\toprule", head, r"\midrule", r"\endfirsthead",
+                  r"\multicolumn{" + str(n) + r"}{l}{\small\emph{(continued)}} \\", r"\toprule", head, r"\midrule", r"\endhead",
+                  r"\midrule", r"\multicolumn{" + str(n) + r"}{r}{\small\emph{continued on the next page}} \\", r"\endfoot",
+                  r"\bottomrule", r"\endlastfoot"]
+        lines += body
+        lines.append(r"\end{longtable}")
+        return "\n".join(lines) + "\n"
+    lines = [r"% needs \usepackage{booktabs}", r"\begin{table}", r"  \centering"]
+    if cap_tex:
+        lines.append(r"  \caption{" + cap_tex + "}")
+    if label_tex:
+        lines.append("  " + label_tex)
     lines += [r"  \begin{tabular}{" + spec + "}", r"    \toprule", "    " + head, r"    \midrule"]
     lines += ["    " + b for b in body]
     lines += [r"    \bottomrule", r"  \end{tabular}", r"\end{table}"]
     return "\n".join(lines) + "\n"
 
 
-def _html_chem(text: str) -> str:
-    out = html.escape(text, quote=False)
-    out = re.sub(r"(?<=[A-Za-z)])(\d+)", r"<sub>\1</sub>", out)
-    out = out.replace("*", "<sup>*</sup>")
-    out = re.sub(r"\bH\+", "H<sup>+</sup>", out)
-    out = re.sub(r"\be-(?=\s|$)", "e<sup>−</sup>", out)
-    out = out.replace("-&gt;", "→")
-    return out
-
-
 def to_html(
     table: pd.DataFrame,
     decimals: int | None = None,
     caption: str | bool = True,
-    missing: str = "n/a",
+    missing: str = MISSING_MARK,
     table_class: str = "ecatlab-table",
     chemistry: bool = True,
 ) -> str:
-    """HTML ``<table>`` with a ``<caption>``; column docs become ``title`` tooltips on the headers.
+    """HTML ``<table>`` with its ``<caption>`` first (shown above); column docs become ``title`` tooltips.
 
-    Well-formed (XML-parseable) markup; chemical formulas in text cells get ``<sub>``/``<sup>``
-    when ``chemistry`` is true.
+    Well-formed (XML-parseable) markup; every user-given text is escaped; chemical formulas in
+    text cells get ``<sub>``/``<sup>`` (:func:`ecatlab.chemtext.html`) when ``chemistry`` is true.
+    Numbers carry ``class="num"`` (right-aligned in the report's style) with per-column decimals.
     """
+    from ecatlab import chemtext
+
     table = _index_frame(table)
     decimals = check_decimals(decimals)
-    docs = table.attrs.get("columns", {})
-    numeric = _numeric_columns(table)
-    rows = _cells(table, decimals, missing)
-    cap = table.attrs.get("caption", "") if caption is True else (caption or "")
+    docs = _docs_of(table)
+    plan = _plan(table, decimals)
+    rows, any_missing = _cell_texts(table, plan, missing)
+    cap = _caption_text(table, caption, any_missing)
     parts = [f'<table class="{html.escape(table_class)}">']
     if cap:
-        parts.append(f"<caption>{html.escape(cap, quote=False)}</caption>")
+        parts.append(f'<caption style="caption-side:top">{chemtext.html(cap) if chemistry else html.escape(cap)}</caption>')
     ths = "".join(
-        f'<th scope="col" title="{html.escape(docs.get(c, ""))}">{html.escape(str(c), quote=False)}</th>' for c in table.columns
+        f'<th scope="col" title="{html.escape(str(docs.get(c.name, "")))}">{html.escape(c.header)}</th>' for c in plan
     )
     parts.append(f"<thead><tr>{ths}</tr></thead><tbody>")
-    chem = _chemistry_columns(table)
     for r in rows:
         tds = "".join(
-            f'<td class="num">{html.escape(cell, quote=False)}</td>' if num
-            else f"<td>{_html_chem(cell) if (chemistry and ch) else html.escape(cell, quote=False)}</td>"
-            for cell, num, ch in zip(r, numeric, chem)
+            f'<td class="num">{html.escape(cell)}</td>' if c.kind in ("float", "int")
+            else f"<td>{chemtext.html(cell) if (chemistry and c.chemistry) else html.escape(cell)}</td>"
+            for cell, c in zip(r, plan)
         )
         parts.append(f"<tr>{tds}</tr>")
     parts.append("</tbody></table>")
     return "\n".join(parts) + "\n"
+
+
+def _csv_frame(table: pd.DataFrame, decimals: int | None, conditions_columns: bool) -> pd.DataFrame:
+    """The frame as written to CSV: counts as integers, conditions with their shortest digits,
+    potentials/energies rounded to ``decimals`` (default :data:`CSV_DECIMALS`)."""
+    frame = _index_frame(table)
+    c = table.attrs.get("conditions")
+    if c and conditions_columns:
+        extra = {"scale": c.get("scale"), "pH": c.get("pH"), "T [K]": c.get("temperature")}
+        frame = frame.assign(**{k: v for k, v in extra.items() if k not in frame.columns and v is not None})
+    plan = _plan(frame, decimals, units_in_headers=False)
+    out = {}
+    for spec, col in zip(plan, frame.columns):
+        s = frame[col]
+        if spec.kind == "int" and not pd.api.types.is_integer_dtype(s):
+            out[col] = pd.array(np.where(np.isfinite(s.to_numpy(dtype=float, na_value=np.nan)),
+                                         s.to_numpy(dtype=float, na_value=np.nan), np.nan), dtype="Float64").round().astype("Int64")
+        elif spec.kind == "float":
+            values = s.to_numpy(dtype=float, na_value=np.nan)
+            if spec.quantity in ("pH", "temperature"):  # conditions with their shortest digits: 0, 7, 298.15
+                finite = values[np.isfinite(values)]
+                whole = finite.size > 0 and bool(np.all(finite == np.round(finite)))
+                out[col] = pd.array(np.round(values), dtype="Float64").astype("Int64") if whole and finite.size == values.size else values
+            else:
+                out[col] = np.round(values, decimals if decimals is not None else CSV_DECIMALS)
+        else:
+            out[col] = s.to_numpy()
+    result = pd.DataFrame(out, columns=list(frame.columns))
+    result.attrs = dict(table.attrs)
+    return result
 
 
 #: Formats of :func:`render_table` / :func:`export_table` and the file extensions that pick them.
@@ -526,7 +756,8 @@ def _json_text(table: pd.DataFrame) -> str:
 
     frame = _index_frame(table)
     payload = {
-        "caption": table.attrs.get("caption", ""),
+        "caption": _caption_text(table, True, any_missing=False),
+        "illustrative": is_illustrative(table),
         "conditions": table.attrs.get("conditions", {}),
         "columns": table.attrs.get("columns", {}),
         "rows": json.loads(frame.to_json(orient="records")),
@@ -545,18 +776,27 @@ def render_table(table: pd.DataFrame, fmt: str, decimals: int | None = None, cap
     fmt : str
         ``"csv"``, ``"markdown"``, ``"latex"``, ``"html"`` or ``"json"`` (or an extension).
     decimals : int, optional
-        Rounding of numbers in the text formats (0 to 12); ``None``: the per-column defaults.
-        CSV rounds only when ``decimals`` is given; JSON keeps full precision.
+        Decimals of the potentials and energies (0 to 12). ``None``: the per-column defaults
+        (text formats: potentials and energies 3, pH and T 2; CSV: :data:`CSV_DECIMALS`).
+        Counts (electrons, steps, ranks) are always integers; JSON keeps full precision.
     caption : bool or str
-        Text formats: include the caption. CSV: with ``csv_comment`` the caption is the first
-        line, prefixed with ``# ``.
+        Include the caption (``True``: ``attrs["caption"]``; a string replaces it). It comes
+        first: above the table in Markdown, LaTeX and HTML; as a ``# `` comment line above the
+        CSV header with ``csv_comment`` (and always when the data are ILLUSTRATIVE).
     csv_comment : bool
-        Put the caption as a ``#`` comment line above the CSV header.
+        Put the caption as a ``#`` comment line above the CSV header instead of appending the
+        conditions (``scale``, ``pH``, ``T [K]``) as columns.
 
     Notes
     -----
-    CSV cells are neutralised against spreadsheet formula injection (OWASP "CSV Injection", see
-    :mod:`ecatlab.safe_io`); Markdown cells escape ``|``; HTML is escaped; LaTeX specials escaped.
+    Headers of the text formats carry the units of the column docs (``attrs["columns"]``, else
+    :data:`ecatlab.che.LIMITING_POTENTIAL_COLUMNS`), e.g. ``limiting_potential [V vs RHE]``; CSV
+    headers stay the plain column names (machine-readable; the units are in the column docs).
+    A missing number is ``—`` in the text formats (the caption explains it) and an empty cell in
+    CSV. Illustrative data (:func:`is_illustrative`) get :data:`ILLUSTRATIVE_NOTE` at the start
+    of the caption. CSV cells are neutralised against spreadsheet formula injection (OWASP "CSV
+    Injection", see :mod:`ecatlab.safe_io`); Markdown cells escape ``|``; HTML is escaped; LaTeX
+    specials are escaped; LaTeX tables longer than :data:`LONGTABLE_ROWS` rows are ``longtable``.
     """
     from ecatlab import safe_io
     from ecatlab.errors import OptionError, clip
@@ -566,17 +806,12 @@ def render_table(table: pd.DataFrame, fmt: str, decimals: int | None = None, cap
         raise OptionError(f"unknown table format {clip(fmt)!r}; use one of {', '.join(TABLE_FORMATS)}")
     decimals = check_decimals(decimals)
     if kind == "csv":
-        frame = _index_frame(table)
-        c = table.attrs.get("conditions")
-        if c and not csv_comment:
-            extra = {"scale": c["scale"], "pH": c["pH"], "T [K]": c["temperature"]}
-            frame = frame.assign(**{k: v for k, v in extra.items() if k not in frame.columns})
-        if decimals is not None:
-            frame = frame.round(decimals)
+        frame = _csv_frame(table, decimals, conditions_columns=not csv_comment)
         text = safe_io.csv_text(frame, index=False, sep=sep, lineterminator="\n")
-        cap = table.attrs.get("caption", "") if caption is True else (caption or "")
-        if csv_comment and cap:
-            text = "# " + cap.replace("\n", " ").replace("\r", " ") + "\n" + text
+        cap = "" if caption is False else _caption_text(table, caption, any_missing=False)
+        if cap and (csv_comment or is_illustrative(table)):
+            note = " Empty cells: no value." if frame.isna().to_numpy().any() else ""
+            text = safe_io.comment_lines([cap + note]) + text
         return text
     if kind == "markdown":
         return to_markdown(table, decimals, caption)
@@ -592,7 +827,7 @@ def export_table(table: pd.DataFrame, path: str | os.PathLike, fmt: str | None =
     """Write a table as CSV (``.csv``/``.tsv``), Markdown (``.md``), LaTeX (``.tex``), HTML (``.html``) or JSON.
 
     The format comes from ``fmt`` (``"csv"``, ``"markdown"``, ``"latex"``, ``"html"``, ``"json"``)
-    or the suffix. CSV keeps full precision and appends the conditions as columns when absent.
+    or the suffix. CSV keeps :data:`CSV_DECIMALS` decimals and appends the conditions as columns when absent.
     The file is written atomically (temporary file in the target folder, then ``os.replace``);
     an existing file is replaced only with ``force=True``, and never when it is one of ``inputs``.
 

@@ -27,13 +27,13 @@ def _run(capsys, *argv):
 def test_routes_csv_matches_engine(capsys):
     code, out, _ = _run(capsys, "routes", str(demo_path()), "--from", "CO2", "--to", "CH4", "--surface", "ALY-01", "SAS-03")
     assert code == 0
-    assert out.startswith("# best routes CO2(g) -> CH4(g); RHE scale, pH 0")
+    assert out.startswith("# ILLUSTRATIVE data") and "best routes CO2(g) -> CH4(g); RHE scale, pH 0" in out.splitlines()[0]
     frame = pd.read_csv(io.StringIO(out), comment="#")
     assert frame["surface"].tolist() == ["ALY-01", "SAS-03"]
     for _, row in frame.iterrows():
         p = best_route(str(demo_path()), row["surface"], "CO2", "CH4")
         lp = che.limiting_potentials(str(demo_path()), p, surfaces=[row["surface"]]).iloc[0]["limiting_potential"]
-        assert row["limiting_potential"] == pytest.approx(lp, abs=1e-4)  # CSV keeps 4 decimals
+        assert row["limiting_potential"] == pytest.approx(lp, abs=1e-6)  # CSV keeps 6 decimals (tables.CSV_DECIMALS)
 
 
 def test_routes_ranking_json_markdown_and_figure(capsys, tmp_path):

@@ -24,7 +24,8 @@ def test_table_csv_matches_engine():
     code, out, err = run("table", str(ecatlab.demo_path()), "--pathway", "orr-4e", "oer-4e", "--decimals", "6")
     assert code == 0, err
     lines = out.splitlines()
-    assert lines[0].startswith("# Limiting potentials [V vs RHE] at pH 0")
+    # the demo numbers are invented: the label comes first in the caption comment
+    assert lines[0].startswith("# ILLUSTRATIVE data") and "Limiting potentials [V vs RHE] at pH 0" in lines[0]
     frame = pd.read_csv(io.StringIO("\n".join(lines[1:])))
     expected = ecatlab.limiting_potentials(ecatlab.demo_energies(), ["orr-4e", "oer-4e"])
     assert list(frame.surface) == list(expected.surface)

@@ -5,7 +5,7 @@ import pytest
 
 from ecatlab.cli import main
 from ecatlab.thermochemistry import HarmonicAdsorbate
-from ecatlab.ingest.synthetic import fcc111_slab
+from fake_vasp import fcc111_slab
 from test_ingest import make_tree
 
 

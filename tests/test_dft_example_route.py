@@ -18,6 +18,7 @@ matplotlib.use("Agg")
 import importlib.util
 import io
 import math
+import re
 import pathlib
 
 import numpy as np
@@ -96,7 +97,7 @@ def route(tmp_path_factory):
 
 def test_ingest_E_matches_hand_computation(route):
     csv, _, _ = route
-    table = pd.read_csv(csv)
+    table = pd.read_csv(csv, comment="#")
     assert len(table) == 8 and set(table["surface"]) == {"DEMO-A", "DEMO-B"}
     for _, row in table.iterrows():
         assert row["E"] == pytest.approx(hand_E(row["surface"], row["species"]), abs=1e-6), (row["surface"], row["species"])
@@ -119,7 +120,7 @@ def _harmonic_independent(freqs_cm, temperature=298.15):
 
 def test_vibrational_corrections(route):
     csv, _, _ = route
-    table = pd.read_csv(csv).set_index(["surface", "species"])
+    table = pd.read_csv(csv, comment="#").set_index(["surface", "species"])
     for (surface, name), (kind, freqs) in GEN.VIBRATIONS.items():
         row = table.loc[(surface, name + "*")]
         ref = HarmonicAdsorbate.from_frequencies(freqs, "cm^-1").correction(298.15)
@@ -140,7 +141,7 @@ def test_vibrational_corrections(route):
 
 def test_corrections_table_rows(route):
     csv, _, _ = route
-    table = pd.read_csv(csv).set_index(["surface", "species"])
+    table = pd.read_csv(csv, comment="#").set_index(["surface", "species"])
     given = {sp: (zpe, cpdt, ts) for sp, zpe, cpdt, ts in GEN.CORRECTIONS}
     from_table = [("DEMO-B", "O*"), ("DEMO-A", "H*"), ("DEMO-B", "H*")]
     for key in from_table:
@@ -154,7 +155,7 @@ def test_corrections_table_rows(route):
 def test_G_and_limiting_potentials(route):
     csv, printed, report = route
     energies = read_energies(csv)
-    raw = pd.read_csv(csv).set_index(["surface", "species"])
+    raw = pd.read_csv(csv, comment="#").set_index(["surface", "species"])
     ref = energies.scheme.reference_correction()
     g = energies.frame.set_index(["surface", "species"])["G"]
     for (surface, species), row in raw.iterrows():
@@ -174,10 +175,10 @@ def test_G_and_limiting_potentials(route):
         for key, value in hand.items():
             row = lp[(lp.surface == surface) & (lp.pathway == key)].iloc[0]
             assert row["limiting_potential"] == pytest.approx(value, abs=1e-9), (surface, key)
-            # the `ecatlab table` output (3 decimals) and the report (2 decimals) carry the same numbers
+            # the `ecatlab table` output (CSV, 6 decimals) and the report (3 decimals) carry the same numbers
             line = next(l for l in printed.splitlines() if l.startswith(f"{surface},{key},"))
-            assert float(line.split(",")[2]) == pytest.approx(round(value, 3), abs=1e-9)
-            assert f'<td class="num">{value:.2f}</td>' in report
+            assert float(line.split(",")[2]) == pytest.approx(round(value, 6), abs=1e-9)
+            assert f'<td class="num">{value:.3f}</td>' in report
     # the illustrative outcome the docs describe
     best = lp[lp.pathway == "orr-4e"].set_index("surface")["limiting_potential"]
     assert best["DEMO-A"] == pytest.approx(0.80, abs=0.01) and best["DEMO-B"] == pytest.approx(0.67, abs=0.01)
@@ -194,3 +195,40 @@ def test_one_notebook_cell_route_equals_cli(route):
     assert np.allclose(direct["limiting_potential"], via_csv["limiting_potential"], atol=1e-5)
     assert list(direct["determining_step"]) == list(via_csv["determining_step"])
     assert math.isfinite(direct["limiting_potential"].sum())
+
+
+def test_illustrative_label_travels_through_every_output(route, tmp_path):
+    """ingest -> table (CSV and Markdown) -> report: the tree's ILLUSTRATIVE label is in each output."""
+    import contextlib
+
+    csv, printed, report = route
+    text = csv.read_text(encoding="utf-8")
+    assert text.startswith("# ILLUSTRATIVE EXAMPLE -- INVENTED NUMBERS, NOT CALCULATIONS")
+    rows = pd.read_csv(csv, comment="#")
+    assert set(rows["provenance"]) == {"ILLUSTRATIVE EXAMPLE -- INVENTED NUMBERS, NOT CALCULATIONS"}  # on every row
+    assert printed.startswith("# ILLUSTRATIVE data")  # the table's CSV caption comment
+    buf = io.StringIO()
+    with contextlib.redirect_stdout(buf):
+        assert main(["table", str(csv), "--pathway", *PATHWAYS, "--format", "markdown"]) == 0
+    assert buf.getvalue().startswith("**Table.** ILLUSTRATIVE data")
+    banner = report.split('<div class="banner">')[1].split("</div>")[0]
+    assert banner.startswith("ILLUSTRATIVE data")
+    captions = re.findall(r"<caption[^>]*>(.*?)</caption>", report, flags=re.S)
+    assert captions and all("ILLUSTRATIVE" in c for c in captions)
+    # the route writes only where it is told: nothing left in the tree or the working folder
+    assert not (TREE / "energies.csv").exists() and not (ROOT / "energies.csv").exists() and not (ROOT / "report.html").exists()
+
+
+def test_real_tree_without_the_label_stays_unlabelled(tmp_path):
+    """A tree without an ILLUSTRATIVE README gets no label (the label is not stamped on everything)."""
+    import shutil
+
+    from ecatlab.ingest import energy_table_from_vasp, illustrative_label
+
+    copy = tmp_path / "tree"
+    shutil.copytree(TREE, copy)
+    (copy / "README.txt").write_text("Pt(111) runs of 2025, PBE\n", encoding="utf-8")
+    assert illustrative_label(copy) == ""
+    frame = energy_table_from_vasp(copy, corrections=copy / "corrections.csv")
+    assert "provenance" not in frame.columns and not frame.attrs.get("illustrative")
+    assert illustrative_label(TREE) == "ILLUSTRATIVE EXAMPLE -- INVENTED NUMBERS, NOT CALCULATIONS"

@@ -1,5 +1,5 @@
 """Ingestion of DFT results: total-energy tables, VASP folders (files written by the tests with
-invented numbers by ``ecatlab.ingest.synthetic``), an ASE database, and the bad-input errors.
+invented numbers by ``tests/fake_vasp.py``), an ASE database, and the bad-input errors.
 
 External sources: pymatgen (Vasprun, Poscar, Structure), scipy.constants (conversion of the
 dynamical-matrix eigenvalues), ase (fcc111 slab builder, database).
@@ -22,7 +22,7 @@ from ecatlab.ingest import (
     read_vasp_modes,
     read_vasp_run,
 )
-from ecatlab.ingest.synthetic import (
+from fake_vasp import (
     add_adsorbate,
     cm_to_eigenvalue,
     dynmat_block,

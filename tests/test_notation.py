@@ -159,6 +159,6 @@ def test_pathway_errors():
 
 
 def test_mathtext_labels():
-    assert Species.parse("OOH*").latex() == r"$\mathrm{OOH}^{*}$"
-    assert Species.parse("NNH2*").latex() == r"$\mathrm{NNH}_{2}^{*}$"
+    assert Species.parse("OOH*").latex() == r"$\mathrm{OOH}{\ast}$"  # site mark on the baseline (ecatlab.chemtext)
+    assert Species.parse("NNH2*").latex() == r"$\mathrm{NNH}_{2}{\ast}$"
     assert Species.parse("H2O(l)").latex() == r"$\mathrm{H}_{2}\mathrm{O}$(l)"

@@ -105,7 +105,7 @@ def test_highlight_is_the_determining_step(table, key):
 def test_labels_present_with_chemical_formatting(table):
     ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
     texts = [t.get_text() for t in ax.texts]
-    for label in ("O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"):
+    for label in ("O₂(g)", "OOH\u2217", "O\u2217", "OH\u2217", "2\u2009H₂O(l)"):  # site mark: ecatlab.chemtext
         assert label in texts
     values = [t.get_text() for t in ax.ecatlab_drawings[0].value_texts]
     expected = state_free_energies(table, "orr-4e", surfaces=["ALY-01"]).to_numpy()[0]
@@ -124,7 +124,7 @@ def test_overlay_uses_distinct_colours_and_dashes_and_axis_labels(table):
     colours = [d.level_line.get_color() for d in ax.ecatlab_drawings]
     assert colours == list(PALETTE[:4])
     assert len({str(d.level_line._dash_pattern) for d in ax.ecatlab_drawings}) == 4
-    assert [t.get_text() for t in ax.get_xticklabels()] == ["O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"]
+    assert [t.get_text() for t in ax.get_xticklabels()] == ["O₂(g)", "OOH\u2217", "O\u2217", "OH\u2217", "2\u2009H₂O(l)"]
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
     lp = limiting_potentials(table, "orr-4e", surfaces=surfaces).set_index("surface")
     for text, s in zip(legend[:4], surfaces):  # each entry names the surface and its U_L
@@ -201,12 +201,13 @@ def test_presets_set_journal_widths(table):
 
 
 def test_state_label_text():
-    assert dg.state_label_text("NH2NH2*") == "NH₂NH₂*"
+    # the site mark is U+2217 on the baseline (ecatlab.chemtext), never a raised footnote-like "*"
+    assert dg.state_label_text("NH2NH2*") == "NH₂NH₂\u2217"
     assert dg.state_label_text("H+ + e-") == "H⁺ + e⁻"
-    assert dg.state_label_text("O* + OH*") == "O* + OH*"
-    assert dg.state_label_text("2 H*") == "2\N{THIN SPACE}H*"
+    assert dg.state_label_text("O* + OH*") == "O\u2217 + OH\u2217"
+    assert dg.state_label_text("2 H*") == "2\N{THIN SPACE}H\u2217"
     assert dg.state_label_text("CO2(g)") == "CO₂(g)"
-    assert dg.state_label_mathtext("OOH*") == r"$\mathrm{OOH}^{*}$"
+    assert dg.state_label_mathtext("OOH*") == r"$\mathrm{OOH}{\ast}$"
 
 
 def test_missing_species_and_bad_potential_give_clear_errors(table):

@@ -378,5 +378,6 @@ def test_report_sections_are_well_formed_and_self_contained():
     root = ET.fromstring(text.split("\n", 1)[1])
     assert root.tag == "html"
     assert 'id="surface-pourbaix"' in text and 'id="descriptors"' in text
-    assert "assumes clean but H* 1 ML" in text  # SAS-02: H-covered at its HER and ORR limiting potentials
+    # SAS-02: H-covered at its HER and ORR limiting potentials (state text typeset by ecatlab.chemtext: H∗)
+    assert "assumes clean but H\u2217 1 ML" in text
     assert "http://" not in text and "https://" not in text and "<script" not in text

@@ -62,8 +62,8 @@ def test_no_external_references(report_text):
 def test_contains_table_values_and_ranking(report_text):
     lp = limiting_potentials(demo_energies(), KEYS, surfaces=SURFACES, pH=2)
     for _, row in lp.iterrows():
-        assert f"<td class=\"num\">{row['limiting_potential']:.2f}</td>" in report_text
-        assert f"<td class=\"num\">{row['overpotential']:.2f}</td>" in report_text
+        assert f"<td class=\"num\">{row['limiting_potential']:.3f}</td>" in report_text  # potentials: 3 decimals
+        assert f"<td class=\"num\">{row['overpotential']:.3f}</td>" in report_text
     best = lp.loc[lp[lp["pathway"] == "orr-4e"]["overpotential"].idxmin(), "surface"]
     ranking = report_text.split('id="ranking"')[1].split("</section>")[0]
     assert best in ranking
@@ -89,8 +89,9 @@ def test_figures_have_text_labels(report_text):
         root = ET.fromstring(svg)
         texts = "".join(root.itertext())
         assert "ΔG (eV)" in texts
-    assert "OOH*" in "".join(ET.fromstring(svgs[0]).itertext())
-    assert "H*" in "".join(ET.fromstring(svgs[2]).itertext())
+    # the site mark is the centred asterisk operator on the baseline (ecatlab.chemtext), not a superscript
+    assert "OOH\u2217" in "".join(ET.fromstring(svgs[0]).itertext())
+    assert "H\u2217" in "".join(ET.fromstring(svgs[2]).itertext())
 
 
 def test_warnings_are_recorded():
@@ -180,7 +181,7 @@ def test_routes_section_numbers_equal_network_best_routes(extended_report):
         assert u_l == f"{best.loc[surface, 'limiting_potential']:.3f}"
         assert route == best.loc[surface, "route"].split(" via ")[1]
         # the HTML typesets the step (sub/superscripts, minus sign, arrow)
-        assert step.replace(" ", "").replace("−", "-").replace("→", "->") == best.loc[surface, "determining_step"].replace(" ", "")
+        assert step.replace(" ", "").replace("−", "-").replace("→", "->").replace("\u2217", "*") == best.loc[surface, "determining_step"].replace(" ", "")
         assert u_her == f"{her[surface]:.3f}"
         assert her_first == ("yes" if her[surface] > best.loc[surface, "limiting_potential"] else "no")
     # the best route is an ordinary pathway: the CHE engine gives the same U_L

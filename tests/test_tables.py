@@ -71,21 +71,26 @@ def test_missing_surfaces_rank_last_and_show_na():
     t = T.limiting_potential_table(lp)
     assert "missing species" in t.columns
     md = T.to_markdown(t)
-    assert "| B " in md and "n/a" in md and "H*" in md
+    assert "| B " in md and "H*" in md
+    # a missing number is an em dash, explained in the caption above the table (never "nan")
+    assert "— |" in md and "nan" not in md.lower() and "n/a" not in md
+    assert md.index(T.MISSING_NOTE) < md.index("| surface")
 
 
 def test_markdown(lp):
     t = T.limiting_potential_table(lp.head(3))
     md = T.to_markdown(t)
-    lines = md.strip().splitlines()
+    caption, table_text = md.split("\n\n", 1)
+    assert caption.startswith("**Table.** ILLUSTRATIVE data")  # the demo numbers are invented
+    lines = table_text.strip().splitlines()
     assert lines[0].startswith("| surface | pathway | U_L [V vs RHE]")
     assert set(lines[1].replace("|", "").split()) <= {"-" * n for n in range(3, 40)} | {"-" * n + ":" for n in range(2, 40)}
     rows = [ln for ln in lines[2:] if ln.startswith("|")]
     assert len(rows) == 3
     first = [c.strip() for c in rows[0].strip("|").split("|")]
-    assert first[2] == f"{lp['limiting_potential'].iloc[0]:.2f}"
-    assert "pH 1" in md.split("\n\n")[-1]
-    assert T.to_markdown(t, decimals=3).count(f"{lp['limiting_potential'].iloc[0]:.3f}") == 1
+    assert first[2] == f"{lp['limiting_potential'].iloc[0]:.3f}"  # potentials: 3 decimals
+    assert "pH 1" in caption
+    assert T.to_markdown(t, decimals=4).count(f"{lp['limiting_potential'].iloc[0]:.4f}") == 1
 
 
 def test_latex_booktabs(lp):
@@ -98,7 +103,8 @@ def test_latex_booktabs(lp):
     assert body[0].count("&") == len(t.columns) - 1
     assert r"$U_\mathrm{L}$ / V vs RHE" in tex
     assert r"$\rightarrow$" in tex and r"H$^{+}$" in tex
-    assert f"{lp['overpotential'].iloc[0]:.2f}" in body[0]
+    assert f"{lp['overpotential'].iloc[0]:.3f}" in body[0]
+    assert tex.index(r"\caption{") < tex.index(r"\begin{tabular}")  # caption above
     # braces balance (a common LaTeX breakage)
     assert tex.count("{") - tex.count(r"\{") == tex.count("}") - tex.count(r"\}")
 
@@ -111,7 +117,7 @@ def test_html_parses_and_holds_values(lp):
     rows = root.find("tbody").findall("tr")
     assert len(rows) == len(lp)
     cells = ["".join(td.itertext()) for td in rows[0].findall("td")]
-    assert cells[2] == f"{lp['limiting_potential'].iloc[0]:.2f}"
+    assert cells[2] == f"{lp['limiting_potential'].iloc[0]:.3f}"
     headers = root.find("thead").findall(".//th")
     assert headers[2].get("title").endswith("[V vs RHE]")
     assert "<sub>2</sub>" in T.to_html(t)  # O2, H2O in the step equations
@@ -123,9 +129,13 @@ def test_export_files_and_csv_round_trip(tmp_path, lp):
     for suffix in ("csv", "md", "tex", "html"):
         p = T.export_table(t, tmp_path / f"lp.{suffix}")
         assert p.stat().st_size > 200
-    back = pd.read_csv(tmp_path / "lp.csv")
-    np.testing.assert_allclose(back["U_L [V vs RHE]"].to_numpy(), lp["limiting_potential"].to_numpy(), rtol=1e-12)
-    assert set(back["scale"]) == {"RHE"} and set(back["pH"]) == {1.0} and set(back["T [K]"]) == {298.15}
+    text = (tmp_path / "lp.csv").read_text()
+    assert text.startswith("# ILLUSTRATIVE data")  # the label travels into the CSV as a comment line
+    back = pd.read_csv(tmp_path / "lp.csv", comment="#")
+    # CSV_DECIMALS = 6: within half a micro-volt of the engine
+    np.testing.assert_allclose(back["U_L [V vs RHE]"].to_numpy(), lp["limiting_potential"].to_numpy(), rtol=0, atol=5e-7)
+    assert set(back["scale"]) == {"RHE"} and set(back["pH"]) == {1} and set(back["T [K]"]) == {298.15}
+    assert ",1,298.15" in text and "298.1500" not in text and "1.0000" not in text
     with pytest.raises(ValueError, match="unknown table format"):
         T.export_table(t, tmp_path / "lp.xlsx")
 
@@ -136,7 +146,7 @@ def test_overpotential_matrix(lp):
     row = lp[(lp["surface"] == "SAS-02") & (lp["pathway"] == "orr-4e")]
     assert m.loc["SAS-02", "orr-4e"] == row["overpotential"].iloc[0]
     md = T.to_markdown(m)
-    assert md.splitlines()[2].startswith("| ALY-01")
+    assert md.split("\n\n", 1)[1].splitlines()[2].startswith("| ALY-01")
 
 
 def test_wrong_input_is_a_clear_error():

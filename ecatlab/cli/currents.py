@@ -9,15 +9,12 @@ estimates; estimated barriers are flagged in every output.
 
 from __future__ import annotations
 
-from ecatlab.safe_io import temp_file
-
 import argparse
 import os
 import pathlib
 
 from ecatlab.errors import KineticsInputError
 
-_INJECTION = ("=", "+", "-", "@", "\t", "\r")
 
 
 def register(sub: argparse._SubParsersAction) -> None:
@@ -85,29 +82,15 @@ def _targets(args, inputs) -> list[pathlib.Path]:
     return targets
 
 
-def _safe_text(frame):
-    out = frame.copy()
-    for col in out.columns:
-        if out[col].dtype == object:
-            out[col] = out[col].map(lambda v: "'" + v if isinstance(v, str) and v.startswith(_INJECTION) else v)
-    return out
+def _write_csv(frame, path: str, force: bool = True) -> None:
+    """The table with its conditions as a ``#`` line, through :func:`ecatlab.safe_io.write_csv`
+    (atomic; text cells neutralised against formula injection). ``_targets`` checked the names."""
+    from ecatlab.safe_io import write_csv
 
-
-def _write_csv(frame, path: str) -> None:
-    target = pathlib.Path(path)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = temp_file(target.parent, prefix=".ecatlab-", suffix=".csv")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            a = frame.attrs
-            fh.write(f"# {a.get('quantity', '')}; {a.get('note', '')}; site density {a.get('site_density_per_cm2')} cm^-2; "
-                     f"scale {a.get('scale')}, pH {a.get('pH')}, {a.get('temperature')} K; theoretical estimates\n")
-            _safe_text(frame).to_csv(fh, index=False)
-        os.replace(tmp, target)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    a = frame.attrs
+    header = (f"{a.get('quantity', '')}; {a.get('note', '')}; site density {a.get('site_density_per_cm2')} cm^-2; "
+              f"scale {a.get('scale')}, pH {a.get('pH')}, {a.get('temperature')} K; theoretical estimates")
+    write_csv(frame, path, header_lines=[header], force=force, index=False)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -166,15 +149,13 @@ def run(args: argparse.Namespace) -> int:
         from ecatlab.plotting.kinetics import plot_polarization_tafel
 
         fig = plot_polarization_tafel(pol, surfaces=list(model.surfaces)[:8]).figure
+        from ecatlab.safe_io import atomic_path
+
         target = pathlib.Path(args.figure)
-        fd, tmp = temp_file(target.parent if str(target.parent) else ".", suffix=target.suffix)
-        os.close(fd)
         try:
-            fig.savefig(tmp, bbox_inches="tight", format=target.suffix.lstrip(".") or "png")
-            os.replace(tmp, target)
+            with atomic_path(target, force=True, option="--figure", what="figure") as tmp:
+                fig.savefig(tmp, bbox_inches="tight", format=target.suffix.lstrip(".") or "png")
         finally:
             plt.close(fig)
-            if os.path.exists(tmp):
-                os.unlink(tmp)
         print(f"wrote {args.figure}")
     return 0

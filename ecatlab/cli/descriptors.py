@@ -37,7 +37,7 @@ def register(sub: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ecatlab.cli._output import check_target, write_atomic
+    from ecatlab.safe_io import atomic_path, check_output, write_csv
     from ecatlab.descriptors import analyse_descriptors
     from ecatlab.energies import read_energies
     from ecatlab.errors import DescriptorError
@@ -51,7 +51,7 @@ def run(args: argparse.Namespace) -> int:
     for name in ("output", "provenance", "scree", "biplot"):
         path = getattr(args, name)
         if path:
-            targets[name] = check_target(path, args.force, inputs=[args.file])
+            targets[name] = check_output(path, force=args.force, inputs=[args.file], option=f"--{name}" if name != "output" else "-o")
     table = read_energies(args.file, temperature=args.temperature)
     an = analyse_descriptors(table, species=args.species, surfaces=args.surface, imputation_rank=args.imputation_rank, standardize=args.standardize)
     ev, st, cmp_ = an.explained_variance(), an.stand_ins(min(4, an.n_components)), an.comparison()
@@ -81,13 +81,13 @@ def run(args: argparse.Namespace) -> int:
     if args.fill:
         filled, prov = fill_missing_energies(table, an.scaling if args.species is None and args.surface is None else None)
         frame = filled.frame[["surface", "species", "G", "status", "estimate_error", "estimate_model"]]
-        header = (f"# {table.source} with missing energies ESTIMATED from automatic scaling relations (status column; estimate_error = "
-                  "leave-one-out RMSE, eV). Estimates are not DFT values.\n")
-        write_atomic(targets["output"], lambda tmp: open(tmp, "w", encoding="utf-8").write(header + frame.to_csv(index=False)))
+        header = (f"{table.source} with missing energies ESTIMATED from automatic scaling relations (status column; estimate_error = "
+                  "leave-one-out RMSE, eV). Estimates are not DFT values.")
+        write_csv(frame, targets["output"], header_lines=[header], force=args.force, inputs=[args.file], index=False)
         n_est = int((prov["status"] == "estimated").sum())
         print(f"filled table written to {args.output} ({n_est} estimated, {int((prov['status'] == 'missing').sum())} still missing)")
         if "provenance" in targets:
-            write_atomic(targets["provenance"], lambda tmp: prov.to_csv(tmp, index=False))
+            write_csv(prov, targets["provenance"], force=args.force, inputs=[args.file], option="--provenance", index=False)
             print(f"provenance written to {args.provenance}")
     if "scree" in targets or "biplot" in targets:
         import matplotlib
@@ -100,7 +100,8 @@ def run(args: argparse.Namespace) -> int:
         for name, draw in (("scree", lambda: plot_scree(an, target_rmse=args.target_error)), ("biplot", lambda: plot_biplot(an))):
             if name in targets:
                 drawn = draw()
-                write_atomic(targets[name], lambda tmp: drawn.figure.savefig(tmp, bbox_inches="tight", format=targets[name].suffix.lstrip(".") or None))
+                with atomic_path(targets[name], force=args.force, inputs=[args.file], option=f"--{name}", what="figure") as tmp:
+                    drawn.figure.savefig(tmp, bbox_inches="tight", format=targets[name].suffix.lstrip(".").lower() or "png")
                 plt.close(drawn.figure)
                 print(f"{name} written to {getattr(args, name)}")
     return 0

@@ -78,6 +78,9 @@ def run(args: argparse.Namespace) -> int:
         frame = energy_table_from_ase(src, references=refs, zero_corrections=args.zero_corrections)
     from ecatlab.safe_io import write_csv
 
-    write_csv(frame, out, force=args.force, inputs=[src, args.corrections], index=False, float_format="%.6f")
+    label = frame.attrs.get("illustrative") or ""
+    header = [f"{label}: every number below is invented; do not cite." if label else ""]
+    write_csv(frame, out, header_lines=[h for h in header if h], force=args.force, inputs=[src, args.corrections], index=False,
+              float_format="%.6f")
     print(f"wrote {len(frame)} rows ({frame['surface'].nunique()} surfaces) to {out}")
     return 0

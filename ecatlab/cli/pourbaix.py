@@ -52,13 +52,14 @@ def _transitions(states, surface, pmap) -> list[tuple[float, str, str]]:
 def run(args: argparse.Namespace) -> int:
     import numpy as np
 
-    from ecatlab.cli._output import check_target, write_atomic
+    from ecatlab.safe_io import atomic_path, check_output
     from ecatlab.errors import SurfaceStateError
     from ecatlab.pourbaix import demo_surface_states, flag_surface_states, limiting_potential_vs_pH, pourbaix_map, read_surface_states, stable_states
 
     if bool(args.states) == bool(args.demo):
         raise SurfaceStateError("<command line>", "give a surface-state CSV file or --demo (one of them)")
-    target = check_target(args.output, args.force, inputs=[args.states or "", args.energies or ""]) if args.output else None
+    inputs = [i for i in (args.states, args.energies) if i]
+    target = check_output(args.output, force=args.force, inputs=inputs, what="figure") if args.output else None
     states = demo_surface_states(args.temperature) if args.demo else read_surface_states(args.states, temperature=args.temperature)
     names = args.surface or states.surfaces
     if target is not None and len(names) != 1:
@@ -123,7 +124,8 @@ def run(args: argparse.Namespace) -> int:
         pmap = pourbaix_map(states, surface, np.linspace(args.range[0], args.range[1], 401), np.linspace(0, 14, 141), args.scale, args.temperature)
         lines = limiting_potential_vs_pH(energies, args.pathway, surface, scale=args.scale, temperature=args.temperature) if energies is not None and surface in energies.surfaces else None
         drawn = plot_pourbaix(pmap, limiting=lines)
-        write_atomic(target, lambda tmp: drawn.figure.savefig(tmp, bbox_inches="tight", format=target.suffix.lstrip(".") or None))
+        with atomic_path(target, force=args.force, inputs=inputs, what="figure") as tmp:
+            drawn.figure.savefig(tmp, bbox_inches="tight", format=target.suffix.lstrip(".").lower() or "png")
         plt.close(drawn.figure)
         print(f"figure written to {args.output}")
     return 0

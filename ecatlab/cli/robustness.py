@@ -3,12 +3,11 @@
 from __future__ import annotations
 
 from ecatlab.cli import _options as opt
-from ecatlab.safe_io import temp_file
 
 import argparse
 import os
 
-from ecatlab.errors import OutputFolderError, UncertaintyError
+from ecatlab.errors import UncertaintyError
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
@@ -82,36 +81,20 @@ def build_model(args, table):
 
 
 def _check_target(path: str, force: bool, inputs) -> None:
-    target = os.path.abspath(path)
-    folder = os.path.dirname(target)
-    if not os.path.isdir(folder):
-        raise OutputFolderError(f"{path}: folder {folder} does not exist")
-    for src in inputs:
-        if src and os.path.exists(src) and os.path.exists(target) and os.path.samefile(src, target):
-            raise OutputFolderError(f"{path} is an input file; choose another output name")
-    if os.path.exists(target) and not force:
-        raise OutputFolderError(f"{path} exists; pass --force to overwrite it")
+    """Validate an output before the sampling runs (:func:`ecatlab.safe_io.check_output`)."""
+    from ecatlab.safe_io import check_output
+
+    check_output(path, force=force, inputs=[i for i in inputs if i])
 
 
-def _write_csv(frame, path: str) -> None:
-    safe = frame.copy()
-    for col in safe.columns:
-        if safe[col].dtype == object or str(safe[col].dtype) in ("string", "str", "category"):
-            text = safe[col].astype(str)
-            risky = text.str.startswith(_FORMULA_START)
-            safe[col] = text.where(~risky, "'" + text)  # spreadsheet formula guard (OWASP CSV injection)
-    folder = os.path.dirname(os.path.abspath(path))
-    fd, tmp = temp_file(folder, suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", newline="", encoding="utf-8") as fh:
-            c = frame.attrs
-            fh.write(f"# uncertainty summary; {c.get('samples')} samples; {c.get('model')}; scale {c.get('scale')}, pH {c.get('pH')}, "
-                     f"T {c.get('temperature')} K; {c.get('interval')}; theoretical estimates\n")
-            safe.to_csv(fh, index=False, float_format="%.6g")
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+def _write_csv(frame, path: str, force: bool) -> None:
+    """The summary with its conditions as a ``#`` line, via :func:`ecatlab.safe_io.write_csv`."""
+    from ecatlab.safe_io import write_csv
+
+    c = frame.attrs
+    header = (f"uncertainty summary; {c.get('samples')} samples; {c.get('model')}; scale {c.get('scale')}, pH {c.get('pH')}, "
+              f"T {c.get('temperature')} K; {c.get('interval')}; theoretical estimates")
+    write_csv(frame, path, header_lines=[header], force=force, index=False, float_format="%.6g")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -150,7 +133,7 @@ def run(args: argparse.Namespace) -> int:
             )
         print("\n".join(lines))
     if args.output:
-        _write_csv(summary, args.output)
+        _write_csv(summary, args.output, args.force)
         print(f"summary table written to {args.output}")
     if args.figure:
         import matplotlib
@@ -158,18 +141,15 @@ def run(args: argparse.Namespace) -> int:
         matplotlib.use("Agg")
         from ecatlab.plotting.uncertainty import plot_ranking_probabilities
 
+        drawn = plot_ranking_probabilities(res, res.pathways[0], top=args.top)
+        from ecatlab.safe_io import atomic_path
+
         import matplotlib.pyplot as plt
 
-        drawn = plot_ranking_probabilities(res, res.pathways[0], top=args.top)
-        folder = os.path.dirname(os.path.abspath(args.figure))
-        fd, tmp = temp_file(folder, suffix=os.path.splitext(args.figure)[1] or ".png")
-        os.close(fd)
         try:
-            drawn.figure.savefig(tmp, bbox_inches="tight")
-            os.replace(tmp, args.figure)
+            with atomic_path(args.figure, force=args.force, inputs=[args.file, args.ensemble], option="--figure", what="figure") as tmp:
+                drawn.figure.savefig(tmp, bbox_inches="tight", format=os.path.splitext(args.figure)[1].lstrip(".").lower() or "png")
         finally:
             plt.close(drawn.figure)
-            if os.path.exists(tmp):
-                os.unlink(tmp)
         print(f"figure written to {args.figure}")
     return 0

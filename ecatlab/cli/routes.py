@@ -39,7 +39,8 @@ def register(subparsers) -> None:
     p.add_argument("--chemical-limit", type=opt.finite_float, metavar="EV", help="block chemical steps with dG above this (eV, finite); any uphill chemical step already makes a route 'blocked'; default: keep and report them")
     p.add_argument("--edges", action="store_true", help="print the table of all network steps with dG at 0 V instead")
     p.add_argument("--format", type=str.lower, choices=FORMATS, default=None, help="output format (default: from the -o extension, else csv)")
-    p.add_argument("--decimals", type=opt.int_range(0, 12), default=4, help="decimals of the numbers in csv/markdown/latex/html (0 to 12, default 4)")
+    p.add_argument("--decimals", type=opt.int_range(0, 12), default=None,
+                   help="decimals of potentials and energies (0 to 12; default 3 in md/tex/html, 6 in csv; json keeps all)")
     p.add_argument("--figure", metavar="OUT", help="save a network figure (first surface, best route drawn) to OUT (.svg/.pdf/.png)")
     opt.add_output(p, "table file to write instead of printing (.csv, .tsv, .md, .tex, .html, .json)")
     g = p.add_argument_group("network from molecular structure")
@@ -113,8 +114,11 @@ def run(args: argparse.Namespace) -> int:
         frame = an.best_routes(args.product, top=args.top)
     else:
         frame = an.product_ranking()
+    from ecatlab.tables import ILLUSTRATIVE_NOTE, is_illustrative
+
     header = (
-        f"{frame.attrs.get('quantity', '')}; {an.scale} scale, pH {an.pH:g}, {an.temperature:g} K; "
+        (ILLUSTRATIVE_NOTE + " " if is_illustrative(table) else "")
+        + f"{frame.attrs.get('quantity', '')}; {an.scale} scale, pH {an.pH:g}, {an.temperature:g} K; "
         f"{table.scheme.describe()}; energies from {table.source}. Theoretical estimates (CHE thermodynamics)."
     )
     sep = "\t" if target is not None and target.suffix.lower() == ".tsv" else ","
@@ -174,7 +178,7 @@ def _check_reachable(table, reactant: str, product: str, net, options: dict) -> 
     raise PathwayError(f"{first}" + (f". {'; '.join(hints)}" if hints else ""))
 
 
-def _render(frame, fmt: str, header: str, decimals: int, sep: str = ",") -> str:
+def _render(frame, fmt: str, header: str, decimals: int | None, sep: str = ",") -> str:
     if fmt == "json":
         data = {"note": header, "attrs": {k: v for k, v in frame.attrs.items() if isinstance(v, (str, int, float, list, dict, type(None)))},
                 "rows": json.loads(frame.to_json(orient="records"))}
@@ -182,5 +186,5 @@ def _render(frame, fmt: str, header: str, decimals: int, sep: str = ",") -> str:
     from ecatlab.tables import render_table
 
     shown = frame.copy()
-    shown.attrs = {"caption": header, "columns": frame.attrs.get("columns", {}) if isinstance(frame.attrs.get("columns"), dict) else {}}
+    shown.attrs = {"caption": header, "illustrative": "ILLUSTRATIVE" in header, "columns": frame.attrs.get("columns", {}) if isinstance(frame.attrs.get("columns"), dict) else {}}
     return render_table(shown, fmt, decimals=decimals, csv_comment=True, sep=sep)

@@ -26,7 +26,8 @@ def register(sub: argparse._SubParsersAction) -> None:
     opt.add_surface(p)
     p.add_argument("--format", type=str.lower, choices=FORMATS, default=None,
                    help="output format (default: from the -o extension, else csv)")
-    p.add_argument("--decimals", type=opt.int_range(0, 12), default=3, help="decimals of the numbers (0 to 12, default 3; json keeps all)")
+    p.add_argument("--decimals", type=opt.int_range(0, 12), default=None,
+                   help="decimals of potentials and energies (0 to 12; default 3 in md/tex/html, 6 in csv; json keeps all)")
     opt.add_output(p, "table file to write instead of printing (.csv, .tsv, .md, .tex, .html, .json)")
     p.set_defaults(func=run_table)
 
@@ -37,7 +38,7 @@ def register(sub: argparse._SubParsersAction) -> None:
 
 def run_table(args: argparse.Namespace) -> int:
     from ecatlab import safe_io
-    from ecatlab.tables import render_table, table_format
+    from ecatlab.tables import ILLUSTRATIVE_NOTE, is_illustrative, render_table, table_format
 
     opt.check_input_file(args.file)
     inputs = [args.file, *args.pathway_file]
@@ -56,12 +57,15 @@ def run_table(args: argparse.Namespace) -> int:
         "determining_step", "max_chemical_dG", "uphill_chemical_steps", "missing_species",
     ]
     out = result[cols].copy()
+    illustrative = is_illustrative(table)
     out.attrs = {
         "caption": (
-            f"Limiting potentials [V vs {args.scale}] at pH {args.pH:g}, T {args.temperature:g} K; overpotential [V]; "
+            (ILLUSTRATIVE_NOTE + " " if illustrative else "")
+            + f"Limiting potentials [V vs {args.scale}] at pH {args.pH:g}, T {args.temperature:g} K; overpotential [V]; "
             f"max_chemical_dG [eV]. {table.scheme.describe()}. Source: {table.source}. "
             "Theoretical estimates (CHE, thermodynamics only)."
         ),
+        "illustrative": illustrative,
         "conditions": {k: v for k, v in result.attrs.items() if k != "columns"},
         "columns": {k: v for k, v in result.attrs.get("columns", {}).items() if k in cols},
     }

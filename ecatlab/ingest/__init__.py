@@ -44,6 +44,7 @@ __all__ = [
     "VaspRun",
     "VaspModes",
     "ENERGY_TABLE_COLUMNS",
+    "illustrative_label",
 ]
 
 #: Columns written by the ingestion routes, in order (provenance columns follow the energies).
@@ -115,6 +116,36 @@ def _correction_table(corrections) -> dict[str, dict[str, float]]:
     return out
 
 
+#: Files at the root of a tree whose first non-blank line may carry the ILLUSTRATIVE label.
+_README_NAMES = ("README.txt", "README.md", "README")
+
+
+def illustrative_label(root: str | os.PathLike) -> str:
+    """The ILLUSTRATIVE label of a folder tree of invented example data, or ``""``.
+
+    A tree is illustrative when the first non-blank line of its ``README.txt`` / ``README.md`` /
+    ``README`` (at the root) contains the word ``ILLUSTRATIVE`` in capitals (as the bundled
+    ``demo_data/dft_example`` does). The label is that line, e.g.
+    ``"ILLUSTRATIVE EXAMPLE -- INVENTED NUMBERS, NOT CALCULATIONS"``.
+    """
+    folder = os.fspath(root)
+    if not os.path.isdir(folder):
+        return ""
+    for name in _README_NAMES:
+        path = os.path.join(folder, name)
+        if not os.path.isfile(path):
+            continue
+        try:
+            with open(path, encoding="utf-8", errors="replace") as fh:
+                for _, line in zip(range(50), fh):
+                    if line.strip():
+                        text = line.strip().lstrip("#").strip()
+                        return text[:200] if "ILLUSTRATIVE" in text else ""
+        except OSError:
+            return ""
+    return ""
+
+
 def energy_table_from_vasp(
     root: str | os.PathLike,
     *,
@@ -149,6 +180,14 @@ def energy_table_from_vasp(
         Write 0 for adsorbates with neither (recorded in ``corrections_note``).
     require_converged : bool
         Reject runs pymatgen reports unconverged (default True).
+
+    Returns
+    -------
+    DataFrame
+        Columns :data:`ENERGY_TABLE_COLUMNS`; a tree of invented example data
+        (:func:`illustrative_label`) adds a ``provenance`` column holding its ILLUSTRATIVE label
+        on every row (and ``attrs["illustrative"]``), so the label travels with the energies
+        into every table and report made from them.
 
     Raises
     ------
@@ -209,4 +248,9 @@ def energy_table_from_vasp(
             "in each adsorbate folder, give a corrections table (species, ZPE, CpdT, TS in eV), or accept zeros explicitly "
             "(zero_corrections=True / --zero-corrections)",
         )
-    return pd.DataFrame(rows, columns=list(ENERGY_TABLE_COLUMNS))
+    frame = pd.DataFrame(rows, columns=list(ENERGY_TABLE_COLUMNS))
+    label = illustrative_label(root)
+    if label:
+        frame["provenance"] = label
+        frame.attrs["illustrative"] = label
+    return frame

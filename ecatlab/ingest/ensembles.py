@@ -359,14 +359,19 @@ def read_deviations(path: str | os.PathLike, center: bool = False):
 
 def write_deviations(ensemble, path: str | os.PathLike, force: bool = False) -> Path:
     """Write an ensemble as a long CSV/Parquet file or an NPZ file (by suffix); refuses to
-    overwrite without ``force``; writes to a temporary file in the folder and moves it into place."""
+    overwrite without ``force``; written atomically through :func:`ecatlab.safe_io.atomic_path`
+    (a failed write leaves the old file intact); CSV text cells are neutralised against formula
+    injection (:func:`ecatlab.safe_io.csv_text`)."""
+    from ecatlab import safe_io
+
     p = Path(path)
+    suffix = p.suffix.lower()
+    if suffix not in (".npz", ".parquet", ".pq", ".csv", ".txt"):
+        raise IngestError(str(p), f"unknown deviation file type {suffix!r}; use .csv, .parquet or .npz")
     if p.exists() and not force:
         raise IngestError(str(p), "file exists; pass force=True (CLI: --force) to overwrite it")
-    suffix = p.suffix.lower()
-    tmp = p.with_name(f".{p.name}.tmp{os.getpid()}")
     K, S, A = ensemble.deviations.shape
-    try:
+    with safe_io.atomic_path(p, force=force, what="deviation file") as tmp:
         if suffix == ".npz":
             with open(tmp, "wb") as fh:
                 np.savez(fh, deviations=ensemble.deviations, surfaces=np.array(ensemble.surfaces), species=np.array(ensemble.species),
@@ -385,14 +390,9 @@ def write_deviations(ensemble, path: str | os.PathLike, force: bool = False) -> 
                                                         "member": km.ravel(), "deviation": ensemble.molecule_deviations.ravel()})], ignore_index=True)
             if suffix in (".parquet", ".pq"):
                 frame.to_parquet(tmp, index=False)
-            elif suffix in (".csv", ".txt"):
-                with open(tmp, "w", newline="") as fh:
-                    fh.write(f"# ensemble deviations [eV]; source: {ensemble.source}\n")
-                    frame.to_csv(fh, index=False, float_format="%.10g")
             else:
-                raise IngestError(str(p), f"unknown deviation file type {suffix!r}; use .csv, .parquet or .npz")
-        os.replace(tmp, p)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
+                text = safe_io.comment_lines([f"ensemble deviations [eV]; source: {ensemble.source}"])
+                text += safe_io.csv_text(frame, index=False, float_format="%.10g")
+                with open(tmp, "w", encoding="utf-8", newline="") as fh:
+                    fh.write(text)
     return p

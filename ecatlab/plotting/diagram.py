@@ -81,70 +81,28 @@ _POTENTIAL_WORDS = {"zero": "zero", "0": "zero", "equilibrium": "equilibrium", "
 # ------------------------------------------------------------------------------------------------
 # labels
 # ------------------------------------------------------------------------------------------------
-def _term_mathtext(token: str) -> str:
-    token = token.strip()
-    specials = {"H+": r"\mathrm{H}^{+}", "e-": r"e^{-}", "OH-": r"\mathrm{OH}^{-}", "*": r"^{*}"}
-    if token in specials:
-        return specials[token]
-    m = re.fullmatch(r"(\d+(?:\.\d+)?)\s+(.+)", token)
-    if m:
-        return m.group(1) + r"\," + _term_mathtext(m.group(2))
-    phase = ""
-    pm = re.fullmatch(r"(.+)\((g|l|aq)\)", token)
-    if pm:
-        token, phase = pm.group(1), r"(\mathrm{" + pm.group(2) + "})"
-    star = token.endswith("*")
-    formula = token.rstrip("*")
-    if not re.fullmatch(r"[A-Za-z0-9()]+", formula):
-        return r"\mathrm{" + re.sub(r"([\\{}_^$%#&~])", r"\\\1", token) + "}" + phase
-    body = re.sub(r"(\d+)", r"}_{\1}\\mathrm{", formula)
-    body = (r"\mathrm{" + body + "}").replace(r"\mathrm{}", "")
-    return body + (r"^{*}" if star else "") + phase
-
-
 def state_label_mathtext(label: str) -> str:
-    """Mathtext form of a state label: subscripted counts, superscript ``*`` and charges.
+    """Mathtext form of a state label (see :func:`ecatlab.chemtext.mathtext`): subscripted counts,
+    superscript charges, the site mark ``∗`` on the baseline.
 
-    ``"O* + OH*"`` -> ``$\\mathrm{O}^{*} + \\mathrm{OH}^{*}$``; ``"2 O*"`` -> ``$2\\,\\mathrm{O}^{*}$``;
-    ``"H+ + e-"`` -> ``$\\mathrm{H}^{+} + e^{-}$``. Text that is not chemistry is returned in roman.
+    ``"2 O*"`` -> ``$2\\,\\mathrm{O}{\\ast}$``; ``"H+ + e-"`` -> ``$\\mathrm{H}^{+}$ + $\\mathrm{e}^{-}$``.
+    Text that is not chemistry is kept as text.
     """
-    parts = [p for p in re.split(r"\s+\+\s+", label.strip()) if p]
-    if not parts:
-        return label
-    return "$" + " + ".join(_term_mathtext(p) for p in parts) + "$"
+    from ecatlab import chemtext
 
-
-_SUB = str.maketrans("0123456789", "₀₁₂₃₄₅₆₇₈₉")
-
-
-def _term_text(token: str) -> str:
-    token = token.strip()
-    specials = {"H+": "H⁺", "e-": "e⁻", "OH-": "OH⁻", "*": "*"}
-    if token in specials:
-        return specials[token]
-    m = re.fullmatch(r"(\d+(?:\.\d+)?)\s+(.+)", token)
-    if m:
-        return m.group(1) + "\N{THIN SPACE}" + _term_text(m.group(2))
-    pm = re.fullmatch(r"(.+)(\((?:g|l|aq)\))", token)
-    if pm:
-        return _term_text(pm.group(1)) + pm.group(2)
-    if not re.fullmatch(r"[A-Za-z0-9()]+\*?", token):
-        return token
-    # digits that follow an element symbol or a closing parenthesis are counts -> subscripts
-    return re.sub(r"(?<=[A-Za-z)])(\d+)", lambda mm: mm.group(1).translate(_SUB), token)
+    return chemtext.mathtext(label)
 
 
 def state_label_text(label: str) -> str:
-    """Plain-text chemical form of a state label with Unicode subscripts and charges.
+    """Unicode form of a state label (see :func:`ecatlab.chemtext.unicode`).
 
-    ``"NH2NH2*"`` -> ``"NH₂NH₂*"``, ``"2 O*"`` -> ``"2 O*"`` (thin space), ``"H+ + e-"`` -> ``"H⁺ + e⁻"``.
+    ``"NH2NH2*"`` -> ``"NH₂NH₂∗"``, ``"2 O*"`` -> ``"2 O∗"`` (thin space), ``"H+ + e-"`` -> ``"H⁺ + e⁻"``.
     Used for every label ecatlab draws: real text in SVG/PDF (searchable, editable) and fast to
     lay out (no mathtext parsing). :func:`state_label_mathtext` gives the mathtext form instead.
     """
-    parts = [p for p in re.split(r"\s+\+\s+", label.strip()) if p]
-    if not parts:
-        return label
-    return " + ".join(_term_text(p) for p in parts)
+    from ecatlab import chemtext
+
+    return chemtext.unicode(label)
 
 
 def _fmt(value: float, signed: bool = False) -> str:

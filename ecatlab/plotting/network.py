@@ -8,7 +8,6 @@ The plotter only draws; all numbers come from :class:`ecatlab.network.NetworkAna
 
 from __future__ import annotations
 
-import re
 
 import numpy as np
 
@@ -19,19 +18,11 @@ __all__ = ["plot_network", "state_mathtext", "network_view"]
 
 
 def state_mathtext(label: str) -> str:
-    """Mathtext of a state label such as ``"O* + CH4(g)"``, one species per line."""
-    from ecatlab.notation import Species
+    """Mathtext of a state label such as ``"O* + CH4(g)"``, one species per line
+    (see :func:`ecatlab.chemtext.mathtext`)."""
+    from ecatlab import chemtext
 
-    parts = []
-    for part in label.split(" + "):
-        m = re.fullmatch(r"(\d+) (.+)", part)
-        coef, text = (m.group(1) + r"\,", m.group(2)) if m else ("", part)
-        try:
-            tex = Species.parse(text).latex()
-        except Exception:
-            tex = text
-        parts.append(f"{coef}{tex}" if not coef else f"${coef}$" + tex)
-    return "\n+ ".join(parts)
+    return "\n+ ".join(chemtext.mathtext(term) for term in chemtext.split_terms(label)) or chemtext.mathtext(label)
 
 
 def _layout(network, route_states: list[int], shown: list[int], extra_routes: list[list[int]] = ()) -> dict[int, tuple[float, float]]:

@@ -1,4 +1,5 @@
-"""Writes minimal VASP-format files with invented numbers, for tests and examples; never real calculations.
+"""Test helper (not part of the ecatlab package): writes minimal VASP-format files with invented
+numbers, for tests and examples; never real calculations.
 
 The files carry just enough of the ``vasprun.xml`` / ``OUTCAR`` formats for
 :mod:`pymatgen.io.vasp` and :mod:`ecatlab.ingest.vasp` to read them: the generator block (date),
@@ -8,7 +9,8 @@ frequencies are whatever the caller passes: they are never the result of a calcu
 
 Used by the ingestion tests and by ``demo_data/make_dft_example.py`` (the ILLUSTRATIVE
 ``demo_data/dft_example`` tree). Output is deterministic (fixed number formats, no time stamps
-other than the ``date`` argument), so a regenerated tree is byte-identical.
+other than the ``date`` argument, negative zeros written as zeros), so a regenerated tree is
+byte-identical whatever the versions of ase/pymatgen that built the placeholder geometries.
 
 ase and pymatgen are imported lazily (only :func:`fcc111_slab` needs ase).
 """
@@ -36,10 +38,16 @@ __all__ = [
 ]
 
 
+def _no_negative_zero(x, fmt: str):
+    """``x``, or 0.0 when it would print as a negative zero ("-0.00000000" depends on round-off)."""
+    text = fmt.format(x)
+    return 0.0 if text.strip().lstrip("-").strip("0.") == "" and text.strip().startswith("-") else x
+
+
 def _varray(name, rows, fmt="{: .8f}") -> str:
     out = [f'  <varray name="{name}">'] if name else ["  <varray>"]
     for r in rows:
-        out.append("   <v>" + " ".join(fmt.format(x) for x in r) + " </v>")
+        out.append("   <v>" + " ".join(fmt.format(_no_negative_zero(x, fmt)) for x in r) + " </v>")
     out.append("  </varray>")
     return "\n".join(out)
 
