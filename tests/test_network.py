@@ -290,3 +290,27 @@ def test_network_figure_draws_route_on_given_axes(table, co2, tmp_path):
     fig.savefig(tmp_path / "n.png")
     plt.close("all")
     assert len(route.steps) >= 8
+
+
+def test_network_figure_marks_the_stuck_state_without_covering_its_label(table, co2):
+    # the state before the bottleneck step is marked on its own label box; no marker is drawn over
+    # any state label (a ring over the label used to hide its text)
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from matplotlib.collections import PathCollection
+
+    from ecatlab.plotting.network import plot_network
+    from ecatlab.plotting.style import PALETTE
+
+    out = plot_network(co2, "SAS-03", "CH4", potential=-0.3, ax=plt.subplots()[1])
+    stuck = out.parts["stuck"]
+    assert stuck in out.parts["states"].values()
+    assert matplotlib.colors.same_color(stuck.get_bbox_patch().get_edgecolor(), PALETTE[3])
+    out.figure.canvas.draw()
+    boxes = [t.get_window_extent() for t in out.parts["states"].values()]
+    for coll in (c for c in out.ax.collections if isinstance(c, PathCollection)):
+        centres = out.ax.transData.transform(coll.get_offsets())
+        assert not any(b.contains(*xy) for b in boxes for xy in centres), "a marker sits on a state label"
+    plt.close("all")

@@ -227,9 +227,14 @@ def plot_network(
                 x, y, state_mathtext(s.label), ha="center", va="center", fontsize=p.font_pt - 2, zorder=3, linespacing=1.0,
                 bbox=dict(boxstyle="round,pad=0.25", fc="white", ec=PALETTE[0] if on_route else "#999999", lw=1.1 if on_route else 0.6),
             )
-        if stuck is not None and stuck in pos:
-            ring = ax.scatter([pos[stuck][0]], [pos[stuck][1]], s=900, facecolors="none", edgecolors=PALETTE[3 % len(PALETTE)],
-                       linewidths=1.6, zorder=4, label="stuck here (before the bottleneck step)")
+        if stuck is not None and stuck in state_texts:
+            # the stuck state's own label box is marked (a ring drawn over it would hide its text)
+            ring = state_texts[stuck]
+            ring.get_bbox_patch().set(edgecolor=PALETTE[3 % len(PALETTE)], linewidth=2.4)
+            ring.set_zorder(4)
+        elif stuck is not None and stuck in pos:
+            ring = ax.scatter([pos[stuck][0]], [pos[stuck][1]], s=120, facecolors="none", edgecolors=PALETTE[3 % len(PALETTE)],
+                              linewidths=1.6, zorder=4, label="stuck here (before the bottleneck step)")
         xs = [xy[0] for xy in pos.values()]
         ys = [xy[1] for xy in pos.values()]
         ax.set_xlim(min(xs) - 0.6, max(xs) + 0.6)
@@ -247,7 +252,8 @@ def plot_network(
         if route_edges:
             handles.append(Line2D([], [], color=HIGHLIGHT, lw=5, label="best route"))
         if stuck is not None:
-            handles.append(Line2D([], [], ls="", marker="o", mfc="none", mec=PALETTE[3 % len(PALETTE)], ms=10, label="stuck here"))
+            handles.append(Line2D([], [], ls="", marker="s" if stuck in state_texts else "o", mfc="white", mec=PALETTE[3 % len(PALETTE)],
+                                  mew=2.0, ms=10, label="stuck here"))
         below = offset_copy(ax.transAxes, fig=fig, y=-3.6 * p.font_pt, units="points")  # under the x label
         leg = ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(0.0, 0.0), bbox_transform=below, ncol=4, frameon=False,
                   borderaxespad=0.0)
