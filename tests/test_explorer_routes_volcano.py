@@ -227,3 +227,18 @@ def test_fast_png_is_lossless(table):
     png = ex.view.last_png
     decoded = np.asarray(Image.open(io.BytesIO(png)).convert("RGB"))
     np.testing.assert_array_equal(decoded, np.asarray(ex.view.figure.canvas.buffer_rgba())[:, :, :3])
+
+
+def test_volcano_tab_summary_shows_conditions_unsigned_with_two_decimals():
+    # pH and T are conditions, not signed quantities: "0.00" and "298.15", never "+0.000" / "+298.150"
+    import ecatlab
+    from ecatlab.explorer.volcano_tab import summary_html
+
+    from ecatlab.volcano import volcano
+
+    curve = volcano(ecatlab.demo_energies(), "orr-4e", "OH*", pH=1.0, temperature=310.0)
+    text = summary_html(curve.summary(), "caption")
+    assert ">1.00<" in text and ">310.00<" in text
+    assert "+298" not in text and "+1.000" not in text and "+310" not in text
+    best = float(curve.summary().set_index("quantity").loc["best limiting potential", "value"])
+    assert f">{best:+.3f}<".replace("-", "\N{MINUS SIGN}") in text  # potentials stay signed, 3 decimals

@@ -273,3 +273,16 @@ def test_frames_carry_conditions(demo):
     assert f.attrs["pH"] == 1.0 and f.attrs["scale"] == "RHE" and f.attrs["descriptor"] == "O* - OH*"
     assert np.all(np.diff(f["descriptor"]) > 0)
     assert "onset 1: H2O(l) → OH*" in f.columns
+
+
+def test_ecatlab_volcano_is_callable_after_the_package_is_imported():
+    # importing the subpackage rebinds the attribute ecatlab.volcano to the module (Python's import
+    # system); the lazily exported function must keep working through it
+    import ecatlab
+    import ecatlab.volcano
+    from ecatlab.volcano import volcano as fn
+
+    table = ecatlab.demo_energies()
+    a = ecatlab.volcano(table, "orr-4e", "OH*")
+    b = fn(table, "orr-4e", "OH*")
+    assert a.apex.limiting_potential == b.apex.limiting_potential

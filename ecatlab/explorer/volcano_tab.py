@@ -45,19 +45,24 @@ def descriptor_options(family: str, pathway) -> list[str]:
     return out
 
 
-def _cell(value) -> str:
-    if isinstance(value, float):
-        if not math.isfinite(value):
-            return "n/a"
-        return f"{value:+.3f}".replace("-", "\N{MINUS SIGN}")
-    return html.escape(str(value))
+#: Conditions are shown unsigned with two decimals (pH, K); potentials and energies signed with three (V, eV).
+_CONDITION_ROWS = frozenset({"pH", "temperature"})
+
+
+def _cell(value, quantity: str = "") -> str:
+    if not isinstance(value, float):
+        return html.escape(str(value))
+    if not math.isfinite(value):
+        return "n/a"
+    text = f"{value:.2f}" if quantity in _CONDITION_ROWS else f"{value:+.3f}"
+    return text.replace("-", "\N{MINUS SIGN}")
 
 
 def summary_html(summary, caption: str) -> str:
     """HTML of a volcano summary table (quantity / value / unit / note)."""
     rows = "".join(
         f'<tr><th style="text-align:left;padding:1px 6px">{html.escape(str(r.quantity))}</th>'
-        f'<td style="padding:1px 6px;text-align:right;font-variant-numeric:tabular-nums">{_cell(r.value)}</td>'
+        f'<td style="padding:1px 6px;text-align:right;font-variant-numeric:tabular-nums">{_cell(r.value, str(r.quantity))}</td>'
         f'<td style="padding:1px 6px">{html.escape(str(r.unit))}</td><td style="padding:1px 6px;color:#444">{html.escape(str(r.note))}</td></tr>'
         for r in summary.itertuples(index=False)
     )

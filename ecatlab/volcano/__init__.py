@@ -47,6 +47,9 @@ Layers: :class:`VolcanoAnalysis` computes, the result objects (:class:`VolcanoCu
 :mod:`ecatlab.plotting.volcano`.
 """
 
+import sys as _sys
+import types as _types
+
 from ecatlab.volcano.space import DescriptorSpace, build_space
 from ecatlab.volcano.results import ActivityMap, Apex, SelectivityMap, VolcanoCurve
 from ecatlab.volcano.selectivity import DEFAULT_PRODUCTS, SELECTIVITY_BASES
@@ -68,3 +71,17 @@ __all__ = [
     "DEFAULT_PRODUCTS",
     "SELECTIVITY_BASES",
 ]
+
+
+class _CallableModule(_types.ModuleType):
+    """``ecatlab.volcano`` is both this package and the function :func:`volcano`.
+
+    ``import ecatlab.volcano`` (done by the report, the explorer, ...) makes the attribute
+    ``ecatlab.volcano`` this module instead of the lazily exported function; calling the module
+    calls the function, so ``ecatlab.volcano(table, "orr-4e", "OH*")`` works either way."""
+
+    def __call__(self, *args, **kwargs):
+        return volcano(*args, **kwargs)
+
+
+_sys.modules[__name__].__class__ = _CallableModule
