@@ -256,3 +256,17 @@ def test_onset_flags_a_grid_that_starts_past_the_onset(demo):
     full = A.onset_potentials(solve_steady_state(model, np.linspace(0.5, 1.2, 71)))
     assert full["reached"].all() and not full["at_grid_edge"].any()
     assert 0.9 < full["onset_potential"].iloc[0] < 1.2
+
+
+def test_explorer_onset_table_flags_currents_beyond_mass_transport():
+    # kinetic currents above 1 A/cm^2 (common practice, no source) are flagged with a note, smaller ones not
+    from ecatlab.explorer.kinetics_tab import TRANSPORT_NOTE_MA_CM2, onset_table_html
+
+    summary = pd.DataFrame({"surface": ["A", "B"], "onset_potential": [0.8, 0.7], "onset_overpotential": [0.43, 0.53],
+                            "reached": [True, True], "max_abs_current_density": [9.95e11, 50.0],
+                            "barriers": ["estimated", "estimated"], "all_converged": [True, True]})
+    text = onset_table_html(summary, "caption")
+    assert TRANSPORT_NOTE_MA_CM2 == 1000.0
+    assert "9.95e+11 \N{DAGGER}" in text and "5.00e+01 \N{DAGGER}" not in text and "5.00e+01" in text
+    assert "no transport model" in text
+    assert "\N{DAGGER}" not in onset_table_html(summary.iloc[1:], "caption")

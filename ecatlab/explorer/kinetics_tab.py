@@ -24,6 +24,8 @@ import math
 __all__ = ["KineticsPanel", "onset_table_html"]
 
 _DPI = 90
+#: Kinetic current density (mA/cm^2) above which the onset table flags a value as beyond mass transport.
+TRANSPORT_NOTE_MA_CM2 = 1000.0
 _POINTS = 111
 
 
@@ -32,11 +34,23 @@ def onset_table_html(summary, caption: str) -> str:
     def num(v, fmt):
         return "n/a" if not (isinstance(v, float) and math.isfinite(v)) else format(v, fmt).replace("-", "\N{MINUS SIGN}")
 
+    # kinetic currents only (no mass transport): above ~1 A/cm^2 (common practice, no source) a value
+    # says "not rate-limited by the surface", not a current a cell would carry
+    beyond = summary["max_abs_current_density"].to_numpy(float) > TRANSPORT_NOTE_MA_CM2
+
+    def jmax(v) -> str:
+        text = num(float(v), ".2e")
+        return text + " \N{DAGGER}" if math.isfinite(float(v)) and float(v) > TRANSPORT_NOTE_MA_CM2 else text
+
+    note = (f'<p style="font-size:11px;color:#444;margin:2px 0">\N{DAGGER} kinetic current above '
+            f'{TRANSPORT_NOTE_MA_CM2:g} mA/cm\N{SUPERSCRIPT TWO}: far beyond what mass transport delivers; ecatlab has no '
+            "transport model, so read it as \N{LEFT DOUBLE QUOTATION MARK}the surface is not the limit\N{RIGHT DOUBLE QUOTATION MARK}.</p>"
+            if beyond.any() else "")
     rows = "".join(
         f'<tr><th style="text-align:left;padding:1px 6px">{html.escape(str(r.surface))}</th>'
         f'<td style="padding:1px 6px;text-align:right">{num(float(r.onset_potential), "+.3f") if r.reached else "not reached"}</td>'
         f'<td style="padding:1px 6px;text-align:right">{num(float(r.onset_overpotential), ".3f") if r.reached else "n/a"}</td>'
-        f'<td style="padding:1px 6px;text-align:right">{num(float(r.max_abs_current_density), ".2e")}</td>'
+        f'<td style="padding:1px 6px;text-align:right">{jmax(r.max_abs_current_density)}</td>'
         f'<td style="padding:1px 6px">{html.escape(str(r.barriers))}</td>'
         f'<td style="padding:1px 6px">{"yes" if r.all_converged else "NO"}</td></tr>'
         for r in summary.itertuples(index=False)
@@ -46,7 +60,7 @@ def onset_table_html(summary, caption: str) -> str:
         f'<caption style="caption-side:top;text-align:left">{html.escape(caption)}</caption>'
         "<thead><tr><th>surface</th><th>onset potential (V)</th><th>onset overpotential (V)</th>"
         "<th>max |j| on grid (mA/cm²)</th><th>barriers</th><th>converged</th></tr></thead>"
-        f"<tbody>{rows}</tbody></table></div>"
+        f"<tbody>{rows}</tbody></table>{note}</div>"
     )
 
 
