@@ -62,3 +62,32 @@ def test_tab_numbers_equal_propagate(table):
     ref = propagate(table, s.pathway, GaussianErrors(0.1, 0.5), n_samples=DEFAULT_SAMPLES, pH=s.pH, scale=s.scale,
                     temperature=s.temperature, surfaces=list(s.surfaces), seed=0).ranking(s.pathway.name)
     assert mine.equals(ref)
+
+
+def test_bands_panel_shows_the_focus_surface_levels_at_equilibrium(table):
+    # the third panel: the focus surface's levels (engine's state free energies at U_eq) with the central
+    # 90 % band of the samples; a potential move does not redraw it, a new focus surface does (no resampling)
+    import numpy as np
+
+    from ecatlab import che
+
+    ex = explore(table, reaction="ORR", render="inline")
+    panel = ex.uncertainty
+    panel.show.value = True
+    s = ex.state
+    data = panel.bands.data
+    assert set(data["surface"]) == {s.focus}
+    u_eq = float(s.equilibrium_potential())
+    assert data.attrs["potential"] == pytest.approx(u_eq) and u_eq == pytest.approx(1.2288, abs=2e-4)  # ORR, CRC Handbook 1.229 V
+    engine = che.state_free_energies(table, s.pathway, potential=u_eq, surfaces=[s.focus]).to_numpy()[0]
+    assert np.allclose(data["level"].to_numpy(), engine, atol=1e-9)
+    assert (data["low"] <= data["median"]).all() and (data["median"] <= data["high"]).all()
+    width = (data["high"] - data["low"]).to_numpy()
+    assert (width[1:-1] > 0.05).all()  # sigma 0.1 eV: visible bands on the adsorbate states
+    assert abs(width[0]) < 1e-12 and abs(width[-1]) < 1e-12  # O2(g) and 2 H2O(l): no adsorbate, no spread
+    draws, props = panel.draws, panel.propagations
+    ex.potential.value = 0.3
+    assert (panel.draws, panel.propagations) == (draws, props)
+    other = next(x for x in s.surfaces if x != s.focus)
+    ex.focus.value = other
+    assert panel.propagations == props and panel.draws == draws + 1 and set(panel.bands.data["surface"]) == {other}

@@ -6,10 +6,15 @@ correlation set in the section) for the pathway, surfaces and conditions of the 
 :func:`ecatlab.plotting.uncertainty.plot_ranking_probabilities` and
 :func:`~ecatlab.plotting.uncertainty.plot_determining_step_probabilities` draw it.
 
-Budget: nothing is sampled until "show uncertainty" is ticked. Both figures are independent of
+and, for the focus surface, :func:`~ecatlab.plotting.uncertainty.plot_diagram_bands` draws its
+free-energy levels with the central 90 % band of the samples on every level, at the pathway's
+equilibrium potential (where G_max is defined; the band widths do not depend on the potential,
+since every sample's levels shift by the same n e U).
+
+Budget: nothing is sampled until "show uncertainty" is ticked. The three panels are independent of
 the applied potential, so a potential move costs one comparison of the inputs (the diagram
 itself keeps its budget); pathway, surfaces, pH, scale, temperature, sigma or correlation
-changes sample again (default 400 samples) and redraw. The section owns one bare matplotlib
+changes sample again (default 400 samples) and redraw; a new focus surface redraws. The section owns one bare matplotlib
 Figure (never registered with pyplot) shown as a PNG in an ``ipywidgets.Image``. Diagrams with
 bands on the levels are :func:`ecatlab.plotting.uncertainty.plot_diagram_bands` (notebook 06).
 """
@@ -37,6 +42,8 @@ class UncertaintyPanel:
         Gaussian error of every adsorbate (eV) and correlation within a binding-atom group.
     result : UncertaintyResult or None
         The last propagation.
+    bands : Drawn or None
+        The last levels-with-bands panel (``data``: surface, state, level, low, median, high; eV).
     draws, propagations : int
         Counters (for tests).
     """
@@ -48,10 +55,12 @@ class UncertaintyPanel:
         from ecatlab.plotting.style import preset
 
         p = preset("notebook")
-        self.figure = Figure(figsize=(p.figsize[0], p.figsize[1] * 1.6), dpi=_DPI)
+        self.figure = Figure(figsize=(p.figsize[0], p.figsize[1] * 2.5), dpi=_DPI)
         FigureCanvasAgg(self.figure)
-        self.ax_rank, self.ax_diagram = self.figure.subplots(2, 1)  # ranking; determining steps
+        # ranking; determining steps; the focus surface's levels with bands
+        self.ax_rank, self.ax_diagram, self.ax_bands = self.figure.subplots(3, 1)
         self.result = None
+        self.bands = None
         self.draws = 0
         self.propagations = 0
         self.last_error: Exception | None = None
@@ -116,19 +125,23 @@ class UncertaintyPanel:
                                     scale=state.scale, temperature=state.temperature, surfaces=list(state.surfaces), seed=0)
             self.propagations += 1
             self._result_key = rkey
-        dkey = rkey  # the figures do not depend on the potential or the focus surface
+        focus = state.focus if state.focus in state.surfaces else state.surfaces[0]
+        dkey = rkey + (focus,)  # the figures do not depend on the potential
         if dkey == self._draw_key:
             return False
         from ecatlab.plotting.style import preset, style_context
-        from ecatlab.plotting.uncertainty import plot_determining_step_probabilities, plot_ranking_probabilities
+        from ecatlab.plotting.uncertainty import plot_determining_step_probabilities, plot_diagram_bands, plot_ranking_probabilities
 
         self.ax_rank.clear()
         self.ax_diagram.clear()
+        self.ax_bands.clear()
         p = preset("notebook")
         with style_context(p):
             plot_ranking_probabilities(self.result, state.pathway.name, top=min(3, len(state.surfaces)), ax=self.ax_rank, caption=False)
             plot_determining_step_probabilities(self.result, state.pathway.name, ax=self.ax_diagram, caption=False)
-        self.figure.subplots_adjust(left=0.2, right=0.62, top=0.94, bottom=0.07, hspace=0.45)  # fixed: no extra layout draw
+            self.bands = plot_diagram_bands(self.result, state.pathway.name, focus, potential=float(state.equilibrium_potential()),
+                                            interval=0.9, ax=self.ax_bands, caption=False)
+        self.figure.subplots_adjust(left=0.2, right=0.62, top=0.96, bottom=0.08, hspace=0.6)  # fixed: no extra layout draw
         buf = io.BytesIO()
         self.figure.savefig(buf, format="png", dpi=_DPI, facecolor="white")
         self.last_png = buf.getvalue()

@@ -625,6 +625,7 @@ class Explorer:
             self._refresh()
         else:
             self.readout.value = readout_html(self.state, self.state.focus)
+            self._refresh_volcano()  # the focus-surface panels (surface states, uncertainty bands); no-op when unchanged
 
     def _on_tab(self, change) -> None:
         self._refresh_volcano()
