@@ -66,26 +66,37 @@ def _references_line(state) -> str:
     return "CHE, " + refs
 
 
+def _split_conditions(text: str) -> tuple[str, str]:
+    """``"U = +0.800 V vs RHE, pH 0, ..."`` -> ``("U = +0.800", " V vs RHE, pH 0, ...")``."""
+    head, sep, rest = text.partition(" V vs ")
+    return (head, sep + rest) if sep else (text, "")
+
+
 def _png_chunk(tag: bytes, data: bytes) -> bytes:
     return struct.pack(">I", len(data)) + tag + data + struct.pack(">I", zlib.crc32(tag + data) & 0xFFFFFFFF)
 
 
 def fast_png(rgba: np.ndarray) -> bytes:
-    """Lossless PNG (8-bit RGB) of an (height, width, 4) uint8 RGBA buffer, built for speed.
+    """Lossless PNG (8-bit RGBA) of an (height, width, 4) uint8 RGBA buffer, built for speed.
 
     The live view sends one PNG per slider move. A general encoder tries five row filters per
-    row and compresses harder; a rendered diagram (large flat areas) compresses almost as well
-    without filtering, so this writer uses filter type 0 on every row and zlib level 1: about
-    half the time of Pillow's ``compress_level=1`` at a similar size. The alpha channel is
-    dropped (the figure background is opaque). Format: PNG specification, ISO/IEC 15948 (IHDR
-    colour type 2, bit depth 8; IDAT zlib stream; CRC-32 per chunk).
+    row and compresses harder; a rendered diagram (large flat areas) compresses well with one
+    fixed filter, so this writer uses filter type 1 ("Sub": each byte minus the same byte of the
+    pixel to its left, modulo 256) on every row, computed with one numpy subtraction straight on
+    the renderer's RGBA buffer (no copy to RGB first), and zlib level 1. Flat areas, and the
+    opaque alpha channel, become runs of zeros, which zlib passes fastest. Format: PNG
+    specification, ISO/IEC 15948 (IHDR colour type 6, bit depth 8; filter method 0, type 1; IDAT
+    zlib stream; CRC-32 per chunk).
     """
-    rgb = np.asarray(rgba)[:, :, :3]
-    height, width = rgb.shape[:2]
-    raw = np.zeros((height, 3 * width + 1), dtype=np.uint8)  # first byte of each row: filter 0
-    raw[:, 1:] = rgb.reshape(height, 3 * width)
-    header = struct.pack(">IIBBBBB", width, height, 8, 2, 0, 0, 0)
-    return (b"\x89PNG\r\n\x1a\n" + _png_chunk(b"IHDR", header) + _png_chunk(b"IDAT", zlib.compress(raw.tobytes(), 1))
+    pixels = np.ascontiguousarray(rgba, dtype=np.uint8)
+    height, width = pixels.shape[:2]
+    flat = pixels.reshape(height, 4 * width)
+    raw = np.empty((height, 4 * width + 1), dtype=np.uint8)
+    raw[:, 0] = 1  # filter type of each row: Sub
+    raw[:, 1:5] = flat[:, :4]  # the first pixel has no left neighbour (taken as 0)
+    np.subtract(flat[:, 4:], flat[:, :-4], out=raw[:, 5:])  # uint8 arithmetic wraps modulo 256, as PNG requires
+    header = struct.pack(">IIBBBBB", width, height, 8, 6, 0, 0, 0)
+    return (b"\x89PNG\r\n\x1a\n" + _png_chunk(b"IHDR", header) + _png_chunk(b"IDAT", zlib.compress(raw, 1))
             + _png_chunk(b"IEND", b""))
 
 
@@ -95,7 +106,8 @@ class _DrawnSeries:
     Attributes
     ----------
     levels : ndarray
-        Drawn level of each state (eV), from the level collection's segments.
+        Drawn level of each state (eV), read from the vertices of this surface's path in the
+        level collection (the path the renderer draws).
     n_states : int
     highlight_index : int or None
         0-based index of the highlighted (potential-determining) step, None when not drawn.
@@ -108,16 +120,18 @@ class _DrawnSeries:
 
     @property
     def levels(self) -> np.ndarray:
-        segments = self._view._levels.get_segments()[self._index * self.n_states : (self._index + 1) * self.n_states]
-        return np.array([seg[0, 1] for seg in segments], dtype=float)
+        vertices = self._view._levels.get_paths()[self._index].vertices
+        return np.array(vertices[0::3, 1], dtype=float)
 
     @property
     def highlight_index(self):
-        levels = self._view._current[self._index]
-        for seg in self._view._highlights.get_segments():
-            i = int(round(seg[0, 0] - 0.5)) if len(seg) else -1
-            if 0 <= i < self.n_states - 1 and np.isclose(seg[0, 1], levels[i]) and np.isclose(seg[1, 1], levels[i + 1]):
-                return i
+        vertices = self._view._highlights.get_paths()[self._index].vertices
+        if not np.all(np.isfinite(vertices)):
+            return None
+        levels = self.levels
+        i = int(round(vertices[0, 0] - 0.5))
+        if 0 <= i < self.n_states - 1 and np.isclose(vertices[0, 1], levels[i]) and np.isclose(vertices[1, 1], levels[i + 1]):
+            return i
         return None
 
 
@@ -165,8 +179,11 @@ class DiagramView:
                 from matplotlib.backends.backend_agg import FigureCanvasAgg
                 from matplotlib.figure import Figure
 
+                from ecatlab.explorer import textcache
+
                 self.figure = Figure(figsize=p.figsize, dpi=_DPI)
-                FigureCanvasAgg(self.figure)
+                # glyph bitmaps rendered once and reused (same pixels): most of a full draw is text
+                (textcache.GlyphCachingCanvas if textcache.supported() else FigureCanvasAgg)(self.figure)
                 self.widget = None
                 if with_widget:
                     import ipywidgets as w
@@ -179,6 +196,8 @@ class DiagramView:
         self._originals: list = []
         self._dynamic: list = []
         self._background = None
+        self._legend = None
+        self._legend_pixels = None
         self._ylim = None
         self._exporting = False
         self.figure.canvas.mpl_connect("draw_event", self._on_draw)
@@ -222,8 +241,8 @@ class DiagramView:
         self.ax.clear()
         p = preset(_PRESET)
         with style_context(p):
-            plot_free_energy_diagram(None, None, data=self.data, ax=self.ax, style=p, annotate=False, highlight=True,
-                                     title=heading, conditions=None, legend=False)
+            drawn = plot_free_energy_diagram(None, None, data=self.data, ax=self.ax, style=p, annotate=False, highlight=True,
+                                             title=heading, conditions=None, legend=False)
             # fixed title position: skips matplotlib's per-draw title placement
             self.ax.set_title(f"{heading}\n{_references_line(state)}", loc="left", y=1.0, pad=24)
             handles, labels = self.ax.get_legend_handles_labels()
@@ -231,56 +250,81 @@ class DiagramView:
                 more = len(handles) - (MAX_LEGEND_SURFACES - 1)
                 handles = handles[: MAX_LEGEND_SURFACES - 1] + [Line2D([], [], linestyle="none")]
                 labels = labels[: MAX_LEGEND_SURFACES - 1] + [f"... and {more} more surfaces (see read-out)"]
-            handles.append(Line2D([0, 1], [0, 0], color=HIGHLIGHT, linewidth=p.level_width_pt * 2.5, alpha=0.75))
-            labels.append("potential-determining step")
-            self.ax.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False,
+            several = len(series) > 1
+            handles.append(Line2D([0, 1], [0, 0], color="#9a9a9a" if several else HIGHLIGHT, linewidth=p.level_width_pt * 2.5,
+                                  alpha=0.5 if several else 0.75))
+            labels.append("potential-determining step (band in each surface's colour)" if several else "potential-determining step")
+            self._legend = self.ax.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False,
                            fontsize=p.font_pt - 2, handlelength=2.4, borderaxespad=0.0)
+            # the conditions line in two texts: "U = +0.800" (the part a potential move changes, short,
+            # so its layout is cheap) and the rest, placed at the right end of the first
             self._conditions = self.ax.text(0.0, 1.015, "", transform=self.ax.transAxes, ha="left", va="bottom",
                                             fontsize=p.font_pt - 1, color="#333333")
-        self._combine(list(self.ax.ecatlab_drawings))
+            self._conditions_rest = self.ax.annotate("", xy=(1.0, 0.0), xycoords=self._conditions, ha="left", va="bottom",
+                                                     fontsize=p.font_pt - 1, color="#333333", annotation_clip=False)
+        self._combine(list(drawn.parts["series"]))
         self._heading = heading
-        self._dynamic = [self._conditions, self._highlights, self._connectors, self._levels]
+        self._dynamic = [self._conditions, self._conditions_rest, self._highlights, self._connectors, self._levels]
         for artist in self._dynamic:
             artist.set_animated(True)
         self._background = None
+        self._legend_pixels = None
         self._ylim = None
 
     def _combine(self, drawings: list) -> None:
         """One LineCollection per kind of moving line for all surfaces, styled like the per-surface
-        lines of the diagram (which are hidden, not drawn); ``drawings`` becomes read-back views."""
-        from matplotlib.collections import LineCollection
+        lines of the diagram (which are hidden, not drawn); ``drawings`` becomes read-back views.
 
-        self._n_states = drawings[0].n_states if drawings else 0
-        n = self._n_states
-        level_x = [np.asarray(d.level_line.get_xdata(), dtype=float).reshape(n, 3)[:, :2] for d in drawings]
-        link_x = [np.asarray(d.connector_line.get_xdata(), dtype=float).reshape(max(n - 1, 0), 3)[:, :2] for d in drawings]
-        self._level_x = np.concatenate(level_x) if drawings else np.zeros((0, 2))  # (n_surfaces * n_states, 2)
-        self._link_x = np.concatenate(link_x) if drawings else np.zeros((0, 2))
+        Each collection holds one path per surface (its level bars, or its connectors, joined by
+        NaN breaks as in the diagram's own lines; the highlight: one segment). The paths are views
+        of three vertex arrays made here, so a move writes the new heights into those arrays with
+        a few numpy assignments: no Path object is made per move.
+        """
+        from matplotlib.collections import LineCollection
+        from matplotlib.colors import to_rgba
+
+        n = drawings[0].n_states if drawings else 0
+        self._n_states = n
+        n_s = len(drawings)
+        links = max(n - 1, 0)
+        self._level_v = np.full((n_s, 3 * n, 2), np.nan)
+        self._link_v = np.full((n_s, 3 * links, 2), np.nan)
+        self._high_v = np.full((n_s, 2, 2), np.nan)
+        for j, d in enumerate(drawings):
+            self._level_v[j, :, 0] = np.asarray(d.level_line.get_xdata(), dtype=float)[: 3 * n]
+            self._link_v[j, :, 0] = np.asarray(d.connector_line.get_xdata(), dtype=float)[: 3 * links]
+        # x of each connector's two ends, (n_surfaces, n_steps, 2): where a highlight goes
+        self._link_x = np.stack([self._link_v[:, 0::3, 0], self._link_v[:, 1::3, 0]], axis=-1)
         first = drawings[0] if drawings else None
 
-        def per_segment(getter, count):
-            return [getter(d) for d in drawings for _ in range(count)]
-
+        # colour and dash pattern of each surface as the diagram drew it (so the legend matches)
         self._levels = LineCollection(
-            [], colors=per_segment(lambda d: d.level_line.get_color(), n), linewidths=per_segment(lambda d: d.level_line.get_linewidth(), n),
+            [], colors=[d.level_line.get_color() for d in drawings], linewidths=[d.level_line.get_linewidth() for d in drawings],
+            linestyles=[d.linestyle for d in drawings] or "-",
             capstyle=first.level_line.get_solid_capstyle() if first else "round", zorder=first.level_line.get_zorder() if first else 2)
         self._connectors = LineCollection(
-            [], colors=per_segment(lambda d: d.connector_line.get_color(), n - 1),
-            linewidths=per_segment(lambda d: d.connector_line.get_linewidth(), n - 1),
+            [], colors=[d.connector_line.get_color() for d in drawings],
+            linewidths=[d.connector_line.get_linewidth() for d in drawings],
             linestyles=first.connector_line.get_linestyle() if first else ":", zorder=first.connector_line.get_zorder() if first else 1)
+        # the determining-step band in each surface's colour and opacity, as the diagram drew it
         self._highlights = LineCollection(
-            [], colors=[first.highlight_line.get_color()] if first else [HIGHLIGHT],
-            linewidths=[first.highlight_line.get_linewidth()] if first else [3.0],
-            alpha=first.highlight_line.get_alpha() if first else 0.75, capstyle="butt",
+            [], colors=[to_rgba(d.highlight_line.get_color(), d.highlight_line.get_alpha()) for d in drawings] or [HIGHLIGHT],
+            linewidths=[d.highlight_line.get_linewidth() for d in drawings] or [3.0], capstyle="butt",
             zorder=first.highlight_line.get_zorder() if first else 0.5)
+        self._shared = ((self._levels, self._level_v), (self._connectors, self._link_v), (self._highlights, self._high_v))
+        for collection, vertices in self._shared:
+            collection.set_segments(list(vertices))
+        # the collections' paths must be views of the arrays (true for matplotlib's LineCollection
+        # with float64 input); if a matplotlib version copies, every move sets the segments again
+        self._in_place = all(np.shares_memory(c.get_paths()[0].vertices, v) for c, v in self._shared if len(v))
         for d in drawings:
             for artist in (d.level_line, d.connector_line, d.highlight_line):
                 artist.set_visible(False)
         self._originals = drawings  # shown again, at the current levels, only while exporting
         for artist in (self._highlights, self._connectors, self._levels):
             self.ax.add_collection(artist, autolim=False)
-        self.drawings = [_DrawnSeries(self, j, n) for j in range(len(drawings))]
-        self._current = np.full((len(drawings), n), np.nan)
+        self.drawings = [_DrawnSeries(self, j, n) for j in range(n_s)]
+        self._current = np.full((n_s, n), np.nan)
 
     # -- fast path --------------------------------------------------------------------------------
     def update(self, state) -> None:
@@ -291,25 +335,33 @@ class DiagramView:
         self._fit_ylim(levels)
         # plain text (no mathtext) so that the per-move text draw stays cheap; the reference
         # scheme, which does not move, is in the static title line
-        self._conditions.set_text(state.conditions.describe())
+        head, rest = _split_conditions(state.conditions.describe())
+        self._conditions.set_text(head)
+        self._conditions_rest.set_text(rest)
 
     def _set_levels(self, levels: np.ndarray, det: np.ndarray) -> None:
-        """Segments of the three moving collections from the (n_surfaces, n_states) levels, eV."""
+        """Heights of the three moving collections from the (n_surfaces, n_states) levels, eV, and
+        the 0-based determining step of each surface (outside 0..n_steps-1: no highlight)."""
         n_s, n = levels.shape
         self._current = levels.copy()
         if n_s == 0:
             return
-        seg = np.empty((n_s * n, 2, 2))
-        seg[:, :, 0] = self._level_x
-        seg[:, :, 1] = levels.reshape(-1, 1)
-        self._levels.set_segments(seg)
-        link = np.empty((n_s * (n - 1), 2, 2))
-        link[:, :, 0] = self._link_x
-        link[:, 0, 1] = levels[:, :-1].reshape(-1)
-        link[:, 1, 1] = levels[:, 1:].reshape(-1)
-        self._connectors.set_segments(link)
-        rows = np.flatnonzero((det >= 0) & (det < n - 1))
-        self._highlights.set_segments(link.reshape(n_s, n - 1, 2, 2)[rows, det[rows]] if len(rows) else [])
+        self._level_v[:, 0::3, 1] = levels
+        self._level_v[:, 1::3, 1] = levels
+        self._link_v[:, 0::3, 1] = levels[:, :-1]
+        self._link_v[:, 1::3, 1] = levels[:, 1:]
+        ok = (det >= 0) & (det < n - 1)
+        step = np.where(ok, det, 0)
+        rows = np.arange(n_s)
+        self._high_v[:, :, 0] = self._link_x[rows, step]
+        self._high_v[:, 0, 1] = levels[rows, step]
+        self._high_v[:, 1, 1] = levels[rows, np.minimum(step + 1, n - 1)]
+        self._high_v[~ok] = np.nan
+        for collection, vertices in self._shared:
+            if self._in_place:
+                collection.stale = True
+            else:  # pragma: no cover - only for a matplotlib that copies segments
+                collection.set_segments(list(vertices))
 
     def _fit_ylim(self, levels: np.ndarray) -> None:
         """Sticky y-limits on a 0.5 eV grid: they change only when the levels leave them or fill
@@ -332,6 +384,7 @@ class DiagramView:
     def set_footnote(self, text: str) -> None:
         self._footnote.set_text(text)
         self._background = None
+        self._legend_pixels = None
 
     # -- blitting ------------------------------------------------------------------------------------
     def _on_draw(self, event) -> None:
@@ -342,8 +395,22 @@ class DiagramView:
         canvas = self.figure.canvas
         if not hasattr(canvas, "copy_from_bbox"):
             return
+        legend = getattr(self, "_legend", None)
+        if legend is not None and self._legend_pixels is not None and not legend.get_visible():
+            canvas.restore_region(self._legend_pixels)  # the legend as drawn by the last full draw
         self._background = canvas.copy_from_bbox(self.figure.bbox)
+        if legend is not None and self._legend_pixels is None and legend.get_visible() and self.mode == "inline":
+            self._legend_pixels = canvas.copy_from_bbox(self._legend_box(legend))
         self._draw_dynamic()
+
+    def _legend_box(self, legend):
+        """The legend's pixel box (window extent grown by 2 px for anti-aliased edges), clipped to
+        the figure. Nothing else is drawn there: the legend sits right of the Axes, below the title."""
+        from matplotlib.transforms import Bbox
+
+        box = legend.get_window_extent(self.figure.canvas.get_renderer())
+        fig = self.figure.bbox
+        return Bbox.from_extents(max(box.x0 - 2, fig.x0), max(box.y0 - 2, fig.y0), min(box.x1 + 2, fig.x1), min(box.y1 + 2, fig.y1))
 
     def _draw_dynamic(self) -> None:
         for artist in self._dynamic:
@@ -352,10 +419,22 @@ class DiagramView:
 
     def redraw(self) -> None:
         """Finish the picture in the canvas buffer: a full draw when the background is stale,
-        else restore the cached background and draw only the moving artists."""
+        else restore the cached background and draw only the moving artists.
+
+        The legend (up to 17 entries of text, the largest static part) does not change between
+        rebuilds: the first full draw after a rebuild draws it and keeps its pixels; later full
+        draws (new y-limits) leave it out and paste those pixels back (inline mode only)."""
         canvas = self.figure.canvas
         if self._background is None:
-            canvas.draw()  # fires _on_draw: background cached, moving artists drawn
+            legend = getattr(self, "_legend", None)
+            paste = legend is not None and self._legend_pixels is not None and self.mode == "inline"
+            if paste:
+                legend.set_visible(False)
+            try:
+                canvas.draw()  # fires _on_draw: legend pasted, background cached, moving artists drawn
+            finally:
+                if paste:
+                    legend.set_visible(True)
         else:
             canvas.restore_region(self._background)
             self._draw_dynamic()

@@ -139,38 +139,64 @@ def _readout_key(state: ExplorerState, focus) -> tuple | None:
             state.temperature, state.uphill().tobytes())
 
 
-def readout_html(state: ExplorerState, focus: str | None = None) -> str:
-    """HTML read-out per surface, best-ranked first: U_L (V vs scale), overpotential (V), G_max (eV;
-    'blocked' when an uphill chemical step blocks the pathway), determining step, uphill now
-    (and, for a best-route choice, the route, its runner-up and surfaces lacking data)."""
-    focus = state.focus if focus is None else focus
+def _readout_rows(state: ExplorerState, focus: str | None) -> tuple[np.ndarray, list[str], list[str]]:
+    """The parts of the read-out that do not move with U: ranking order, and per surface (in that
+    order) the HTML of the row up to the "uphill now" cell. Built once per engine result (the
+    state's limiting-potential table) and focus, kept on the state."""
+    limiting = getattr(state, "_limiting", None)
+    key = (id(limiting), id(state.pathway), id(state.route), tuple(state.surfaces), focus, state.scale, state.pH, state.temperature)
+    cached = getattr(state, "_readout_rows_cache", None)
+    if cached is not None and cached[0] == key:
+        return cached[1]
     r = state.readout()
-    r = r.iloc[kernel.ranking_order(r["G_max"].to_numpy(), r["blocked"].to_numpy())]  # best-ranked first
-    u_eq = state.equilibrium_potential()
-    rows = []
-    for surface, row in r.iterrows():
+    order = kernel.ranking_order(r["G_max"].to_numpy(), r["blocked"].to_numpy())  # best-ranked first
+    surfaces = r.index.to_numpy(dtype=object)[order]
+    cols = {c: r[c].to_numpy()[order] for c in ("limiting_potential", "overpotential", "G_max", "blocked", "determining_step",
+                                                 "determining_step_index", "uphill_chemical_steps", "missing_species")}
+    heads = []
+    for j, surface in enumerate(surfaces):  # once per rebuild, not per move
         mark = " style=\"background:#EAF2FA\"" if surface == focus else ""
-        now = row["uphill_steps_now"] or "none"
-        note = f" (missing: {html.escape(row['missing_species'])})" if row["missing_species"] else ""
-        chem = f"<br><i>chemical uphill: {html.escape(row['uphill_chemical_steps'])}</i>" if row["uphill_chemical_steps"] else ""
-        blocked = ' <b title="an uphill chemical step blocks this pathway at every potential">blocked</b>' if row["blocked"] else ""
-        rows.append(
+        missing, chem_steps = cols["missing_species"][j], cols["uphill_chemical_steps"][j]
+        note = f" (missing: {html.escape(missing)})" if missing else ""
+        chem = f"<br><i>chemical uphill: {html.escape(chem_steps)}</i>" if chem_steps else ""
+        blocked = ' <b title="an uphill chemical step blocks this pathway at every potential">blocked</b>' if cols["blocked"][j] else ""
+        heads.append(
             f"<tr{mark}><th style=\"text-align:left;padding:1px 6px\">{html.escape(str(surface))}</th>"
-            f'<td style="{_CELL}">{_num(row["limiting_potential"], 3)}</td>'
-            f'<td style="{_CELL}">{_num(row["overpotential"], 3, signed=False)}</td>'
-            f'<td style="{_CELL}">{_num(row["G_max"], 3, signed=False)}{blocked}</td>'
-            f'<td style="padding:1px 6px">{int(row["determining_step_index"]) or "-"}: {html.escape(str(row["determining_step"]))}{note}{chem}</td>'
-            f'<td style="padding:1px 6px">{html.escape(now)}</td></tr>'
+            f'<td style="{_CELL}">{_num(float(cols["limiting_potential"][j]), 3)}</td>'
+            f'<td style="{_CELL}">{_num(float(cols["overpotential"][j]), 3, signed=False)}</td>'
+            f'<td style="{_CELL}">{_num(float(cols["G_max"][j]), 3, signed=False)}{blocked}</td>'
+            f'<td style="padding:1px 6px">{int(cols["determining_step_index"][j]) or "-"}: '
+            f'{html.escape(str(cols["determining_step"][j]))}{note}{chem}</td>'
         )
-    return (
+    u_eq = state.equilibrium_potential()
+    frame = [
         '<div class="ecatlab-readout" style="line-height:1.35"><table style="border-collapse:collapse;font-size:12px">'
         f'<caption style="caption-side:top;text-align:left">{html.escape(state.pathway.name)} ({html.escape(state.pathway.direction)}); '
         f"U<sub>eq</sub> = {_num(u_eq)} V vs {state.scale} at pH {state.pH:g}, {state.temperature:g} K</caption>"
         f"<thead><tr><th>surface</th><th>U<sub>L</sub> (V vs {state.scale})</th><th>\N{GREEK SMALL LETTER ETA} (V)</th>"
         "<th>G<sub>max</sub> (eV)</th>"
-        "<th>potential-determining step</th><th>uphill now</th></tr></thead>"
-        f'<tbody>{"".join(rows)}</tbody></table>{route_html(state)}</div>'
-    )
+        "<th>potential-determining step</th><th>uphill now</th></tr></thead><tbody>",
+        f"</tbody></table>{route_html(state)}</div>",
+    ]
+    parts = (np.asarray(order), heads, frame)
+    state._readout_rows_cache = (key, parts)
+    return parts
+
+
+def readout_html(state: ExplorerState, focus: str | None = None) -> str:
+    """HTML read-out per surface, best-ranked first: U_L (V vs scale), overpotential (V), G_max (eV;
+    'blocked' when an uphill chemical step blocks the pathway), determining step, uphill now
+    (and, for a best-route choice, the route, its runner-up and surfaces lacking data).
+
+    Only the "uphill now" column moves with U; the rest of each row is built once per engine
+    result (see :func:`_readout_rows`)."""
+    focus = state.focus if focus is None else focus
+    order, heads, (opening, closing) = _readout_rows(state, focus)
+    uphill = state.uphill()[order]
+    names = [str(i + 1) for i in range(uphill.shape[1])]
+    now = [", ".join(name for name, up in zip(names, row) if up) or "none" for row in uphill.tolist()]
+    body = "".join(f'{head}<td style="padding:1px 6px">{text}</td></tr>' for head, text in zip(heads, now))
+    return opening + body + closing
 
 
 # ------------------------------------------------------------------------------------------------
