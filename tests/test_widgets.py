@@ -453,3 +453,22 @@ def test_readout_uphill_column_follows_the_potential(ex):
             assert f">{r.index[j]}<" in row_html
             last_cell = re.findall(r"<td[^>]*>([^<]*)</td>$", row_html)[0]
             assert last_cell == (r["uphill_steps_now"].iloc[j] or "none")
+
+
+def test_rebuild_keeps_no_stale_content(table):
+    """A rebuild reuses the Axes (and its tick objects): no old line, text or legend may survive, and
+    state labels rotated for a crowded pathway stand upright again for a short one."""
+    ex = explore(table, pathway="orr-4e", surfaces=table.surfaces[:3], render="inline")
+    counts = (len(ex.view.ax.lines), len(ex.view.ax.collections), len(ex.view.ax.texts), len(ex.view.ax.artists))
+    upright = [t.get_rotation() for t in ex.view.ax.get_xticklabels()]
+    ex.reaction.value = "CO2RR"
+    ex.pathway.value = "co2rr-ch4"  # long state labels: rotated
+    assert any(t.get_rotation() != 0 for t in ex.view.ax.get_xticklabels())
+    ex.reaction.value = "ORR"
+    assert ex.state.pathway.name == "orr-4e"
+    assert (len(ex.view.ax.lines), len(ex.view.ax.collections), len(ex.view.ax.texts), len(ex.view.ax.artists)) == counts
+    assert [t.get_rotation() for t in ex.view.ax.get_xticklabels()] == upright
+    assert [t.get_text() for t in ex.view.ax.get_xticklabels()] == ["O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"]
+    assert len(ex.view.ax.artists) == 1 and ex.view._legend in ex.view.ax.artists  # one legend, the current one
+    labels = [t.get_text() for t in ex.view._legend.texts]
+    assert [lab.split()[0] for lab in labels[:-1]] == ex.state.surfaces and labels[-1].startswith("potential-determining step")

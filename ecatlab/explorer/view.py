@@ -208,8 +208,7 @@ class DiagramView:
     # -- structure ------------------------------------------------------------------------------
     def rebuild(self, state, heading: str) -> None:
         """Redraw the Axes content for a new pathway or surface set (the Figure is kept)."""
-        from matplotlib.lines import Line2D
-
+        from ecatlab.explorer.legend import ListLegend
         from ecatlab.plotting.diagram import DiagramData, DiagramSeries, plot_free_energy_diagram
 
         levels = state.levels()
@@ -238,24 +237,32 @@ class DiagramView:
             references=state.scheme.describe(),
             source=state.table.source,
         )
-        self.ax.clear()
+        # remove the old content but keep the Axes' tick objects (ax.clear() would make the next draw
+        # build every Tick again, a noticeable part of the first full draw after a rebuild)
+        for artist in [*self.ax.lines, *self.ax.collections, *self.ax.texts, *self.ax.artists, *self.ax.patches, *self.ax.images]:
+            artist.remove()
+        self.ax.set_title("", loc="left")
+        for label in self.ax.xaxis.get_ticklabels(which="both"):  # the diagram rotates crowded state labels; start upright
+            label.set_rotation(0)
+            label.set_horizontalalignment("center")
+            label.set_rotation_mode("default")
         p = preset(_PRESET)
         with style_context(p):
             drawn = plot_free_energy_diagram(None, None, data=self.data, ax=self.ax, style=p, annotate=False, highlight=True,
                                              title=heading, conditions=None, legend=False)
             # fixed title position: skips matplotlib's per-draw title placement
             self.ax.set_title(f"{heading}\n{_references_line(state)}", loc="left", y=1.0, pad=24)
-            handles, labels = self.ax.get_legend_handles_labels()
-            if len(handles) > MAX_LEGEND_SURFACES:  # a long legend is most of a full draw's text; the read-out lists all
-                more = len(handles) - (MAX_LEGEND_SURFACES - 1)
-                handles = handles[: MAX_LEGEND_SURFACES - 1] + [Line2D([], [], linestyle="none")]
-                labels = labels[: MAX_LEGEND_SURFACES - 1] + [f"... and {more} more surfaces (see read-out)"]
+            drawings = list(drawn.parts["series"])
+            entries = [(d.level_line.get_color(), d.linestyle, d.level_line.get_linewidth(), 1.0, d.level_line.get_label())
+                       for d in drawings]
+            if len(entries) > MAX_LEGEND_SURFACES:  # a long legend is most of a full draw's text; the read-out lists all
+                more = len(entries) - (MAX_LEGEND_SURFACES - 1)
+                entries = entries[: MAX_LEGEND_SURFACES - 1] + [(None, "-", 0.0, 0.0, f"... and {more} more surfaces (see read-out)")]
             several = len(series) > 1
-            handles.append(Line2D([0, 1], [0, 0], color="#9a9a9a" if several else HIGHLIGHT, linewidth=p.level_width_pt * 2.5,
-                                  alpha=0.5 if several else 0.75))
-            labels.append("potential-determining step (band in each surface's colour)" if several else "potential-determining step")
-            self._legend = self.ax.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False,
-                           fontsize=p.font_pt - 2, handlelength=2.4, borderaxespad=0.0)
+            entries.append(("#9a9a9a" if several else HIGHLIGHT, "-", p.level_width_pt * 2.5, 0.5 if several else 0.75,
+                            "potential-determining step (band in each surface's colour)" if several else "potential-determining step"))
+            self._legend = ListLegend(self.ax, entries, fontsize=p.font_pt - 2)
+            self.ax.add_artist(self._legend)
             # the conditions line in two texts: "U = +0.800" (the part a potential move changes, short,
             # so its layout is cheap) and the rest, placed at the right end of the first
             self._conditions = self.ax.text(0.0, 1.015, "", transform=self.ax.transAxes, ha="left", va="bottom",
@@ -405,12 +412,15 @@ class DiagramView:
 
     def _legend_box(self, legend):
         """The legend's pixel box (window extent grown by 2 px for anti-aliased edges), clipped to
-        the figure. Nothing else is drawn there: the legend sits right of the Axes, below the title."""
+        the figure and kept right of the Axes. Nothing else is drawn there: the legend sits right of
+        the Axes, below the title (checked in tests/test_widgets.py against a drawn legend)."""
         from matplotlib.transforms import Bbox
 
         box = legend.get_window_extent(self.figure.canvas.get_renderer())
         fig = self.figure.bbox
-        return Bbox.from_extents(max(box.x0 - 2, fig.x0), max(box.y0 - 2, fig.y0), min(box.x1 + 2, fig.x1), min(box.y1 + 2, fig.y1))
+        # never into the Axes (their content changes with the y-limits): start right of their edge
+        left = max(box.x0 - 2, math.ceil(self.ax.bbox.x1) + 1, fig.x0)
+        return Bbox.from_extents(left, max(box.y0 - 2, fig.y0), min(box.x1 + 2, fig.x1), min(box.y1 + 2, fig.y1))
 
     def _draw_dynamic(self) -> None:
         for artist in self._dynamic:

@@ -58,44 +58,57 @@ def _num(value: float, digits: int = 3, signed: bool = True) -> str:
     return text.replace("-", "\N{MINUS SIGN}")
 
 
+def _step_table_parts(state: ExplorerState) -> tuple[str, list[str], str]:
+    """The parts of the step table that do not move with U (header, row openings, step legend),
+    built once per pathway and surface set and kept on the state."""
+    key = (id(state.pathway), tuple(state.surfaces))
+    cached = getattr(state, "_step_table_cache", None)
+    if cached is not None and cached[0] == key:
+        return cached[1]
+    steps = state.pathway.steps
+    equations = [s.equation for s in steps]
+    head = "".join(
+        f'<th style="padding:1px 6px" title="{html.escape(eq)}">{i + 1}{"" if state.electrochemical[i] else " (chem.)"}</th>'
+        for i, eq in enumerate(equations)
+    )
+    opening = (f'<table style="border-collapse:collapse;font-size:12px">'
+               f'<thead><tr><th style="padding:1px 6px;text-align:left">surface</th>{head}</tr></thead><tbody>')
+    rows = [f'<tr><th style="padding:1px 6px;text-align:left">{html.escape(surface)}</th>' for surface in state.surfaces]
+    legend = "".join(f"<li>{i + 1}: {html.escape(eq)}</li>" for i, eq in enumerate(equations))
+    closing = f'</tbody></table><ol style="font-size:11px;margin:2px 0 0 0;padding-left:0;list-style:none">{legend}</ol></div>'
+    parts = (opening, rows, closing)
+    state._step_table_cache = (key, parts)
+    return parts
+
+
+_CELL_PLAIN = f'<td style="{_CELL}">'
+_CELL_UP = f'<td style="{_CELL};{_UP_STYLE}" class="uphill">\N{BLACK UP-POINTING TRIANGLE} '
+_CELL_CHEM = f'<td style="{_CELL};{_CHEM_STYLE}" class="uphill-chemical">\N{BLACK DIAMOND} '
+
+
 def step_table_html(state: ExplorerState) -> str:
     """HTML table of step free energies (eV) at the state's conditions, uphill steps marked.
 
     Electrochemical steps with dG > 0 get a triangle and a warm background; uphill chemical steps
-    (which no potential can move) a diamond and grey italics.
+    (which no potential can move) a diamond and grey italics. Only the numbers, the marks and the
+    caption are formatted per call; header, surface names and step legend are built once per
+    pathway and surface set.
     """
     dG = state.step_energies()
-    up = state.uphill()
-    up_chem = state.uphill_chemical()
-    steps = state.pathway.steps
-    head = "".join(
-        f'<th style="padding:1px 6px" title="{html.escape(s.equation)}">{i + 1}{"" if state.electrochemical[i] else " (chem.)"}</th>'
-        for i, s in enumerate(steps)
+    kind = np.where(state.uphill(), 1, np.where(state.uphill_chemical(), 2, 0))  # 0 plain, 1 uphill, 2 chemical uphill
+    opening, rows, closing = _step_table_parts(state)
+    starts = (_CELL_PLAIN, _CELL_UP, _CELL_CHEM)
+    body = "".join(
+        row + "".join(f"{starts[k]}{_num(v)}</td>" for v, k in zip(values, kinds)) + "</tr>"
+        for row, values, kinds in zip(rows, dG.tolist(), kind.tolist())
     )
-    rows = []
-    for j, surface in enumerate(state.surfaces):
-        cells = []
-        for i in range(len(steps)):
-            if up[j, i]:
-                cells.append(f'<td style="{_CELL};{_UP_STYLE}" class="uphill">\N{BLACK UP-POINTING TRIANGLE} {_num(dG[j, i])}</td>')
-            elif up_chem[j, i]:
-                cells.append(f'<td style="{_CELL};{_CHEM_STYLE}" class="uphill-chemical">\N{BLACK DIAMOND} {_num(dG[j, i])}</td>')
-            else:
-                cells.append(f'<td style="{_CELL}">{_num(dG[j, i])}</td>')
-        rows.append(f'<tr><th style="padding:1px 6px;text-align:left">{html.escape(surface)}</th>{"".join(cells)}</tr>')
-    legend = "".join(f"<li>{i + 1}: {html.escape(s.equation)}</li>" for i, s in enumerate(steps))
     caption = (
         f"Step free energies \N{GREEK CAPITAL LETTER DELTA}G (eV), {html.escape(state.pathway.name)}, "
         f"{html.escape(state.conditions.describe())}. \N{BLACK UP-POINTING TRIANGLE} electrochemical step uphill at this U; "
         f"\N{BLACK DIAMOND} chemical step uphill (potential-independent)."
     )
-    return (
-        f'<div class="ecatlab-step-table" style="line-height:1.35"><div style="font-size:12px;margin-bottom:2px">{caption}</div>'
-        f'<table style="border-collapse:collapse;font-size:12px">'
-        f'<thead><tr><th style="padding:1px 6px;text-align:left">surface</th>{head}</tr></thead>'
-        f'<tbody>{"".join(rows)}</tbody></table>'
-        f'<ol style="font-size:11px;margin:2px 0 0 0;padding-left:0;list-style:none">{legend}</ol></div>'
-    )
+    return (f'<div class="ecatlab-step-table" style="line-height:1.35"><div style="font-size:12px;margin-bottom:2px">{caption}</div>'
+            + opening + body + closing)
 
 
 def _shown(potential: float) -> float:
