@@ -471,4 +471,7 @@ def test_rebuild_keeps_no_stale_content(table):
     assert [t.get_text() for t in ex.view.ax.get_xticklabels()] == ["O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"]
     assert len(ex.view.ax.artists) == 1 and ex.view._legend in ex.view.ax.artists  # one legend, the current one
     labels = [t.get_text() for t in ex.view._legend.texts]
-    assert [lab.split()[0] for lab in labels[:-1]] == ex.state.surfaces and labels[-1].startswith("potential-determining step")
+    assert [lab.split()[0] for lab in labels[:-2]] == ex.state.surfaces
+    assert labels[-2:] == ["potential-determining step", "(band in each surface's colour)"]
+    renderer = ex.view.figure.canvas.get_renderer()
+    assert ex.view._legend.get_window_extent(renderer).x1 <= ex.view.figure.bbox.x1  # no label runs off the figure

@@ -57,6 +57,7 @@ class ListLegend(Artist):
         # coordinates in inches from the anchor, so the layout holds at any dpi (exports)
         frame = fig.dpi_scale_trans + ScaledTranslation(1.01, 1.0, ax.transAxes)
         pitch = ROW_PITCH * fontsize / 72.0
+        self._frame, self._pitch = frame, pitch
         sample = SAMPLE_LENGTH * fontsize / 72.0
         ys = -(np.arange(len(entries)) + 0.5) * pitch
         shown = [i for i, entry in enumerate(entries) if entry[0] is not None]
@@ -73,6 +74,14 @@ class ListLegend(Artist):
                         fontsize=fontsize, clip_on=False)
             text.set_figure(fig)
             self.texts.append(text)
+
+    def rows_box(self):
+        """Display box of the rows (cheap: no text layout): from the line samples' left end to the
+        figure's right edge, from the anchor down to the bottom of the last row, grown by 2 px.
+        Every sample and label lies inside it (labels are centred in rows taller than the text)."""
+        top = self._frame.transform((0.0, 0.0))
+        bottom = self._frame.transform((0.0, -len(self.texts) * self._pitch))
+        return Bbox.from_extents(top[0] - 2, bottom[1] - 2, self.figure.bbox.x1, top[1] + 2)
 
     def get_children(self):
         return [self.samples, *self.texts]

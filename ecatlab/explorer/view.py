@@ -260,9 +260,15 @@ class DiagramView:
                 entries = entries[: MAX_LEGEND_SURFACES - 1] + [(None, "-", 0.0, 0.0, f"... and {more} more surfaces (see read-out)")]
             several = len(series) > 1
             entries.append(("#9a9a9a" if several else HIGHLIGHT, "-", p.level_width_pt * 2.5, 0.5 if several else 0.75,
-                            "potential-determining step (band in each surface's colour)" if several else "potential-determining step"))
+                            "potential-determining step"))
+            if several:  # on its own row: one long label would run past the figure's right edge
+                entries.append((None, "-", 0.0, 0.0, "(band in each surface's colour)"))
             self._legend = ListLegend(self.ax, entries, fontsize=p.font_pt - 2)
             self.ax.add_artist(self._legend)
+            # fixed axis-label positions: matplotlib would otherwise measure every tick label on each
+            # full draw to place them (the y label sits left of the widest tick label, "−2.5")
+            self.ax.yaxis.set_label_coords(-0.075, 0.5)
+            self.ax.xaxis.set_label_coords(0.5, -0.12)
             # the conditions line in two texts: "U = +0.800" (the part a potential move changes, short,
             # so its layout is cheap) and the rest, placed at the right end of the first
             self._conditions = self.ax.text(0.0, 1.015, "", transform=self.ax.transAxes, ha="left", va="bottom",
@@ -411,12 +417,12 @@ class DiagramView:
         self._draw_dynamic()
 
     def _legend_box(self, legend):
-        """The legend's pixel box (window extent grown by 2 px for anti-aliased edges), clipped to
-        the figure and kept right of the Axes. Nothing else is drawn there: the legend sits right of
+        """The legend's pixel box (its rows, see :meth:`ListLegend.rows_box`), clipped to the figure
+        and kept right of the Axes. Nothing else is drawn there: the legend sits right of
         the Axes, below the title (checked in tests/test_widgets.py against a drawn legend)."""
         from matplotlib.transforms import Bbox
 
-        box = legend.get_window_extent(self.figure.canvas.get_renderer())
+        box = legend.rows_box()
         fig = self.figure.bbox
         # never into the Axes (their content changes with the y-limits): start right of their edge
         left = max(box.x0 - 2, math.ceil(self.ax.bbox.x1) + 1, fig.x0)
