@@ -227,3 +227,16 @@ def test_fast_png_is_lossless(table):
     png = ex.view.last_png
     decoded = np.asarray(Image.open(io.BytesIO(png)).convert("RGB"))
     np.testing.assert_array_equal(decoded, np.asarray(ex.view.figure.canvas.buffer_rgba())[:, :, :3])
+
+
+def test_png_after_moves_is_the_canvas_picture(table):
+    """After a move only the band of moving rows is deflated again; the PNG must still decode to the
+    whole canvas, for several moves on one background and after a new background."""
+    from PIL import Image
+
+    ex = explore(table, pathway="orr-4e", surfaces=table.surfaces[:8], potential=0.3, render="inline")
+    for u in (0.31, 0.45, 0.62, 2.9, 2.8):  # 2.9: new y-limits, a full draw and a new background
+        ex.potential.value = u
+        decoded = np.asarray(Image.open(io.BytesIO(ex.view.last_png)).convert("RGBA"))
+        np.testing.assert_array_equal(decoded, np.asarray(ex.view.figure.canvas.buffer_rgba()))
+    assert ex.view._png_key is not None  # the banded writer was used

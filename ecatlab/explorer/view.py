@@ -76,6 +76,23 @@ def _png_chunk(tag: bytes, data: bytes) -> bytes:
     return struct.pack(">I", len(data)) + tag + data + struct.pack(">I", zlib.crc32(tag + data) & 0xFFFFFFFF)
 
 
+def _sub_filtered(pixels: np.ndarray) -> np.ndarray:
+    """PNG scanlines of an (rows, width, 4) uint8 block: filter byte 1 ("Sub") + each byte minus the
+    same byte of the pixel to its left, modulo 256 (uint8 arithmetic wraps, as PNG requires)."""
+    height, width = pixels.shape[:2]
+    flat = pixels.reshape(height, 4 * width)
+    raw = np.empty((height, 4 * width + 1), dtype=np.uint8)
+    raw[:, 0] = 1
+    raw[:, 1:5] = flat[:, :4]  # the first pixel has no left neighbour (taken as 0)
+    np.subtract(flat[:, 4:], flat[:, :-4], out=raw[:, 5:])
+    return raw
+
+
+def _png_file(width: int, height: int, zlib_stream: bytes) -> bytes:
+    header = struct.pack(">IIBBBBB", width, height, 8, 6, 0, 0, 0)
+    return b"\x89PNG\r\n\x1a\n" + _png_chunk(b"IHDR", header) + _png_chunk(b"IDAT", zlib_stream) + _png_chunk(b"IEND", b"")
+
+
 def fast_png(rgba: np.ndarray) -> bytes:
     """Lossless PNG (8-bit RGBA) of an (height, width, 4) uint8 RGBA buffer, built for speed.
 
@@ -86,18 +103,44 @@ def fast_png(rgba: np.ndarray) -> bytes:
     the renderer's RGBA buffer (no copy to RGB first), and zlib level 1. Flat areas, and the
     opaque alpha channel, become runs of zeros, which zlib passes fastest. Format: PNG
     specification, ISO/IEC 15948 (IHDR colour type 6, bit depth 8; filter method 0, type 1; IDAT
-    zlib stream; CRC-32 per chunk).
+    zlib stream, RFC 1950/1951; CRC-32 per chunk).
     """
     pixels = np.ascontiguousarray(rgba, dtype=np.uint8)
-    height, width = pixels.shape[:2]
-    flat = pixels.reshape(height, 4 * width)
-    raw = np.empty((height, 4 * width + 1), dtype=np.uint8)
-    raw[:, 0] = 1  # filter type of each row: Sub
-    raw[:, 1:5] = flat[:, :4]  # the first pixel has no left neighbour (taken as 0)
-    np.subtract(flat[:, 4:], flat[:, :-4], out=raw[:, 5:])  # uint8 arithmetic wraps modulo 256, as PNG requires
-    header = struct.pack(">IIBBBBB", width, height, 8, 6, 0, 0, 0)
-    return (b"\x89PNG\r\n\x1a\n" + _png_chunk(b"IHDR", header) + _png_chunk(b"IDAT", zlib.compress(raw, 1))
-            + _png_chunk(b"IEND", b""))
+    return _png_file(pixels.shape[1], pixels.shape[0], zlib.compress(_sub_filtered(pixels), 1))
+
+
+class _BandedPng:
+    """PNG writer for pictures whose rows outside one band do not change between calls.
+
+    The rows above and below the band are filtered and deflated once (each as its own run of
+    deflate blocks, ended by a full flush so that no back-reference crosses into the next run; the
+    last run ends the stream); a call filters and deflates only the band and joins the runs into
+    one zlib stream (RFC 1950: header, deflate data, Adler-32 of all scanlines). The result is
+    the same picture as :func:`fast_png` (decoders see one ordinary stream).
+    """
+
+    def __init__(self, pixels: np.ndarray, band: tuple[int, int]):
+        top, bottom = band
+        self.band = band
+        self.shape = pixels.shape
+        above = _sub_filtered(pixels[:top])
+        below = _sub_filtered(pixels[bottom:])
+        self._above = self._deflate(above, last=False)
+        self._above_adler = zlib.adler32(above)
+        self._below_raw = below
+        self._below = self._deflate(below, last=True)
+
+    @staticmethod
+    def _deflate(raw: np.ndarray, last: bool) -> bytes:
+        packer = zlib.compressobj(1, zlib.DEFLATED, -15)
+        return packer.compress(raw) + packer.flush(zlib.Z_FINISH if last else zlib.Z_FULL_FLUSH)
+
+    def encode(self, pixels: np.ndarray) -> bytes:
+        top, bottom = self.band
+        middle = _sub_filtered(pixels[top:bottom])
+        adler = zlib.adler32(self._below_raw, zlib.adler32(middle, self._above_adler))
+        stream = b"\x78\x01" + self._above + self._deflate(middle, last=False) + self._below + struct.pack(">I", adler)
+        return _png_file(self.shape[1], self.shape[0], stream)
 
 
 class _DrawnSeries:
@@ -198,6 +241,8 @@ class DiagramView:
         self._background = None
         self._legend = None
         self._legend_pixels = None
+        self._background_version = 0
+        self._png_key = None
         self._ylim = None
         self._exporting = False
         self.figure.canvas.mpl_connect("draw_event", self._on_draw)
@@ -412,6 +457,7 @@ class DiagramView:
         if legend is not None and self._legend_pixels is not None and not legend.get_visible():
             canvas.restore_region(self._legend_pixels)  # the legend as drawn by the last full draw
         self._background = canvas.copy_from_bbox(self.figure.bbox)
+        self._background_version += 1  # what the PNG writer's cached rows belong to
         if legend is not None and self._legend_pixels is None and legend.get_visible() and self.mode == "inline":
             self._legend_pixels = canvas.copy_from_bbox(self._legend_box(legend))
         self._draw_dynamic()
@@ -470,10 +516,37 @@ class DiagramView:
         self.renders += 1
 
     def _encode_png(self) -> bytes:
-        """The canvas buffer as PNG bytes (see :func:`fast_png`)."""
-        canvas = self.figure.canvas
-        self.last_png = fast_png(np.asarray(canvas.buffer_rgba()))
+        """The canvas buffer as PNG bytes (see :func:`fast_png`).
+
+        After a full draw the rows outside the moving artists' band (title above; tick labels,
+        footnote below) are encoded once (:class:`_BandedPng`); moves on that background encode
+        only the band."""
+        pixels = np.asarray(self.figure.canvas.buffer_rgba())
+        key = (self._background_version, pixels.shape)
+        if self._background is not None and getattr(self, "_png_key", None) == key:
+            self.last_png = self._png_cache.encode(pixels)
+            return self.last_png
+        self.last_png = fast_png(pixels)
+        band = self._moving_band(pixels.shape[0]) if self._background is not None else None
+        if band is not None:
+            self._png_cache, self._png_key = _BandedPng(pixels, band), key
+        else:
+            self._png_key = None
         return self.last_png
+
+    def _moving_band(self, height: int) -> tuple[int, int] | None:
+        """Rows (top, bottom; 0 at the top) the moving artists can touch: the Axes (the line
+        collections are clipped to them) and the conditions line, grown by 3 px; None if unknown."""
+        try:
+            renderer = self.figure.canvas.get_renderer()
+            boxes = [self.ax.bbox] + [t.get_window_extent(renderer) for t in (self._conditions, self._conditions_rest)]
+        except Exception:  # pragma: no cover - no renderer yet
+            return None
+        y0 = min(b.y0 for b in boxes)
+        y1 = max(b.y1 for b in boxes)
+        top = max(0, int(math.floor(height - y1)) - 3)
+        bottom = min(height, int(math.ceil(height - y0)) + 3)
+        return (top, bottom) if 0 < top < bottom < height else None
 
     def render_png(self) -> bytes:
         """The current picture as PNG bytes (full redraw)."""
