@@ -1,12 +1,19 @@
 """The explorer's figure: one Figure for the explorer's lifetime, artists moved on every change.
 
-The diagram itself is drawn by :mod:`ecatlab.plotting.diagram` (static parts, legend, styles);
-this module owns the Figure, rebuilds the Axes content when the pathway or the surface set
-changes, and replaces the per-surface moving lines by **one artist per kind of line for all
-surfaces** (a LineCollection each for the level bars, the connectors and the highlight of the
-potential-determining steps, with the diagram's own colours and widths). A potential/pH move
-sets the segments of these three artists from one array of levels and blits them over the cached
-background: the cost of a move does not grow with the number of artists, only with the segments.
+The diagram itself is drawn by :mod:`ecatlab.plotting.diagram` (static parts, styles; its
+``Drawn`` handle gives the per-series drawings); this module owns the Figure, rebuilds the Axes
+content when the pathway or the surface set changes, and replaces the per-surface moving lines by
+**one artist per kind of line for all surfaces** (a LineCollection each for the level bars, the
+connectors and the highlight of the potential-determining steps, with the diagram's own colours,
+dash patterns and widths; one path per surface, the paths being views of three vertex arrays). A
+potential/pH move writes the new heights into those arrays and blits the three collections and
+the conditions line over the cached background: the cost of a move does not grow with the number
+of artists, only with the segments.
+
+Full draws are kept cheap too: text glyphs are rendered once and reused
+(:mod:`ecatlab.explorer.textcache`, same pixels), the legend is a light list
+(:mod:`ecatlab.explorer.legend`) whose pixels later full draws paste back, the axis labels sit at
+fixed positions, and the PNG writer deflates the rows outside the moving band once per background.
 
 Two ways to show the Figure:
 
