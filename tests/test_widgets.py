@@ -475,3 +475,16 @@ def test_rebuild_keeps_no_stale_content(table):
     assert labels[-2:] == ["potential-determining step", "(band in each surface's colour)"]
     renderer = ex.view.figure.canvas.get_renderer()
     assert ex.view._legend.get_window_extent(renderer).x1 <= ex.view.figure.bbox.x1  # no label runs off the figure
+
+
+@pytest.mark.parametrize("key", ["co2rr-ch4", "orr-4e"])
+def test_state_labels_do_not_reach_into_the_footnote(table, key):
+    """Crowded (rotated) state labels get room: after a full draw the lowest label ends above the
+    footnote's top (boxes in display pixels)."""
+    ex = explore(table, pathway=key, surfaces=table.surfaces[:6], render="inline")
+    ex.view.render_png()
+    renderer = ex.view.figure.canvas.get_renderer()
+    labels = [t.get_window_extent(renderer) for t in ex.view.ax.get_xticklabels() if t.get_text()]
+    assert labels and ex.view._footnote.get_text()
+    assert min(b.y0 for b in labels) > ex.view._footnote.get_window_extent(renderer).y1
+    assert ex.view.ax.get_position().y1 == pytest.approx(0.85)  # the top (legend, title, conditions line) stays

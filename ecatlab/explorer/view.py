@@ -47,6 +47,9 @@ __all__ = ["DiagramView", "render_mode", "FIGURE_HEIGHT_PX"]
 #: Height of the inline figure area (pixels); fixed so that replacing the image never moves the page.
 FIGURE_HEIGHT_PX = 470
 _DPI = 90
+#: Position of the Axes in figure fractions (left, bottom, width, height) before room is made for
+#: rotated state labels.
+_AXES_RECT = (0.07, 0.19, 0.67, 0.66)
 #: At most this many surfaces get a legend entry (the rest are summed up in one line).
 MAX_LEGEND_SURFACES = 16
 _PRESET = "notebook"
@@ -239,7 +242,7 @@ class DiagramView:
                     import ipywidgets as w
 
                     self.widget = w.Output(layout=w.Layout(height=f"{FIGURE_HEIGHT_PX}px", overflow="hidden"))
-            self.ax = self.figure.add_axes((0.07, 0.19, 0.67, 0.66))
+            self.ax = self.figure.add_axes(_AXES_RECT)
             self._footnote = self.figure.text(0.005, 0.005, footnote, fontsize=p.font_pt - 1, color="#555555", ha="left", wrap=True,
                                               va="bottom", linespacing=1.3)
         self.drawings: list = []
@@ -327,6 +330,7 @@ class DiagramView:
                                             fontsize=p.font_pt - 1, color="#333333")
             self._conditions_rest = self.ax.annotate("", xy=(1.0, 0.0), xycoords=self._conditions, ha="left", va="bottom",
                                                      fontsize=p.font_pt - 1, color="#333333", annotation_clip=False)
+        self._make_room_for_state_labels()
         self._combine(list(drawn.parts["series"]))
         self._heading = heading
         self._dynamic = [self._conditions, self._conditions_rest, self._highlights, self._connectors, self._levels]
@@ -335,6 +339,24 @@ class DiagramView:
         self._background = None
         self._legend_pixels = None
         self._ylim = None
+
+    def _make_room_for_state_labels(self) -> None:
+        """Raise the Axes bottom when the state labels under them (rotated when crowded) would reach
+        down into the footnote; the top of the Axes stays (legend and title do not move)."""
+        left, bottom, width, height = _AXES_RECT
+        self.ax.set_position(_AXES_RECT)
+        renderer = self.figure.canvas.get_renderer()
+        labels = [t for t in self.ax.get_xticklabels() if t.get_text()]
+        if not labels or not self._footnote.get_text():
+            return
+        # the size of a (rotated) label's box does not depend on where it is drawn
+        drop = max(t.get_window_extent(renderer).height for t in labels)
+        pad = (self.ax.xaxis.get_tick_padding() + 3.0) * self.figure.dpi / 72.0
+        lowest = bottom * self.figure.bbox.height - pad - drop
+        ceiling = self._footnote.get_window_extent(renderer).y1 + 3.0
+        if lowest < ceiling:
+            shift = min((ceiling - lowest) / self.figure.bbox.height, 0.5 * height)
+            self.ax.set_position((left, bottom + shift, width, height - shift))
 
     def _combine(self, drawings: list) -> None:
         """One LineCollection per kind of moving line for all surfaces, styled like the per-surface
