@@ -471,7 +471,11 @@ def test_rebuild_keeps_no_stale_content(table):
     assert [t.get_text() for t in ex.view.ax.get_xticklabels()] == ["O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"]
     assert len(ex.view.ax.artists) == 1 and ex.view._legend in ex.view.ax.artists  # one legend, the current one
     labels = [t.get_text() for t in ex.view._legend.texts]
-    assert [lab.split()[0] for lab in labels[:-2]] == ex.state.surfaces
+    assert labels[0] == r"surface   $U_\mathrm{L}$ (V vs RHE)"
+    assert [lab.split()[0] for lab in labels[1:-2]] == ex.state.surfaces
+    lim = ex.state.readout()["limiting_potential"]
+    for lab, surface in zip(labels[1:-2], ex.state.surfaces):  # each row: the engine's U_L, 2 decimals
+        assert lab.endswith(f"{lim[surface]:.2f} V".replace("-", "\N{MINUS SIGN}"))
     assert labels[-2:] == ["potential-determining step", "(band in each surface's colour)"]
     renderer = ex.view.figure.canvas.get_renderer()
     assert ex.view._legend.get_window_extent(renderer).x1 <= ex.view.figure.bbox.x1  # no label runs off the figure
@@ -488,3 +492,17 @@ def test_state_labels_do_not_reach_into_the_footnote(table, key):
     assert labels and ex.view._footnote.get_text()
     assert min(b.y0 for b in labels) > ex.view._footnote.get_window_extent(renderer).y1
     assert ex.view.ax.get_position().y1 == pytest.approx(0.85)  # the top (legend, title, conditions line) stays
+
+
+def test_long_legend_is_cut_and_stays_in_the_figure(table):
+    big = pd.concat([table.matrix.rename(index=lambda s, k=k: f"{s}-{k}") for k in range(2)])  # 24 ILLUSTRATIVE surfaces
+    ex = explore(EnergyTable.from_matrix(big, source="ILLUSTRATIVE demo table, twice"), pathway="orr-4e",
+                 surfaces=list(big.index), render="inline")
+    labels = [t.get_text() for t in ex.view._legend.texts]
+    from ecatlab.explorer.view import MAX_LEGEND_SURFACES
+
+    assert len(labels) == 1 + MAX_LEGEND_SURFACES + 2
+    assert labels[MAX_LEGEND_SURFACES] == f"... {len(big) - MAX_LEGEND_SURFACES + 1} more (see read-out)"
+    renderer = ex.view.figure.canvas.get_renderer()
+    assert ex.view._legend.get_window_extent(renderer).x1 <= ex.view.figure.bbox.x1
+    assert ex.view._legend.rows_box().y0 > ex.view._footnote.get_window_extent(renderer).y1  # above the footnote

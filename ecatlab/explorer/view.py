@@ -76,6 +76,13 @@ def _references_line(state) -> str:
     return "CHE, " + refs
 
 
+def _volts(value: float) -> str:
+    """``-0.912`` -> ``"−0.91 V"`` (Unicode minus), ``"n/a"`` when not finite."""
+    if not math.isfinite(value):
+        return "n/a"
+    return f"{value:.2f} V".replace("-", "\N{MINUS SIGN}")
+
+
 def _split_conditions(text: str) -> tuple[str, str]:
     """``"U = +0.800 V vs RHE, pH 0, ..."`` -> ``("U = +0.800", " V vs RHE, pH 0, ...")``."""
     head, sep, rest = text.partition(" V vs ")
@@ -308,11 +315,14 @@ class DiagramView:
             # fixed title position: skips matplotlib's per-draw title placement
             self.ax.set_title(f"{heading}\n{_references_line(state)}", loc="left", y=1.0, pad=24)
             drawings = list(drawn.parts["series"])
-            entries = [(d.level_line.get_color(), d.linestyle, d.level_line.get_linewidth(), 1.0, d.level_line.get_label())
-                       for d in drawings]
+            # U_L in a header row (one mathtext string, parsed once per process) and plain numbers in
+            # the rows: parsing a mathtext label per surface was most of a first draw after a rebuild
+            entries = [(d.level_line.get_color(), d.linestyle, d.level_line.get_linewidth(), 1.0,
+                        f"{s.surface}   {_volts(s.limiting_potential)}") for d, s in zip(drawings, series)]
             if len(entries) > MAX_LEGEND_SURFACES:  # a long legend is most of a full draw's text; the read-out lists all
                 more = len(entries) - (MAX_LEGEND_SURFACES - 1)
-                entries = entries[: MAX_LEGEND_SURFACES - 1] + [(None, "-", 0.0, 0.0, f"... and {more} more surfaces (see read-out)")]
+                entries = entries[: MAX_LEGEND_SURFACES - 1] + [(None, "-", 0.0, 0.0, f"... {more} more (see read-out)")]
+            entries.insert(0, (None, "-", 0.0, 0.0, f"surface   $U_\\mathrm{{L}}$ (V vs {state.scale})"))
             several = len(series) > 1
             entries.append(("#9a9a9a" if several else HIGHLIGHT, "-", p.level_width_pt * 2.5, 0.5 if several else 0.75,
                             "potential-determining step"))
