@@ -235,22 +235,22 @@ def _draw_figures(table, paths, lp, pH, scale, temperature, top, style) -> list[
         if not ranked:
             continue
         chosen = ranked[: max(1, int(top))]
-        ax = plot_free_energy_diagram(table, path, chosen, potential=0.0, pH=pH, scale=scale, temperature=temperature,
-                                      style=style, annotate=len(chosen) == 1)
+        drawn = plot_free_energy_diagram(table, path, chosen, potential=0.0, pH=pH, scale=scale, temperature=temperature,
+                                         style=style, annotate=len(chosen) == 1)
         figures.append(ReportFigure(
             path.name, "surfaces",
             f"{path.name}: free-energy diagram of the {len(chosen)} best-ranked surface(s) (unblocked first, then lowest G_max) "
             f"({', '.join(chosen)}) at U = 0 V vs {scale}; the potential-determining step of each is underlaid in yellow.",
-            _detached(ax.figure),
+            _detached(drawn.figure),
         ))
         best = chosen[0]
-        ax = plot_diagram_at_potentials(table, path, best, (0.0, "equilibrium", "limiting"), pH=pH, scale=scale,
-                                        temperature=temperature, style=style)
+        drawn = plot_diagram_at_potentials(table, path, best, (0.0, "equilibrium", "limiting"), pH=pH, scale=scale,
+                                           temperature=temperature, style=style)
         figures.append(ReportFigure(
             path.name, "potentials",
             f"{path.name} on {best} (best-ranked: unblocked, lowest G_max) at U = 0 V, at the equilibrium potential U_eq and at its "
             f"limiting potential U_L (V vs {scale}); at U_L the potential-determining step is flat.",
-            _detached(ax.figure),
+            _detached(drawn.figure),
         ))
     return figures
 

@@ -242,3 +242,16 @@ def test_volcano_tab_summary_shows_conditions_unsigned_with_two_decimals():
     assert "+298" not in text and "+1.000" not in text and "+310" not in text
     best = float(curve.summary().set_index("quantity").loc["best limiting potential", "value"])
     assert f">{best:+.3f}<".replace("-", "\N{MINUS SIGN}") in text  # potentials stay signed, 3 decimals
+
+
+def test_png_after_moves_is_the_canvas_picture(table):
+    """After a move only the band of moving rows is deflated again; the PNG must still decode to the
+    whole canvas, for several moves on one background and after a new background."""
+    from PIL import Image
+
+    ex = explore(table, pathway="orr-4e", surfaces=table.surfaces[:8], potential=0.3, render="inline")
+    for u in (0.31, 0.45, 0.62, 2.9, 2.8):  # 2.9: new y-limits, a full draw and a new background
+        ex.potential.value = u
+        decoded = np.asarray(Image.open(io.BytesIO(ex.view.last_png)).convert("RGBA"))
+        np.testing.assert_array_equal(decoded, np.asarray(ex.view.figure.canvas.buffer_rgba()))
+    assert ex.view._png_key is not None  # the banded writer was used

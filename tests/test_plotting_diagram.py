@@ -25,8 +25,8 @@ def _close_figures():
     plt.close("all")
 
 
-def _drawn_levels(ax, series=0):
-    return ax.ecatlab_drawings[series].levels
+def _drawn_levels(drawn, series=0):
+    return drawn.parts["series"][series].levels
 
 
 def _level_lines(ax):
@@ -36,10 +36,11 @@ def _level_lines(ax):
 @pytest.mark.parametrize("potential", [0.0, 0.5, -0.3])
 def test_levels_equal_engine_state_energies(table, potential):
     surfaces = ["ALY-01", "SAS-03", "ALY-05"]
-    ax = dg.plot_free_energy_diagram(table, "orr-4e", surfaces, potential=potential, pH=3, scale="RHE")
+    drawn = dg.plot_free_energy_diagram(table, "orr-4e", surfaces, potential=potential, pH=3, scale="RHE")
+    ax = drawn.ax
     expected = state_free_energies(table, "orr-4e", potential=potential, pH=3, scale="RHE", surfaces=surfaces).to_numpy()
     for j in range(len(surfaces)):
-        np.testing.assert_allclose(_drawn_levels(ax, j), expected[j], atol=1e-12)
+        np.testing.assert_allclose(_drawn_levels(drawn, j), expected[j], atol=1e-12)
     # the y data of the Line2D artists themselves (not only the handle's view of them): one level
     # artist per series, each bar a NaN-separated segment
     lines = _level_lines(ax)
@@ -53,10 +54,10 @@ def test_levels_equal_engine_state_energies(table, potential):
         np.testing.assert_allclose((x[0::3] + x[1::3]) / 2, np.arange(5), atol=1e-12)  # ... centred on x = 0, 1, 2, ...
         assert np.all(x[1::3] - x[0::3] == pytest.approx(2 * dg.LEVEL_HALF_WIDTH))
     for k in range(5):
-        bx, by = ax.ecatlab_drawings[0].level_xy(k)
+        bx, by = drawn.parts["series"][0].level_xy(k)
         assert bx.mean() == pytest.approx(k) and np.ptp(by) == 0 and by[0] == pytest.approx(expected[0][k])
     # connectors join the right end of level i to the left end of level i + 1
-    d = ax.ecatlab_drawings[1]
+    d = drawn.parts["series"][1]
     for i in range(4):
         cx, cy = d.connector_xy(i)
         np.testing.assert_allclose(cx, [i + dg.LEVEL_HALF_WIDTH, i + 1 - dg.LEVEL_HALF_WIDTH])
@@ -67,19 +68,19 @@ def test_equilibrium_potential_closes_the_cycle(table):
     # At U = U_eq the overall reaction has dG = 0, so the last level returns to 0 eV.
     # U_eq(ORR, 4e-) = 1.229 V vs RHE at 298.15 K (Bard, Parsons & Jordan, Standard Potentials
     # in Aqueous Solution, 1985); the engine's molecular data give it within 2 mV.
-    ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-02", potential="equilibrium")
-    data = ax.ecatlab_data
+    drawn = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-02", potential="equilibrium")
+    data = drawn.data
     assert data.equilibrium_potential == pytest.approx(1.229, abs=0.002)
-    assert _drawn_levels(ax)[-1] == pytest.approx(0.0, abs=1e-9)
+    assert _drawn_levels(drawn)[-1] == pytest.approx(0.0, abs=1e-9)
 
 
 def test_limiting_potential_makes_determining_step_flat(table):
     lp = limiting_potentials(table, "orr-4e", surfaces=["SAS-01"])
-    ax = dg.plot_free_energy_diagram(table, "orr-4e", "SAS-01", potential="limiting")
-    levels = _drawn_levels(ax)
+    drawn = dg.plot_free_energy_diagram(table, "orr-4e", "SAS-01", potential="limiting")
+    levels = _drawn_levels(drawn)
     steps = np.diff(levels)
     pds = int(lp["determining_step_index"].iloc[0]) - 1
-    assert ax.ecatlab_data.series[0].potential == pytest.approx(lp["limiting_potential"].iloc[0])
+    assert drawn.data.series[0].potential == pytest.approx(lp["limiting_potential"].iloc[0])
     assert steps[pds] == pytest.approx(0.0, abs=1e-9)
     assert np.all(steps <= 1e-9)  # reduction at U_L: every electrochemical step downhill
 
@@ -88,8 +89,8 @@ def test_limiting_potential_makes_determining_step_flat(table):
 def test_highlight_is_the_determining_step(table, key):
     surfaces = ["ALY-03", "SAS-02"]
     lp = limiting_potentials(table, key, surfaces=surfaces)
-    ax = dg.plot_free_energy_diagram(table, key, surfaces, potential=0.0)
-    for j, drawing in enumerate(ax.ecatlab_drawings):
+    drawn = dg.plot_free_energy_diagram(table, key, surfaces, potential=0.0)
+    for j, drawing in enumerate(drawn.parts["series"]):
         pds = int(lp["determining_step_index"].iloc[j]) - 1
         assert drawing.highlight_index == pds
         hl = drawing.highlight_line
@@ -103,11 +104,12 @@ def test_highlight_is_the_determining_step(table, key):
 
 
 def test_labels_present_with_chemical_formatting(table):
-    ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
+    drawn = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
+    ax = drawn.ax
     texts = [t.get_text() for t in ax.texts]
     for label in ("O₂(g)", "OOH\u2217", "O\u2217", "OH\u2217", "2\u2009H₂O(l)"):  # site mark: ecatlab.chemtext
         assert label in texts
-    values = [t.get_text() for t in ax.ecatlab_drawings[0].value_texts]
+    values = [t.get_text() for t in drawn.parts["series"][0].value_texts]
     expected = state_free_energies(table, "orr-4e", surfaces=["ALY-01"]).to_numpy()[0]
     assert values == [f"{v:.2f}".replace("-", "\N{MINUS SIGN}") for v in expected]
     title = ax.get_title(loc="left")
@@ -116,14 +118,17 @@ def test_labels_present_with_chemical_formatting(table):
     assert "V vs RHE" in title and "pH 0" in title and "298.15 K" in title
     legend_texts = [t.get_text() for t in ax.get_legend().get_texts()]
     assert any(t.startswith("potential-determining step") for t in legend_texts)
+    assert drawn.parts["legend"] is ax.get_legend()
 
 
 def test_overlay_uses_distinct_colours_and_dashes_and_axis_labels(table):
     surfaces = ["ALY-01", "ALY-02", "SAS-01", "SAS-03"]
-    ax = dg.plot_free_energy_diagram(table, "orr-4e", surfaces, potential=0.0)
-    colours = [d.level_line.get_color() for d in ax.ecatlab_drawings]
+    drawn = dg.plot_free_energy_diagram(table, "orr-4e", surfaces, potential=0.0)
+    ax = drawn.ax
+    colours = [d.level_line.get_color() for d in drawn.parts["series"]]
     assert colours == list(PALETTE[:4])
-    assert len({str(d.level_line._dash_pattern) for d in ax.ecatlab_drawings}) == 4
+    assert len({str(d.level_line._dash_pattern) for d in drawn.parts["series"]}) == 4
+    assert len({str(d.linestyle) for d in drawn.parts["series"]}) == 4  # the handle records each series' dashes
     assert [t.get_text() for t in ax.get_xticklabels()] == ["O₂(g)", "OOH\u2217", "O\u2217", "OH\u2217", "2\u2009H₂O(l)"]
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
     lp = limiting_potentials(table, "orr-4e", surfaces=surfaces).set_index("surface")
@@ -132,8 +137,9 @@ def test_overlay_uses_distinct_colours_and_dashes_and_axis_labels(table):
 
 
 def test_update_moves_existing_artists_only(table):
-    ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
-    drawing = ax.ecatlab_drawings[0]
+    drawn = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", potential=0.0)
+    ax = drawn.ax
+    drawing = drawn.parts["series"][0]
     n_lines, n_texts = len(ax.lines), len(ax.texts)
     ids = [id(a) for a in drawing.artists]
     new = state_free_energies(table, "orr-4e", potential=0.9, surfaces=["ALY-01"]).to_numpy()[0]
@@ -151,53 +157,75 @@ def test_update_moves_existing_artists_only(table):
     assert lo < new.min() and hi > new.max()
     drawing.update(new, highlight_index=None)
     assert not drawing.highlight_line.get_visible()
-    with pytest.raises(ValueError, match="5 levels"):
+    from ecatlab.errors import EcatlabError, OptionError
+
+    with pytest.raises(OptionError, match="must hold 5 values") as err:
         drawing.update(new[:3])
+    assert isinstance(err.value, EcatlabError) and isinstance(err.value, ValueError)
 
 
 def test_given_axes_is_used_and_returned(table):
     fig, ax = plt.subplots()
     out = dg.plot_free_energy_diagram(table, "her-volmer-heyrovsky", "SAS-04", ax=ax)
-    assert out is ax
+    assert out.ax is ax and out.figure is fig and out.axes == (ax,)
     assert len(fig.axes) == 1
+    # nothing is attached to matplotlib objects any more: the handle carries what was drawn
+    assert not hasattr(ax, "ecatlab_drawings") and not hasattr(ax, "ecatlab_data")
 
 
 def test_several_potentials_of_one_surface(table):
-    ax = dg.plot_diagram_at_potentials(table, "oer-4e", "ALY-03", (0.0, "equilibrium", "limiting"))
-    data = ax.ecatlab_data
+    drawn = dg.plot_diagram_at_potentials(table, "oer-4e", "ALY-03", (0.0, "equilibrium", "limiting"))
+    ax = drawn.ax
+    data = drawn.data
     lp = limiting_potentials(table, "oer-4e", surfaces=["ALY-03"])
     us = [s.potential for s in data.series]
     assert us == pytest.approx([0.0, lp["equilibrium_potential"].iloc[0], lp["limiting_potential"].iloc[0]])
     for j, u in enumerate(us):
         expected = state_free_energies(table, "oer-4e", potential=u, surfaces=["ALY-03"]).to_numpy()[0]
-        np.testing.assert_allclose(_drawn_levels(ax, j), expected, atol=1e-12)
+        np.testing.assert_allclose(_drawn_levels(drawn, j), expected, atol=1e-12)
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
     assert legend[0] == "U = 0.00 V" and "eq" in legend[1] and "L" in legend[2]
 
 
 def test_grid_and_product_comparison(table):
-    fig = dg.plot_diagram_grid(table, "nrr-distal", ["ALY-01", "ALY-02", "SAS-01"], ncols=2, style="double")
-    visible = [a for a in fig.axes if a.get_visible() and getattr(a, "ecatlab_drawings", None)]
-    assert len(visible) == 3
+    grid = dg.plot_diagram_grid(table, "nrr-distal", ["ALY-01", "ALY-02", "SAS-01"], ncols=2, style="double")
+    visible = [a for a in grid.figure.axes if a.get_visible()]
+    assert len(grid.axes) == len(visible) == 3 and set(grid.axes) == set(visible)  # the fourth grid cell is hidden
+    assert [p.ax for p in grid.parts["panels"]] == list(grid.axes)
     expected = state_free_energies(table, "nrr-distal", surfaces=["ALY-01", "ALY-02", "SAS-01"]).to_numpy()
-    for a, row in zip(visible, expected):
-        np.testing.assert_allclose(a.ecatlab_drawings[0].levels, row, atol=1e-12)
+    assert len(grid.parts["series"]) == 3
+    for drawing, a, row in zip(grid.parts["series"], grid.axes, expected):
+        assert drawing.ax is a
+        np.testing.assert_allclose(drawing.levels, row, atol=1e-12)
+    np.testing.assert_allclose(grid.data.levels, expected, atol=1e-12)
     keys = ["co2rr-co", "co2rr-hcooh", "co2rr-ch4"]
-    fig = dg.plot_product_comparison(table, keys, "SAS-02", style="double")
-    panels = [a for a in fig.axes if getattr(a, "ecatlab_drawings", None)]
-    assert [a.ecatlab_data.pathway.name for a in panels] == keys
+    comparison = dg.plot_product_comparison(table, keys, "SAS-02", style="double")
+    panels = list(comparison.axes)
+    assert [d.pathway.name for d in comparison.data] == keys
     lp = limiting_potentials(table, keys, surfaces=["SAS-02"])
-    for a, (_, row) in zip(panels, lp.iterrows()):
-        assert a.ecatlab_drawings[0].highlight_index == row["determining_step_index"] - 1
+    for a, drawing, (_, row) in zip(panels, comparison.parts["series"], lp.iterrows()):
+        assert drawing.ax is a
+        assert drawing.highlight_index == row["determining_step_index"] - 1
         assert f"{row['limiting_potential']:.2f}".replace("-", "\N{MINUS SIGN}") in a.get_title(loc="left")
     assert len({a.get_ylim() for a in panels}) == 1  # shared energy axis
 
 
+def test_too_few_axes_is_a_clear_error(table):
+    from ecatlab.errors import EcatlabError, OptionError
+
+    fig, axes = plt.subplots(1, 2)
+    with pytest.raises(OptionError, match="3 panels .* 2 Axes were given") as err:
+        dg.plot_diagram_grid(table, "orr-4e", ["ALY-01", "ALY-02", "SAS-01"], ax=axes)
+    assert isinstance(err.value, EcatlabError)
+    with pytest.raises(OptionError, match="3 pathways need 3 Axes"):
+        dg.plot_product_comparison(table, ["co2rr-co", "co2rr-hcooh", "co2rr-ch4"], "SAS-02", ax=axes)
+
+
 def test_presets_set_journal_widths(table):
-    ax = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", style="single")
-    w, h = ax.figure.get_size_inches()
+    drawn = dg.plot_free_energy_diagram(table, "orr-4e", "ALY-01", style="single")
+    w, h = drawn.figure.get_size_inches()
     assert w * 25.4 == pytest.approx(preset("single").width_mm)
-    assert ax.ecatlab_drawings[0].level_line.get_linewidth() == pytest.approx(preset("single").level_width_pt)
+    assert drawn.parts["series"][0].level_line.get_linewidth() == pytest.approx(preset("single").level_width_pt)
 
 
 def test_state_label_text():

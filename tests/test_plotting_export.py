@@ -20,9 +20,9 @@ SVG_NS = "{http://www.w3.org/2000/svg}"
 
 @pytest.fixture(scope="module")
 def fig():
-    ax = plot_free_energy_diagram(demo_energies(), "orr-4e", "ALY-01", potential=0.0)
-    yield ax.figure
-    plt.close(ax.figure)
+    drawn = plot_free_energy_diagram(demo_energies(), "orr-4e", "ALY-01", potential=0.0)
+    yield drawn.figure
+    plt.close(drawn.figure)
 
 
 def test_svg_pdf_png_written_and_open(tmp_path, fig):

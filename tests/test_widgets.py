@@ -365,3 +365,144 @@ def test_switching_reaction_starts_at_its_equilibrium_potential(table):
     ex.reaction.value = "HER"
     assert ex.state.potential == pytest.approx(che.equilibrium_potential(ex.state.pathway), abs=1e-12)
     assert "equilibrium potential" in ex.status.value
+
+
+# -- redraw speed-ups draw the same picture ---------------------------------------------------------------------------------
+def _full_draw_pixels(figure, canvas_class) -> np.ndarray:
+    canvas_class(figure)
+    figure.canvas.draw()
+    return np.asarray(figure.canvas.buffer_rgba()).copy()
+
+
+def test_glyph_cache_draws_the_same_pixels_as_plain_agg(table):
+    """Cached glyph bitmaps (moved by whole pixels) must give matplotlib's own text rendering, pixel
+    for pixel: plain text, rotated tick labels (co2rr-ch4 has crowded state labels) and mathtext
+    (the legend's U_L)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    from ecatlab.explorer import textcache
+
+    if not textcache.supported():
+        pytest.skip("this matplotlib lacks the glyph-level Agg calls; the plain canvas is used")
+    ex = explore(table, pathway="co2rr-ch4", surfaces=table.surfaces[:6], render="inline")
+    fig = ex.view.figure
+    for artist in ex.view._dynamic:  # draw the moving artists in the ordinary pass too
+        artist.set_animated(False)
+    rotated = [t for t in ex.view.ax.get_xticklabels() if t.get_rotation() != 0]
+    assert rotated, "expected rotated state labels in this figure"
+    assert any("$" in t.get_text() for t in fig.findobj(matplotlib.text.Text))  # mathtext is exercised
+    plain = _full_draw_pixels(fig, FigureCanvasAgg)
+    textcache.clear()
+    first = _full_draw_pixels(fig, textcache.GlyphCachingCanvas)  # fills the cache
+    cached = len(textcache._GLYPHS)
+    second = _full_draw_pixels(fig, textcache.GlyphCachingCanvas)  # served from the cache
+    assert cached > 50 and len(textcache._GLYPHS) == cached  # the second draw rendered no glyph
+    assert np.array_equal(first, plain)
+    assert np.array_equal(second, plain)
+    assert (plain[:, :, :3] < 128).any()  # the picture has dark text in it, not a blank canvas
+
+
+def test_pasted_legend_equals_a_drawn_legend(table):
+    """A full draw for new y-limits pastes the legend's pixels from the first full draw; the
+    picture must equal one where the legend is drawn again."""
+    ex = explore(table, pathway="orr-4e", surfaces=table.surfaces[:12], potential=0.0, render="inline")
+    view = ex.view
+    ylim = view.ax.get_ylim()
+    ex.potential.value = 2.5  # levels far outside: new y-limits, a full draw with the legend pasted
+    assert view.ax.get_ylim() != ylim and view._legend_pixels is not None
+    pasted = np.asarray(view.figure.canvas.buffer_rgba()).copy()
+    view._legend_pixels = None  # forget the legend's pixels: the next full draw draws it
+    view.render_png()
+    drawn = np.asarray(view.figure.canvas.buffer_rgba()).copy()
+    assert np.array_equal(pasted, drawn)
+    legend_box = view._legend_box(view._legend)
+    x0, x1 = int(legend_box.x0), int(legend_box.x1)
+    assert (drawn[:, x0:x1, :3] < 128).any()  # the legend region holds the legend's text
+
+
+def test_explorer_lines_keep_each_surfaces_colour_dashes_and_band(ex):
+    """The shared collections draw each surface as the diagram does: its colour, its dash pattern, the
+    potential-determining-step band in its own colour."""
+    from matplotlib.colors import to_rgba
+
+    from ecatlab.plotting.style import DASHES, PALETTE
+
+    n = len(ex.state.surfaces)
+    assert n == 10
+    levels = ex.view._levels
+    assert [tuple(c) for c in levels.get_colors()] == [to_rgba(PALETTE[j % len(PALETTE)]) for j in range(n)]
+    assert len({str(s) for s in levels.get_linestyles()}) == min(n, len(DASHES))
+    bands = ex.view._highlights.get_colors()
+    assert len({tuple(c[:3]) for c in bands}) == n and np.allclose(bands[:, 3], 0.35)
+    det = ex.state.determining_steps() - 1
+    for j, drawing in enumerate(ex.view.drawings):
+        assert drawing.highlight_index == det[j]
+
+
+def test_readout_uphill_column_follows_the_potential(ex):
+    """The read-out rebuilds only its "uphill now" cells per move; they must equal the state's table."""
+    import re
+
+    for u in (0.0, 0.6, 0.85, 1.1):
+        ex.potential.value = u
+        html_rows = readout_html(ex.state).split("<tbody>")[1].split("</tbody>")[0].split("</tr>")[:-1]
+        r = ex.state.readout()
+        order = che.kernel.ranking_order(r["G_max"].to_numpy(), r["blocked"].to_numpy())
+        assert len(html_rows) == len(order)
+        for row_html, j in zip(html_rows, order):
+            assert f">{r.index[j]}<" in row_html
+            last_cell = re.findall(r"<td[^>]*>([^<]*)</td>$", row_html)[0]
+            assert last_cell == (r["uphill_steps_now"].iloc[j] or "none")
+
+
+def test_rebuild_keeps_no_stale_content(table):
+    """A rebuild reuses the Axes (and its tick objects): no old line, text or legend may survive, and
+    state labels rotated for a crowded pathway stand upright again for a short one."""
+    ex = explore(table, pathway="orr-4e", surfaces=table.surfaces[:3], render="inline")
+    counts = (len(ex.view.ax.lines), len(ex.view.ax.collections), len(ex.view.ax.texts), len(ex.view.ax.artists))
+    upright = [t.get_rotation() for t in ex.view.ax.get_xticklabels()]
+    ex.reaction.value = "CO2RR"
+    ex.pathway.value = "co2rr-ch4"  # long state labels: rotated
+    assert any(t.get_rotation() != 0 for t in ex.view.ax.get_xticklabels())
+    ex.reaction.value = "ORR"
+    assert ex.state.pathway.name == "orr-4e"
+    assert (len(ex.view.ax.lines), len(ex.view.ax.collections), len(ex.view.ax.texts), len(ex.view.ax.artists)) == counts
+    assert [t.get_rotation() for t in ex.view.ax.get_xticklabels()] == upright
+    assert [t.get_text() for t in ex.view.ax.get_xticklabels()] == ["O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"]
+    assert len(ex.view.ax.artists) == 1 and ex.view._legend in ex.view.ax.artists  # one legend, the current one
+    labels = [t.get_text() for t in ex.view._legend.texts]
+    assert labels[0] == r"surface   $U_\mathrm{L}$ (V vs RHE)"
+    assert [lab.split()[0] for lab in labels[1:-2]] == ex.state.surfaces
+    lim = ex.state.readout()["limiting_potential"]
+    for lab, surface in zip(labels[1:-2], ex.state.surfaces):  # each row: the engine's U_L, 2 decimals
+        assert lab.endswith(f"{lim[surface]:.2f} V".replace("-", "\N{MINUS SIGN}"))
+    assert labels[-2:] == ["potential-determining step", "(band in each surface's colour)"]
+    renderer = ex.view.figure.canvas.get_renderer()
+    assert ex.view._legend.get_window_extent(renderer).x1 <= ex.view.figure.bbox.x1  # no label runs off the figure
+
+
+@pytest.mark.parametrize("key", ["co2rr-ch4", "orr-4e"])
+def test_state_labels_do_not_reach_into_the_footnote(table, key):
+    """Crowded (rotated) state labels get room: after a full draw the lowest label ends above the
+    footnote's top (boxes in display pixels)."""
+    ex = explore(table, pathway=key, surfaces=table.surfaces[:6], render="inline")
+    ex.view.render_png()
+    renderer = ex.view.figure.canvas.get_renderer()
+    labels = [t.get_window_extent(renderer) for t in ex.view.ax.get_xticklabels() if t.get_text()]
+    assert labels and ex.view._footnote.get_text()
+    assert min(b.y0 for b in labels) > ex.view._footnote.get_window_extent(renderer).y1
+    assert ex.view.ax.get_position().y1 == pytest.approx(0.85)  # the top (legend, title, conditions line) stays
+
+
+def test_long_legend_is_cut_and_stays_in_the_figure(table):
+    big = pd.concat([table.matrix.rename(index=lambda s, k=k: f"{s}-{k}") for k in range(2)])  # 24 ILLUSTRATIVE surfaces
+    ex = explore(EnergyTable.from_matrix(big, source="ILLUSTRATIVE demo table, twice"), pathway="orr-4e",
+                 surfaces=list(big.index), render="inline")
+    labels = [t.get_text() for t in ex.view._legend.texts]
+    from ecatlab.explorer.view import MAX_LEGEND_SURFACES
+
+    assert len(labels) == 1 + MAX_LEGEND_SURFACES + 2
+    assert labels[MAX_LEGEND_SURFACES] == f"... {len(big) - MAX_LEGEND_SURFACES + 1} more (see read-out)"
+    renderer = ex.view.figure.canvas.get_renderer()
+    assert ex.view._legend.get_window_extent(renderer).x1 <= ex.view.figure.bbox.x1
+    assert ex.view._legend.rows_box().y0 > ex.view._footnote.get_window_extent(renderer).y1  # above the footnote

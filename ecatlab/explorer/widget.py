@@ -58,44 +58,57 @@ def _num(value: float, digits: int = 3, signed: bool = True) -> str:
     return text.replace("-", "\N{MINUS SIGN}")
 
 
+def _step_table_parts(state: ExplorerState) -> tuple[str, list[str], str]:
+    """The parts of the step table that do not move with U (header, row openings, step legend),
+    built once per pathway and surface set and kept on the state."""
+    key = (id(state.pathway), tuple(state.surfaces))
+    cached = getattr(state, "_step_table_cache", None)
+    if cached is not None and cached[0] == key:
+        return cached[1]
+    steps = state.pathway.steps
+    equations = [s.equation for s in steps]
+    head = "".join(
+        f'<th style="padding:1px 6px" title="{html.escape(eq)}">{i + 1}{"" if state.electrochemical[i] else " (chem.)"}</th>'
+        for i, eq in enumerate(equations)
+    )
+    opening = (f'<table style="border-collapse:collapse;font-size:12px">'
+               f'<thead><tr><th style="padding:1px 6px;text-align:left">surface</th>{head}</tr></thead><tbody>')
+    rows = [f'<tr><th style="padding:1px 6px;text-align:left">{html.escape(surface)}</th>' for surface in state.surfaces]
+    legend = "".join(f"<li>{i + 1}: {html.escape(eq)}</li>" for i, eq in enumerate(equations))
+    closing = f'</tbody></table><ol style="font-size:11px;margin:2px 0 0 0;padding-left:0;list-style:none">{legend}</ol></div>'
+    parts = (opening, rows, closing)
+    state._step_table_cache = (key, parts)
+    return parts
+
+
+_CELL_PLAIN = f'<td style="{_CELL}">'
+_CELL_UP = f'<td style="{_CELL};{_UP_STYLE}" class="uphill">\N{BLACK UP-POINTING TRIANGLE} '
+_CELL_CHEM = f'<td style="{_CELL};{_CHEM_STYLE}" class="uphill-chemical">\N{BLACK DIAMOND} '
+
+
 def step_table_html(state: ExplorerState) -> str:
     """HTML table of step free energies (eV) at the state's conditions, uphill steps marked.
 
     Electrochemical steps with dG > 0 get a triangle and a warm background; uphill chemical steps
-    (which no potential can move) a diamond and grey italics.
+    (which no potential can move) a diamond and grey italics. Only the numbers, the marks and the
+    caption are formatted per call; header, surface names and step legend are built once per
+    pathway and surface set.
     """
     dG = state.step_energies()
-    up = state.uphill()
-    up_chem = state.uphill_chemical()
-    steps = state.pathway.steps
-    head = "".join(
-        f'<th style="padding:1px 6px" title="{html.escape(s.equation)}">{i + 1}{"" if state.electrochemical[i] else " (chem.)"}</th>'
-        for i, s in enumerate(steps)
+    kind = np.where(state.uphill(), 1, np.where(state.uphill_chemical(), 2, 0))  # 0 plain, 1 uphill, 2 chemical uphill
+    opening, rows, closing = _step_table_parts(state)
+    starts = (_CELL_PLAIN, _CELL_UP, _CELL_CHEM)
+    body = "".join(
+        row + "".join(f"{starts[k]}{_num(v)}</td>" for v, k in zip(values, kinds)) + "</tr>"
+        for row, values, kinds in zip(rows, dG.tolist(), kind.tolist())
     )
-    rows = []
-    for j, surface in enumerate(state.surfaces):
-        cells = []
-        for i in range(len(steps)):
-            if up[j, i]:
-                cells.append(f'<td style="{_CELL};{_UP_STYLE}" class="uphill">\N{BLACK UP-POINTING TRIANGLE} {_num(dG[j, i])}</td>')
-            elif up_chem[j, i]:
-                cells.append(f'<td style="{_CELL};{_CHEM_STYLE}" class="uphill-chemical">\N{BLACK DIAMOND} {_num(dG[j, i])}</td>')
-            else:
-                cells.append(f'<td style="{_CELL}">{_num(dG[j, i])}</td>')
-        rows.append(f'<tr><th style="padding:1px 6px;text-align:left">{html.escape(surface)}</th>{"".join(cells)}</tr>')
-    legend = "".join(f"<li>{i + 1}: {html.escape(s.equation)}</li>" for i, s in enumerate(steps))
     caption = (
         f"Step free energies \N{GREEK CAPITAL LETTER DELTA}G (eV), {html.escape(state.pathway.name)}, "
         f"{html.escape(state.conditions.describe())}. \N{BLACK UP-POINTING TRIANGLE} electrochemical step uphill at this U; "
         f"\N{BLACK DIAMOND} chemical step uphill (potential-independent)."
     )
-    return (
-        f'<div class="ecatlab-step-table" style="line-height:1.35"><div style="font-size:12px;margin-bottom:2px">{caption}</div>'
-        f'<table style="border-collapse:collapse;font-size:12px">'
-        f'<thead><tr><th style="padding:1px 6px;text-align:left">surface</th>{head}</tr></thead>'
-        f'<tbody>{"".join(rows)}</tbody></table>'
-        f'<ol style="font-size:11px;margin:2px 0 0 0;padding-left:0;list-style:none">{legend}</ol></div>'
-    )
+    return (f'<div class="ecatlab-step-table" style="line-height:1.35"><div style="font-size:12px;margin-bottom:2px">{caption}</div>'
+            + opening + body + closing)
 
 
 def _shown(potential: float) -> float:
@@ -139,38 +152,64 @@ def _readout_key(state: ExplorerState, focus) -> tuple | None:
             state.temperature, state.uphill().tobytes())
 
 
-def readout_html(state: ExplorerState, focus: str | None = None) -> str:
-    """HTML read-out per surface, best-ranked first: U_L (V vs scale), overpotential (V), G_max (eV;
-    'blocked' when an uphill chemical step blocks the pathway), determining step, uphill now
-    (and, for a best-route choice, the route, its runner-up and surfaces lacking data)."""
-    focus = state.focus if focus is None else focus
+def _readout_rows(state: ExplorerState, focus: str | None) -> tuple[np.ndarray, list[str], list[str]]:
+    """The parts of the read-out that do not move with U: ranking order, and per surface (in that
+    order) the HTML of the row up to the "uphill now" cell. Built once per engine result (the
+    state's limiting-potential table) and focus, kept on the state."""
+    limiting = getattr(state, "_limiting", None)
+    key = (id(limiting), id(state.pathway), id(state.route), tuple(state.surfaces), focus, state.scale, state.pH, state.temperature)
+    cached = getattr(state, "_readout_rows_cache", None)
+    if cached is not None and cached[0] == key:
+        return cached[1]
     r = state.readout()
-    r = r.iloc[kernel.ranking_order(r["G_max"].to_numpy(), r["blocked"].to_numpy())]  # best-ranked first
-    u_eq = state.equilibrium_potential()
-    rows = []
-    for surface, row in r.iterrows():
+    order = kernel.ranking_order(r["G_max"].to_numpy(), r["blocked"].to_numpy())  # best-ranked first
+    surfaces = r.index.to_numpy(dtype=object)[order]
+    cols = {c: r[c].to_numpy()[order] for c in ("limiting_potential", "overpotential", "G_max", "blocked", "determining_step",
+                                                 "determining_step_index", "uphill_chemical_steps", "missing_species")}
+    heads = []
+    for j, surface in enumerate(surfaces):  # once per rebuild, not per move
         mark = " style=\"background:#EAF2FA\"" if surface == focus else ""
-        now = row["uphill_steps_now"] or "none"
-        note = f" (missing: {html.escape(row['missing_species'])})" if row["missing_species"] else ""
-        chem = f"<br><i>chemical uphill: {html.escape(row['uphill_chemical_steps'])}</i>" if row["uphill_chemical_steps"] else ""
-        blocked = ' <b title="an uphill chemical step blocks this pathway at every potential">blocked</b>' if row["blocked"] else ""
-        rows.append(
+        missing, chem_steps = cols["missing_species"][j], cols["uphill_chemical_steps"][j]
+        note = f" (missing: {html.escape(missing)})" if missing else ""
+        chem = f"<br><i>chemical uphill: {html.escape(chem_steps)}</i>" if chem_steps else ""
+        blocked = ' <b title="an uphill chemical step blocks this pathway at every potential">blocked</b>' if cols["blocked"][j] else ""
+        heads.append(
             f"<tr{mark}><th style=\"text-align:left;padding:1px 6px\">{html.escape(str(surface))}</th>"
-            f'<td style="{_CELL}">{_num(row["limiting_potential"], 3)}</td>'
-            f'<td style="{_CELL}">{_num(row["overpotential"], 3, signed=False)}</td>'
-            f'<td style="{_CELL}">{_num(row["G_max"], 3, signed=False)}{blocked}</td>'
-            f'<td style="padding:1px 6px">{int(row["determining_step_index"]) or "-"}: {html.escape(str(row["determining_step"]))}{note}{chem}</td>'
-            f'<td style="padding:1px 6px">{html.escape(now)}</td></tr>'
+            f'<td style="{_CELL}">{_num(float(cols["limiting_potential"][j]), 3)}</td>'
+            f'<td style="{_CELL}">{_num(float(cols["overpotential"][j]), 3, signed=False)}</td>'
+            f'<td style="{_CELL}">{_num(float(cols["G_max"][j]), 3, signed=False)}{blocked}</td>'
+            f'<td style="padding:1px 6px">{int(cols["determining_step_index"][j]) or "-"}: '
+            f'{html.escape(str(cols["determining_step"][j]))}{note}{chem}</td>'
         )
-    return (
+    u_eq = state.equilibrium_potential()
+    frame = [
         '<div class="ecatlab-readout" style="line-height:1.35"><table style="border-collapse:collapse;font-size:12px">'
         f'<caption style="caption-side:top;text-align:left">{html.escape(state.pathway.name)} ({html.escape(state.pathway.direction)}); '
         f"U<sub>eq</sub> = {_num(u_eq)} V vs {state.scale} at pH {state.pH:g}, {state.temperature:g} K</caption>"
         f"<thead><tr><th>surface</th><th>U<sub>L</sub> (V vs {state.scale})</th><th>\N{GREEK SMALL LETTER ETA} (V)</th>"
         "<th>G<sub>max</sub> (eV)</th>"
-        "<th>potential-determining step</th><th>uphill now</th></tr></thead>"
-        f'<tbody>{"".join(rows)}</tbody></table>{route_html(state)}</div>'
-    )
+        "<th>potential-determining step</th><th>uphill now</th></tr></thead><tbody>",
+        f"</tbody></table>{route_html(state)}</div>",
+    ]
+    parts = (np.asarray(order), heads, frame)
+    state._readout_rows_cache = (key, parts)
+    return parts
+
+
+def readout_html(state: ExplorerState, focus: str | None = None) -> str:
+    """HTML read-out per surface, best-ranked first: U_L (V vs scale), overpotential (V), G_max (eV;
+    'blocked' when an uphill chemical step blocks the pathway), determining step, uphill now
+    (and, for a best-route choice, the route, its runner-up and surfaces lacking data).
+
+    Only the "uphill now" column moves with U; the rest of each row is built once per engine
+    result (see :func:`_readout_rows`)."""
+    focus = state.focus if focus is None else focus
+    order, heads, (opening, closing) = _readout_rows(state, focus)
+    uphill = state.uphill()[order]
+    names = [str(i + 1) for i in range(uphill.shape[1])]
+    now = [", ".join(name for name, up in zip(names, row) if up) or "none" for row in uphill.tolist()]
+    body = "".join(f'{head}<td style="padding:1px 6px">{text}</td></tr>' for head, text in zip(heads, now))
+    return opening + body + closing
 
 
 # ------------------------------------------------------------------------------------------------

@@ -39,8 +39,12 @@ Axes title when given; ``rescale`` refits the y-limits to the new levels. The ha
 (all its level bars in one, NaN-separated; all its connectors in one; the highlight), read one
 bar or connector back with ``level_xy(k)`` / ``connector_xy(i)``.
 
-All plotting functions take an optional ``ax=`` and return the Axes (single panel) or Figure
-(several panels); ``style=`` picks a preset of :mod:`ecatlab.plotting.style`.
+All plotting functions take an optional ``ax=`` and return a :class:`~ecatlab.plotting.handles.Drawn`:
+``drawn.ax`` (the first panel; every panel in ``drawn.axes``), ``drawn.figure``, ``drawn.data``
+(the :class:`DiagramData` drawn; a list of them for :func:`plot_product_comparison`) and
+``drawn.parts["series"]`` (one :class:`LevelDrawing` per drawn series, panel by panel; the
+multi-panel plotters also give ``parts["panels"]``, one ``Drawn`` per panel). ``style=`` picks a
+preset of :mod:`ecatlab.plotting.style`.
 """
 
 from __future__ import annotations
@@ -52,6 +56,7 @@ from typing import Iterable, Sequence
 import numpy as np
 
 from ecatlab.constants import STANDARD_TEMPERATURE
+from ecatlab.plotting.handles import Drawn
 from ecatlab.plotting.style import DASHES, HIGHLIGHT, PALETTE, preset, style_context
 
 __all__ = [
@@ -397,6 +402,8 @@ class LevelDrawing:
     highlight_index : int or None
         0-based index of the highlighted step, ``None`` if hidden.
     n_states : int
+    linestyle : str or tuple
+        The dash pattern of the level bars, as given to :func:`draw_levels` (matplotlib form).
     """
 
     ax: object
@@ -408,6 +415,7 @@ class LevelDrawing:
     highlight_text: object | None
     highlight_index: int | None = None
     n_states: int = 0
+    linestyle: object = "-"
 
     @property
     def artists(self) -> list:
@@ -435,7 +443,10 @@ class LevelDrawing:
         """Move the artists to new levels (eV) and highlight step ``highlight_index`` (0-based)."""
         y = np.asarray(levels, dtype=float)
         if y.shape != (self.n_states,):
-            raise ValueError(f"update needs {self.n_states} levels (one per state), got shape {y.shape}")
+            from ecatlab.errors import OptionError
+
+            raise OptionError(f"LevelDrawing.update: levels must hold {self.n_states} values (one per state of the drawn "
+                              f"pathway, eV), got shape {y.shape}; pass the levels of the same pathway")
         self.level_line.set_data(*_level_segments(y))
         self.connector_line.set_data(*_connector_segments(y))
         for k, text in enumerate(self.state_texts):
@@ -576,7 +587,7 @@ def draw_levels(
             value_texts.append(ax.text(k, y[k], _fmt(y[k]), transform=below, ha="center", va="top",
                                        fontsize=value_fontsize or (p.font_pt - 1.5), color=color, zorder=5,
                                        gid="ecatlab-level-value"))
-    drawing = LevelDrawing(ax, level_line, connector_line, state_texts, value_texts, highlight_line, None, None, n)
+    drawing = LevelDrawing(ax, level_line, connector_line, state_texts, value_texts, highlight_line, None, None, n, linestyle)
     drawing._place_highlight(y, highlight_index)
     return drawing
 
@@ -709,8 +720,9 @@ def plot_free_energy_diagram(
 
     Returns
     -------
-    Axes
-        With ``ax.ecatlab_drawings`` (list of :class:`LevelDrawing`) and ``ax.ecatlab_data``.
+    Drawn
+        ``ax``, ``figure``, ``data`` (the :class:`DiagramData`), ``parts["series"]`` (one
+        :class:`LevelDrawing` per series) and ``parts["legend"]`` (the Legend, or None).
     """
     if data is None:
         data = diagram_data(energies, pathway, surfaces, potential, pH, scale, temperature)
@@ -746,15 +758,14 @@ def _draw_data(data: DiagramData, *, ax, style, annotate, highlight, title, cond
             )
         _fit_ylim(ax)
         _title(ax, data, title, conditions, potential_text)
+        leg = None
         if legend or (single and highlight and highlight_legend):
             leg = _legend(ax, highlight, p, series=legend and (len(data.series) > 1 or show_potential))
             if single and highlight and leg is not None and drawings[0].highlight_index is not None:
                 drawings[0].highlight_text = leg.get_texts()[-1]
                 i = drawings[0].highlight_index
                 drawings[0].highlight_text.set_text(_highlight_caption(i, float(data.series[0].step_dG[i])))
-    ax.ecatlab_drawings = drawings
-    ax.ecatlab_data = data
-    return ax
+    return Drawn(ax=ax, data=data, parts={"series": drawings, "legend": leg})
 
 
 def _legend(ax, highlight: bool, p, series: bool = True):
@@ -800,7 +811,8 @@ def plot_diagram_at_potentials(
 ):
     """One surface's diagram at several potentials in one Axes (e.g. U = 0, U_eq and U_L).
 
-    Returns the Axes; the legend names each potential (V on ``scale``).
+    Returns a :class:`~ecatlab.plotting.handles.Drawn` (``parts["series"]``: one
+    :class:`LevelDrawing` per potential); the legend names each potential (V on ``scale``).
     """
     data = diagram_data(energies, pathway, [surface], list(potentials), pH, scale, temperature)
     head = f"{data.pathway.name} on {surface}" if title is None else title
@@ -815,7 +827,10 @@ def _panel_figure(n: int, ncols: int, p, ax, sharey: bool = True):
     if ax is not None:
         axes = list(np.ravel(ax))
         if len(axes) < n:
-            raise ValueError(f"need {n} Axes, got {len(axes)}")
+            from ecatlab.errors import OptionError
+
+            raise OptionError(f"ax: this figure has {n} panels (one per series), but {len(axes)} Axes were given; "
+                              f"pass {n} Axes or leave ax out")
         return axes[0].figure, axes[:n]
     ncols = max(1, min(ncols, n))
     nrows = int(np.ceil(n / ncols))
@@ -846,27 +861,31 @@ def plot_diagram_grid(
 ):
     """Small multiples: one panel per surface for one pathway, shared energy axis.
 
-    ``ax`` may be a sequence of Axes (one per surface). Returns the Figure; the conditions are
-    the figure's title and each panel is titled with its surface and U_L.
+    ``ax`` may be a sequence of Axes (one per surface). Returns a
+    :class:`~ecatlab.plotting.handles.Drawn`: ``axes`` (one panel per surface), ``data`` (the
+    :class:`DiagramData` of all surfaces), ``parts["panels"]`` (one ``Drawn`` per panel) and
+    ``parts["series"]`` (their :class:`LevelDrawing`, panel by panel). The conditions are the
+    figure's title and each panel is titled with its surface and U_L.
     """
     data = diagram_data(energies, pathway, surfaces, potential, pH, scale, temperature)
     p = preset(style)
     with style_context(p):
         fig, axes = _panel_figure(len(data.series), ncols, p, ax, sharey)
+        panels = []
         for a, s in zip(axes, data.series):
             sub = DiagramData(data.pathway, data.state_labels, (s,), data.scale, data.pH, data.temperature,
                               data.equilibrium_potential, data.references, data.source)
-            _draw_data(sub, ax=a, style=p, annotate=annotate, highlight=highlight,
-                       title=f"{s.surface}  ($U_\\mathrm{{L}}$ = {_fmt(s.limiting_potential)} V)", conditions=None, legend=False,
-                       highlight_legend=False)
+            panels.append(_draw_data(sub, ax=a, style=p, annotate=annotate, highlight=highlight,
+                                     title=f"{s.surface}  ($U_\\mathrm{{L}}$ = {_fmt(s.limiting_potential)} V)", conditions=None,
+                                     legend=False, highlight_legend=False))
             if a.get_subplotspec() is not None and not a.get_subplotspec().is_first_col():
                 a.set_ylabel("")
         fig.suptitle(_wrap_phrases([data.pathway.name] + conditions_parts(data), fig.get_size_inches()[0] * 72, p.font_pt + 1),
                      fontsize=p.font_pt + 1, x=0.01, ha="left")
         if highlight:
             _figure_highlight_legend(fig, p)
-    fig.ecatlab_data = data
-    return fig
+    return Drawn(ax=axes[0], data=data, axes=tuple(axes),
+                 parts={"panels": panels, "series": [d for panel in panels for d in panel.parts["series"]]})
 
 
 def plot_product_comparison(
@@ -886,7 +905,9 @@ def plot_product_comparison(
     """Several pathways of one surface side by side (e.g. CO vs HCOOH vs CH4), shared energy axis.
 
     Each panel is titled with the pathway and its U_L; panels are as wide as their number of
-    states. ``ax`` may be a sequence of Axes (one per pathway). Returns the Figure.
+    states. ``ax`` may be a sequence of Axes (one per pathway). Returns a
+    :class:`~ecatlab.plotting.handles.Drawn`: ``axes`` (one panel per pathway), ``data`` (list of
+    :class:`DiagramData`, one per pathway), ``parts["panels"]`` and ``parts["series"]``.
     """
     import matplotlib.pyplot as plt
 
@@ -895,17 +916,24 @@ def plot_product_comparison(
     with style_context(p):
         if ax is not None:
             axes = list(np.ravel(ax))
+            if len(axes) < len(datas):
+                from ecatlab.errors import OptionError
+
+                raise OptionError(f"ax: {len(datas)} pathways need {len(datas)} Axes (one panel each), got {len(axes)}; "
+                                  "pass one Axes per pathway or leave ax out")
+            axes = axes[: len(datas)]
             fig = axes[0].figure
         else:
             widths = [len(d.state_labels) for d in datas]
             fig, grid = plt.subplots(1, len(datas), figsize=p.figsize, sharey=True, squeeze=False, layout="constrained",
                                      gridspec_kw={"width_ratios": widths})
             axes = list(grid.ravel())
+        panels = []
         for j, (a, d) in enumerate(zip(axes, datas)):
             s = d.series[0]
-            _draw_data(d, ax=a, style=p, annotate=annotate, highlight=highlight,
-                       title=f"{d.pathway.name}\n$U_\\mathrm{{L}}$ = {_fmt(s.limiting_potential)} V", conditions=None, legend=False,
-                       highlight_legend=False)
+            panels.append(_draw_data(d, ax=a, style=p, annotate=annotate, highlight=highlight,
+                                     title=f"{d.pathway.name}\n$U_\\mathrm{{L}}$ = {_fmt(s.limiting_potential)} V", conditions=None,
+                                     legend=False, highlight_legend=False))
             for line in a.lines:
                 if line.get_gid() in ("ecatlab-level", "ecatlab-connector"):
                     line.set_color(PALETTE[j % len(PALETTE)])
@@ -922,5 +950,5 @@ def plot_product_comparison(
                      fontsize=p.font_pt + 1, x=0.01, ha="left")
         if highlight:
             _figure_highlight_legend(fig, p)
-    fig.ecatlab_data = datas
-    return fig
+    return Drawn(ax=axes[0], data=datas, axes=tuple(axes),
+                 parts={"panels": panels, "series": [d for panel in panels for d in panel.parts["series"]]})
