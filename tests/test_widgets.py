@@ -402,6 +402,33 @@ def test_glyph_cache_draws_the_same_pixels_as_plain_agg(table):
     assert (plain[:, :, :3] < 128).any()  # the picture has dark text in it, not a blank canvas
 
 
+def test_glyph_cache_falls_back_to_plain_agg_when_its_calls_fail(table, monkeypatch):
+    """A matplotlib whose private glyph calls changed must not break the explorer: the first failing
+    draw warns, switches to the plain renderer and still gives matplotlib's own picture."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    from ecatlab.explorer import textcache
+
+    if not textcache.supported():
+        pytest.skip("this matplotlib lacks the glyph-level Agg calls; the plain canvas is used")
+    ex = explore(table, pathway="orr-4e", surfaces=table.surfaces[:4], render="inline")
+    fig = ex.view.figure
+    for artist in ex.view._dynamic:
+        artist.set_animated(False)
+    plain = _full_draw_pixels(fig, FigureCanvasAgg)
+
+    def broken(self, *args, **kwargs):
+        raise AttributeError("'FT2Font' object has no attribute '_render_glyph'")
+
+    monkeypatch.setattr(textcache._CachingRenderer, "_glyph_run", broken)
+    monkeypatch.setattr(textcache, "_DISABLED", False)
+    textcache.clear()
+    with pytest.warns(RuntimeWarning, match="plain Agg renderer"):
+        fallback = _full_draw_pixels(fig, textcache.GlyphCachingCanvas)
+    assert np.array_equal(fallback, plain)
+    assert not textcache.supported()  # new explorers take the plain canvas (monkeypatch restores the flag)
+
+
 def test_pasted_legend_equals_a_drawn_legend(table):
     """A full draw for new y-limits pastes the legend's pixels from the first full draw; the
     picture must equal one where the legend is drawn again."""

@@ -16,12 +16,15 @@ moved by whole pixels, so the picture is the same, pixel for pixel (checked in
 
 The cache relies on Agg internals of matplotlib >= 3.10 (``FT2Font._layout``, ``_render_glyph``,
 ``_set_transform``); :func:`supported` says whether they are present, and without them the plain
-Agg canvas is used.
+Agg canvas is used. Should one of them fail at draw time (a matplotlib release that changed them),
+the canvas warns once, switches every caching canvas of the process to the plain Agg renderer
+and draws again, so the explorer keeps working with the stock (slower) text path.
 """
 
 from __future__ import annotations
 
 import math
+import warnings
 
 import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg, RendererAgg, get_hinting_flag
@@ -33,6 +36,8 @@ __all__ = ["GlyphCachingCanvas", "supported", "clear", "MAX_GLYPHS"]
 MAX_GLYPHS = 20000
 _GLYPHS: dict = {}
 _LAYOUTS: dict = {}
+#: Set when a glyph-level call failed at draw time: from then on the plain Agg renderer is used.
+_DISABLED = False
 
 
 def supported() -> bool:
@@ -40,6 +45,8 @@ def supported() -> bool:
     try:
         from matplotlib.ft2font import FT2Font, RenderMode  # noqa: F401
     except ImportError:  # pragma: no cover - older matplotlib
+        return False
+    if _DISABLED:
         return False
     return all(hasattr(FT2Font, name) for name in ("_layout", "_render_glyph", "_set_transform")) and hasattr(
         RendererAgg, "_draw_text_glyphs_and_boxes")
@@ -112,12 +119,28 @@ class GlyphCachingCanvas(FigureCanvasAgg):
     """FigureCanvasAgg whose renderer reuses text layouts and glyph bitmaps (see module docstring)."""
 
     def get_renderer(self):
+        if _DISABLED:
+            if isinstance(getattr(self, "renderer", None), _CachingRenderer):
+                self._lastKey = None  # the plain renderer from here on
+            return super().get_renderer()
         w, h = self.get_width_height(physical=True)
         key = w, h, self.figure.dpi
-        if self._lastKey != key:
+        if self._lastKey != key or not isinstance(getattr(self, "renderer", None), _CachingRenderer):
             self.renderer = _CachingRenderer(w, h, self.figure.dpi)
             self._lastKey = key
         return self.renderer
+
+    def draw(self):
+        global _DISABLED
+        if not _DISABLED:
+            try:
+                return super().draw()
+            except (AttributeError, TypeError, ValueError, IndexError, KeyError) as exc:
+                _DISABLED = True
+                clear()
+                warnings.warn(f"ecatlab explorer: the cached text renderer failed ({type(exc).__name__}: {exc}); "
+                              "drawing with matplotlib's plain Agg renderer from now on", RuntimeWarning, stacklevel=2)
+        return super().draw()
 
 
 def clear() -> None:
