@@ -495,7 +495,7 @@ def test_rebuild_keeps_no_stale_content(table):
     assert ex.state.pathway.name == "orr-4e"
     assert (len(ex.view.ax.lines), len(ex.view.ax.collections), len(ex.view.ax.texts), len(ex.view.ax.artists)) == counts
     assert [t.get_rotation() for t in ex.view.ax.get_xticklabels()] == upright
-    assert [t.get_text() for t in ex.view.ax.get_xticklabels()] == ["O₂(g)", "OOH*", "O*", "OH*", "2\u2009H₂O(l)"]
+    assert [t.get_text() for t in ex.view.ax.get_xticklabels()] == ["O₂(g)", "OOH\u2217", "O\u2217", "OH\u2217", "2\u2009H₂O(l)"]
     assert len(ex.view.ax.artists) == 1 and ex.view._legend in ex.view.ax.artists  # one legend, the current one
     labels = [t.get_text() for t in ex.view._legend.texts]
     assert labels[0] == r"surface   $U_\mathrm{L}$ (V vs RHE)"
