@@ -516,16 +516,16 @@ def _dense_grouped(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_row
     order = cols[:n_cols]
     if len(np.unique(order)) != n_cols:
         return None
-    if not (cols.reshape(n_rows, n_cols) == order).all():
-        return None
-    if not (rows[::n_cols] == np.arange(n_rows, dtype=rows.dtype)).all() or not (rows.reshape(n_rows, n_cols) == rows[::n_cols, None]).all():
-        return None
     inverse = np.argsort(order)  # position within a surface's rows of species 0, 1, ...
-    table = values.reshape(n_rows, n_cols)
+    table, species, surfaces = values.reshape(n_rows, n_cols), cols.reshape(n_rows, n_cols), rows.reshape(n_rows, n_cols)
     out = np.empty((n_cols, n_rows))  # species-major: the transpose is the Fortran-ordered matrix
-    block = 1 << 13  # rows per block: the block stays in cache while it is transposed
+    block = 1 << 13  # surfaces per block: checked and transposed while in cache
     for start in range(0, n_rows, block):
-        out[:, start : start + block] = table[start : start + block, inverse].T
+        stop = min(start + block, n_rows)
+        expected = np.arange(start, stop, dtype=surfaces.dtype)[:, None]
+        if not ((species[start:stop] == order).all() and (surfaces[start:stop] == expected).all()):
+            return None
+        out[:, start:stop] = table[start:stop, inverse].T
     dense = out.T
     dense.flags.writeable = False
     return dense
@@ -1193,8 +1193,8 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
             continue
         if frame[col].dtype == np.float64:  # the usual case: one pass proves the column clean
             values = frame[col].to_numpy()
-            with np.errstate(invalid="ignore"):
-                if bool(np.less_equal(np.abs(values), ENERGY_BOUND_EV).all()):  # False for NaN and inf
+            with np.errstate(invalid="ignore"):  # two reductions, no temporary array; NaN makes both False
+                if len(values) and bool(values.min() >= -ENERGY_BOUND_EV) and bool(values.max() <= ENERGY_BOUND_EV):
                     numeric[col] = values
                     all_finite.add(col)
                     continue
