@@ -511,7 +511,7 @@ def _dense_grouped(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_row
     """The dense matrix of :func:`_dense` for the usual layout, without a scatter: every surface's
     rows together (surface codes 0, 0, ..., 1, 1, ...), each with all species in one common order.
     ``None`` when the table has another layout (the caller scatters)."""
-    if n_rows == 0 or n_cols == 0 or len(values) != n_rows * n_cols:
+    if n_rows < 1 << 15 or n_cols == 0 or len(values) != n_rows * n_cols:  # small tables: the scatter is as fast
         return None
     order = cols[:n_cols]
     if len(np.unique(order)) != n_cols:
@@ -519,7 +519,7 @@ def _dense_grouped(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_row
     inverse = np.argsort(order)  # position within a surface's rows of species 0, 1, ...
     table, species, surfaces = values.reshape(n_rows, n_cols), cols.reshape(n_rows, n_cols), rows.reshape(n_rows, n_cols)
     out = np.empty((n_cols, n_rows))  # species-major: the transpose is the Fortran-ordered matrix
-    block = 1 << 13  # surfaces per block: checked and transposed while in cache
+    block = 1 << 11  # surfaces per block: checked and transposed while in cache
     for start in range(0, n_rows, block):
         stop = min(start + block, n_rows)
         expected = np.arange(start, stop, dtype=surfaces.dtype)[:, None]
@@ -685,7 +685,7 @@ def _release_memory() -> None:
             pass
 
 
-_BIG = 200_000  # rows from which memory is handed back between steps
+_BIG = 1_000_000  # rows from which memory is handed back between steps
 
 
 def _pyarrow():
@@ -1103,7 +1103,7 @@ def _count_note(mask: np.ndarray) -> str:
     return f" ({n:,} rows in all)" if n > _MAX_ROWS_NAMED else ""
 
 
-def _numbers(frame: pd.DataFrame, col: str) -> tuple[np.ndarray, np.ndarray, object]:
+def _numbers(frame: Mapping[str, pd.Series], col: str) -> tuple[np.ndarray, np.ndarray, object]:
     """(values, not-a-number mask, echo function) of an energy column; empty cells are NaN."""
     column = frame[col]
     if column.dtype == np.float64:
@@ -1130,18 +1130,18 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
                 raise EnergyTableError(label, f"columns {_cut(seen[low])} and {_cut(col)} are the same (headers are case-insensitive); keep one", column=str(col))
             seen[low] = col
             rename[col] = _CANONICAL[low]
-    frame = raw.rename(columns=rename)
+    n = len(raw)
+    frame = {rename.get(col, col): raw.iloc[:, i] for i, col in enumerate(raw.columns)}  # name -> column, no frame copy
     raw_columns = [str(c) for c in raw.columns]
     del raw  # from here on ``frame`` holds the input; columns are dropped once encoded
-    missing = [c for c in ("surface", "species") if c not in frame.columns]
+    missing = [c for c in ("surface", "species") if c not in frame]
     if missing:
         raise EnergyTableError(label, f"missing column(s) {missing}; found {_names(raw_columns)}; required: surface, species and G or E")
-    if "G" not in frame.columns and "E" not in frame.columns:
+    if "G" not in frame and "E" not in frame:
         raise EnergyTableError(label, f"needs a column G (free energy, eV) or E (electronic energy, eV); found {_names(raw_columns)}")
-    if len(frame) == 0:
+    if n == 0:
         raise EnergyTableError(label, "has a header but no rows")
     loc = locations
-    n = len(frame)
 
     # -- surfaces: checked once per distinct name -------------------------------------------------
     surface_codes, distinct = _encode_text(frame["surface"])
@@ -1149,15 +1149,15 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
     _text_checks(label, loc, surface_codes, cleaned, masks, "surface")
     surface_codes, surface_names = _merge_codes(surface_codes, cleaned, changed)
     del distinct, cleaned
-    extra_columns = [c for c in frame.columns if c not in ("surface", "species", "G")]
-    frame = frame.drop(columns=["surface"])  # the per-cell text is no longer needed
+    extra_columns = [c for c in frame if c not in ("surface", "species", "G")]
+    del frame["surface"]  # the per-cell text is no longer needed
     if n >= _BIG:
         _release_memory()
 
     # -- species: parsed once per distinct text -------------------------------------------------------
     species_codes, distinct = _encode_text(frame["species"])
     species_texts, _, *_ignored = _clean_distinct(distinct)
-    frame = frame.drop(columns=["species"])
+    del frame["species"]
     keys = []
     for j, text in enumerate(species_texts):
         try:
@@ -1189,7 +1189,7 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
     numeric: dict[str, np.ndarray] = {}
     all_finite: set[str] = set()  # columns whose every value is a finite number within the bound
     for col in _NUMERIC:
-        if col not in frame.columns:
+        if col not in frame:
             continue
         if frame[col].dtype == np.float64:  # the usual case: one pass proves the column clean
             values = frame[col].to_numpy()
