@@ -553,7 +553,9 @@ def _order_by_first(codes: np.ndarray, n_values: int) -> tuple[np.ndarray, np.nd
 def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
     """(codes, distinct values) of a text column in order of first appearance; missing -> ''.
 
-    Arrow-backed strings are dictionary-encoded by Arrow in one pass; Categoricals (the C parser
+    Arrow-backed strings are coded by runs of equal values (:func:`_encode_runs`: only the first
+    row of each run is hashed, or none when those are proven distinct), else dictionary-encoded by
+    Arrow in one pass; Categoricals (the C parser
     hands the species column over as one) use their codes; anything else goes through
     :func:`pandas.factorize`. The distinct values come back as a pyarrow string array when pyarrow
     is installed, else as an object ndarray (not yet stripped).
