@@ -502,6 +502,35 @@ def _dense(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_rows: int, 
     return dense
 
 
+def _small_code_type(n_values: int) -> type:
+    """Smallest signed integer type that holds codes 0..n_values-1."""
+    return np.int8 if n_values < 2**7 else np.int16 if n_values < 2**15 else np.int32 if n_values < 2**31 else np.int64
+
+
+def _dense_grouped(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_rows: int, n_cols: int) -> np.ndarray | None:
+    """The dense matrix of :func:`_dense` for the usual layout, without a scatter: every surface's
+    rows together (surface codes 0, 0, ..., 1, 1, ...), each with all species in one common order.
+    ``None`` when the table has another layout (the caller scatters)."""
+    if n_rows < 1 << 15 or n_cols == 0 or len(values) != n_rows * n_cols:  # small tables: the scatter is as fast
+        return None
+    order = cols[:n_cols]
+    if len(np.unique(order)) != n_cols:
+        return None
+    inverse = np.argsort(order)  # position within a surface's rows of species 0, 1, ...
+    table, species, surfaces = values.reshape(n_rows, n_cols), cols.reshape(n_rows, n_cols), rows.reshape(n_rows, n_cols)
+    out = np.empty((n_cols, n_rows))  # species-major: the transpose is the Fortran-ordered matrix
+    block = 1 << 11  # surfaces per block: checked and transposed while in cache
+    for start in range(0, n_rows, block):
+        stop = min(start + block, n_rows)
+        expected = np.arange(start, stop, dtype=surfaces.dtype)[:, None]
+        if not ((species[start:stop] == order).all() and (surfaces[start:stop] == expected).all()):
+            return None
+        out[:, start:stop] = table[start:stop, inverse].T
+    dense = out.T
+    dense.flags.writeable = False
+    return dense
+
+
 def _categorical(codes: np.ndarray, categories: pd.Index) -> pd.Categorical:
     """Categorical from codes and categories known to be distinct (skips pandas' uniqueness check)."""
     fast = getattr(pd.CategoricalDtype, "_from_fastpath", None)
@@ -524,7 +553,9 @@ def _order_by_first(codes: np.ndarray, n_values: int) -> tuple[np.ndarray, np.nd
 def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
     """(codes, distinct values) of a text column in order of first appearance; missing -> ''.
 
-    Arrow-backed strings are dictionary-encoded by Arrow in one pass; Categoricals (the C parser
+    Arrow-backed strings are coded by runs of equal values (:func:`_encode_runs`: only the first
+    row of each run is hashed, or none when those are proven distinct), else dictionary-encoded by
+    Arrow in one pass; Categoricals (the C parser
     hands the species column over as one) use their codes; anything else goes through
     :func:`pandas.factorize`. The distinct values come back as a pyarrow string array when pyarrow
     is installed, else as an object ndarray (not yet stripped).
@@ -532,6 +563,9 @@ def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
     arr = column.array
     pa_array = getattr(arr, "_pa_array", None)
     if pa_array is not None:
+        runs = _encode_runs(pa_array)
+        if runs is not None:
+            return runs
         encoded = pa_array.dictionary_encode()
         chunks = encoded.chunks
         if not chunks:
@@ -562,6 +596,79 @@ def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
     return codes, _as_distinct(values)
 
 
+def _encode_runs(chunked) -> tuple[np.ndarray, object] | None:
+    """(codes, distinct values) of an Arrow string column whose equal values mostly stand together.
+
+    A row equal to the row above gets its code; only the first row of each run is hashed. When the
+    run heads are proven distinct by :func:`_proven_distinct` (the usual table: each surface's rows
+    together) the codes are the run numbers, else the heads are dictionary-encoded. ``None`` (the
+    caller encodes every row) for missing cells or when runs are short (rows not grouped).
+    """
+    pa = _pyarrow()
+    n = len(chunked)
+    if pa is None or n < 2 or chunked.null_count:
+        return None
+    pc = pa.compute
+    head = np.empty(n, dtype=bool)
+    head[0] = True
+    head[1:] = pc.not_equal(chunked[1:], chunked[:-1]).to_numpy(zero_copy_only=False)
+    starts = np.flatnonzero(head)
+    if len(starts) > n // 2:  # not grouped: hashing every row is cheaper
+        return None
+    heads = chunked.filter(pa.array(head)).combine_chunks()
+    del head
+    if _proven_distinct(heads):
+        head_codes, dictionary = np.arange(len(heads), dtype=np.int32), heads
+    else:
+        encoded = heads.dictionary_encode()  # in order of first appearance
+        head_codes, dictionary = np.asarray(encoded.indices, dtype=np.int32), encoded.dictionary
+    lengths = np.diff(starts, append=n)
+    return np.repeat(head_codes, lengths), dictionary
+
+
+_FINGERPRINT_BASE = 0x9E3779B97F4A7C15  # odd, so invertible modulo 2**64
+
+
+def _proven_distinct(strings) -> bool:
+    """True when the values of an Arrow string array are pairwise distinct, proven without hashing
+    them as text.
+
+    Each value gets a 64-bit fingerprint, the polynomial sum_j (byte_j + 1) R**j over its bytes
+    (modulo 2**64, R odd), plus its length; equal strings have equal fingerprints, so distinct
+    fingerprints prove distinct strings. All fingerprints come from one pass over the array's byte
+    buffer (running powers of R and of its inverse). False means "not proven" (real duplicates or
+    a fingerprint collision); the caller then hashes the text.
+    """
+    pa = _pyarrow()
+    n = len(strings)
+    if n < 2:
+        return True
+    if strings.null_count or not (pa.types.is_string(strings.type) or pa.types.is_large_string(strings.type)):
+        return False
+    buffers = strings.buffers()
+    offset_type = np.int64 if pa.types.is_large_string(strings.type) else np.int32
+    offsets = np.frombuffer(buffers[1], dtype=offset_type)[strings.offset : strings.offset + n + 1].astype(np.int64)
+    lo, hi = int(offsets[0]), int(offsets[-1])
+    starts = offsets[:-1] - lo
+    data = np.frombuffer(buffers[2], dtype=np.uint8)[lo:hi] if hi > lo else np.zeros(0, dtype=np.uint8)
+    terms = np.full(hi - lo + 1, np.uint64(_FINGERPRINT_BASE))
+    terms[0] = 1
+    np.cumprod(terms, out=terms)  # R**j at byte j of the buffer (integer arrays wrap modulo 2**64)
+    terms[:-1] *= data + np.uint64(1)
+    terms[-1] = 0  # a trailing empty string reduces over this zero
+    fingerprint = np.add.reduceat(terms, starts)  # sum over each value's bytes (an empty value: fixed below)
+    terms[:] = np.uint64(pow(_FINGERPRINT_BASE, -1, 2**64))
+    terms[0] = 1
+    np.cumprod(terms, out=terms)  # R**-j: shifts each sum to start at R**0
+    fingerprint *= terms[starts]
+    del terms
+    lengths = np.diff(offsets)
+    fingerprint[lengths == 0] = 0
+    fingerprint ^= lengths.astype(np.uint64) << np.uint64(48)
+    fingerprint.sort()
+    return not bool(np.any(fingerprint[1:] == fingerprint[:-1]))
+
+
 def _release_memory() -> None:
     """Hand freed memory back to the operating system (Arrow's pool; glibc's heap on Linux).
 
@@ -580,7 +687,7 @@ def _release_memory() -> None:
             pass
 
 
-_BIG = 200_000  # rows from which memory is handed back between steps
+_BIG = 1_000_000  # rows from which memory is handed back between steps
 
 
 def _pyarrow():
@@ -615,8 +722,14 @@ def _clean_distinct(distinct) -> tuple[np.ndarray, bool, np.ndarray, np.ndarray,
         stripped = pc.utf8_trim_whitespace(distinct)
         changed = bool(len(distinct)) and not pc.all(pc.equal(stripped, distinct)).as_py()
         lengths = pc.utf8_length(stripped).to_numpy(zero_copy_only=False)
-        empty = (lengths == 0) | pc.is_in(pc.utf8_lower(stripped), value_set=pa.array(["nan", "none"])).to_numpy(zero_copy_only=False)
-        control = pc.match_substring_regex(stripped, _CONTROL.pattern).to_numpy(zero_copy_only=False)
+        empty = lengths == 0
+        word = np.flatnonzero((lengths == 3) | (lengths == 4))  # only these can spell nan / none
+        if len(word):
+            empty[word] = pc.is_in(pc.utf8_lower(stripped.take(pa.array(word))), value_set=pa.array(["nan", "none"])).to_numpy(zero_copy_only=False)
+        if _has_control_byte(stripped):
+            control = pc.match_substring_regex(stripped, _CONTROL.pattern).to_numpy(zero_copy_only=False)
+        else:
+            control = np.zeros(len(stripped), dtype=bool)
         return stripped.to_numpy(zero_copy_only=False), changed, empty, control, lengths > MAX_NAME_LENGTH
     values = np.asarray([str(v).strip() for v in distinct], dtype=object)
     changed = any(v != str(o) for v, o in zip(values, distinct))
@@ -624,6 +737,17 @@ def _clean_distinct(distinct) -> tuple[np.ndarray, bool, np.ndarray, np.ndarray,
     empty = np.array([v == "" or v.lower() in ("nan", "none") for v in values], dtype=bool)
     control = np.array([_CONTROL.search(v) is not None for v in values], dtype=bool)
     return values, changed, empty, control, lengths > MAX_NAME_LENGTH
+
+
+def _has_control_byte(strings) -> bool:
+    """Whether the bytes of an Arrow string array could hold a control character (a byte below 0x20
+    or 0x7f; UTF-8 encodes no other character with such a byte). Looks at the value buffer in one
+    pass; True may be a false alarm (bytes outside the array's slice), never a miss."""
+    buffers = strings.buffers()
+    if len(buffers) < 3 or buffers[2] is None:
+        return False
+    data = np.frombuffer(buffers[2], dtype=np.uint8)
+    return bool(((data < 0x20) | (data == 0x7F)).any())
 
 
 def _merge_codes(codes: np.ndarray, cleaned: np.ndarray, changed: bool) -> tuple[np.ndarray, np.ndarray]:
@@ -981,7 +1105,7 @@ def _count_note(mask: np.ndarray) -> str:
     return f" ({n:,} rows in all)" if n > _MAX_ROWS_NAMED else ""
 
 
-def _numbers(frame: pd.DataFrame, col: str) -> tuple[np.ndarray, np.ndarray, object]:
+def _numbers(frame: Mapping[str, pd.Series], col: str) -> tuple[np.ndarray, np.ndarray, object]:
     """(values, not-a-number mask, echo function) of an energy column; empty cells are NaN."""
     column = frame[col]
     if column.dtype == np.float64:
@@ -1008,18 +1132,18 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
                 raise EnergyTableError(label, f"columns {_cut(seen[low])} and {_cut(col)} are the same (headers are case-insensitive); keep one", column=str(col))
             seen[low] = col
             rename[col] = _CANONICAL[low]
-    frame = raw.rename(columns=rename)
+    n = len(raw)
+    frame = {rename.get(col, col): raw.iloc[:, i] for i, col in enumerate(raw.columns)}  # name -> column, no frame copy
     raw_columns = [str(c) for c in raw.columns]
     del raw  # from here on ``frame`` holds the input; columns are dropped once encoded
-    missing = [c for c in ("surface", "species") if c not in frame.columns]
+    missing = [c for c in ("surface", "species") if c not in frame]
     if missing:
         raise EnergyTableError(label, f"missing column(s) {missing}; found {_names(raw_columns)}; required: surface, species and G or E")
-    if "G" not in frame.columns and "E" not in frame.columns:
+    if "G" not in frame and "E" not in frame:
         raise EnergyTableError(label, f"needs a column G (free energy, eV) or E (electronic energy, eV); found {_names(raw_columns)}")
-    if len(frame) == 0:
+    if n == 0:
         raise EnergyTableError(label, "has a header but no rows")
     loc = locations
-    n = len(frame)
 
     # -- surfaces: checked once per distinct name -------------------------------------------------
     surface_codes, distinct = _encode_text(frame["surface"])
@@ -1027,15 +1151,15 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
     _text_checks(label, loc, surface_codes, cleaned, masks, "surface")
     surface_codes, surface_names = _merge_codes(surface_codes, cleaned, changed)
     del distinct, cleaned
-    extra_columns = [c for c in frame.columns if c not in ("surface", "species", "G")]
-    frame = frame.drop(columns=["surface"])  # the per-cell text is no longer needed
+    extra_columns = [c for c in frame if c not in ("surface", "species", "G")]
+    del frame["surface"]  # the per-cell text is no longer needed
     if n >= _BIG:
         _release_memory()
 
     # -- species: parsed once per distinct text -------------------------------------------------------
     species_codes, distinct = _encode_text(frame["species"])
     species_texts, _, *_ignored = _clean_distinct(distinct)
-    frame = frame.drop(columns=["species"])
+    del frame["species"]
     keys = []
     for j, text in enumerate(species_texts):
         try:
@@ -1053,7 +1177,8 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
             raise EnergyTableError(label, problem, rows=first, column="species")
         keys.append(sp.key)
     key_codes, key_names = pd.factorize(np.array(keys, dtype=object))
-    species_codes = key_codes[species_codes]
+    if not np.array_equal(key_codes, np.arange(len(species_texts))):  # texts that name the same adsorbate share a code
+        species_codes = key_codes.astype(_small_code_type(len(key_names)))[species_codes]
     key_names = np.asarray(key_names, dtype=object)
     parsed = [Species.parse(k) for k in key_names]
     for k, (key, sp) in enumerate(zip(key_names, parsed)):  # reachability from the references
@@ -1064,9 +1189,17 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
 
     # -- numbers --------------------------------------------------------------------------------
     numeric: dict[str, np.ndarray] = {}
+    all_finite: set[str] = set()  # columns whose every value is a finite number within the bound
     for col in _NUMERIC:
-        if col not in frame.columns:
+        if col not in frame:
             continue
+        if frame[col].dtype == np.float64:  # the usual case: one pass proves the column clean
+            values = frame[col].to_numpy()
+            with np.errstate(invalid="ignore"):  # two reductions, no temporary array; NaN makes both False
+                if len(values) and bool(values.min() >= -ENERGY_BOUND_EV) and bool(values.max() <= ENERGY_BOUND_EV):
+                    numeric[col] = values
+                    all_finite.add(col)
+                    continue
         values, not_number, echo = _numbers(frame, col)
         if not_number.any():
             examples = ", ".join(echo(not_number))
@@ -1083,13 +1216,14 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
                 column=col,
             )
         numeric[col] = values
-    has_g = np.isfinite(numeric["G"]) if "G" in numeric else np.zeros(n, bool)
-    has_e = np.isfinite(numeric["E"]) if "E" in numeric else np.zeros(n, bool)
-    neither = ~has_g & ~has_e
-    if neither.any():
-        raise EnergyTableError(label, "no energy: fill G (free energy) or E (electronic energy), in eV" + _count_note(neither), rows=loc[neither],
-                               column="G" if "G" in numeric else "E")
-    both = has_g & has_e
+    has_g = (np.ones(n, bool) if "G" in all_finite else np.isfinite(numeric["G"])) if "G" in numeric else np.zeros(n, bool)
+    has_e = (np.ones(n, bool) if "E" in all_finite else np.isfinite(numeric["E"])) if "E" in numeric else np.zeros(n, bool)
+    if not ("G" in all_finite or "E" in all_finite):  # else every row has an energy
+        neither = ~has_g & ~has_e
+        if neither.any():
+            raise EnergyTableError(label, "no energy: fill G (free energy) or E (electronic energy), in eV" + _count_note(neither), rows=loc[neither],
+                                   column="G" if "G" in numeric else "E")
+    both = has_g & has_e if ("G" in numeric and "E" in numeric) else np.zeros(0, bool)
     if both.any():
         raise EnergyTableError(label, "both G and E given; give one of them per row (G already contains the corrections)", rows=loc[both])
     any_e = bool(has_e.any())
@@ -1159,8 +1293,11 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
                 notes.append(f"solvation empty on {empty_solv} rows with E: taken as 0 eV")
     if has_g.any():
         notes.append(f"G taken as given for {int(has_g.sum())} rows")
-    dense = _dense(surface_codes, species_codes, G, len(surface_names), len(key_names))
-    if np.count_nonzero(~np.isnan(dense)) != n:
+    dense = _dense_grouped(surface_codes, species_codes, G, len(surface_names), len(key_names))  # no duplicates possible
+    scattered = dense is None
+    if scattered:
+        dense = _dense(surface_codes, species_codes, G, len(surface_names), len(key_names))
+    if scattered and np.count_nonzero(~np.isnan(dense)) != n:
         pair = surface_codes.astype(np.int64) * (len(key_names) + 1) + species_codes
         dup = pd.Series(pair).duplicated(keep=False).to_numpy()
         first = pair[dup][0]

@@ -183,3 +183,105 @@ def test_large_file_matches_a_plain_pandas_read(tmp_path):
                                   check_names=False, check_index_type=False, check_column_type=False)
     assert table.surfaces == list(dict.fromkeys(frame["surface"]))  # order of first appearance
     assert list(table.frame["line"]) == list(range(2, 3 * n + 2))
+
+
+# -- the fast paths of the CSV reader (runs of equal surface names, the grouped dense matrix) ----------
+def _pivot(path):
+    """Independent reference: pandas' own read_csv + pivot (no ecatlab code)."""
+    raw = pd.read_csv(path, dtype={"surface": str, "species": str})
+    return raw.pivot(index="surface", columns="species", values="G")
+
+
+def _write_grouped(path, n_surfaces, species, order_per_surface=None, seed=0):
+    rng = np.random.default_rng(seed)
+    g = np.round(rng.uniform(-1.5, 4.5, (n_surfaces, len(species))), 6)
+    with open(path, "w") as fh:
+        fh.write("surface,species,G\n")
+        for i in range(n_surfaces):
+            order = order_per_surface(i) if order_per_surface else range(len(species))
+            fh.writelines(f"s{i},{species[j]},{float(g[i, j])!r}\n" for j in order)
+    return g
+
+
+@pytest.mark.parametrize("n_surfaces", [40_000, 500])  # 40,000: the grouped (no scatter) path; 500: the scatter
+def test_grouped_table_matches_pandas_pivot(tmp_path, monkeypatch, n_surfaces):
+    import ecatlab.energies as energies
+
+    path = tmp_path / "grouped.csv"
+    species = ["OH*", "O*", "OOH*"]
+    _write_grouped(path, n_surfaces, species, order_per_surface=lambda i: (2, 0, 1))
+    scattered = []
+    monkeypatch.setattr(energies, "_dense", lambda *a, _dense=energies._dense: scattered.append(1) or _dense(*a))
+    table = read_energies(path)
+    assert bool(scattered) == (n_surfaces < 1 << 15)  # which path built the matrix
+    ref = _pivot(path).loc[table.surfaces, table.species]
+    assert table.species == ["OOH*", "OH*", "O*"]  # order of first appearance
+    assert table.surfaces[:3] == ["s0", "s1", "s2"] and table.n_surfaces == n_surfaces
+    np.testing.assert_array_equal(table.matrix.to_numpy(), ref.to_numpy())
+    assert table.frame["line"].iloc[-1] == 1 + 3 * n_surfaces  # header on line 1
+
+
+def test_species_order_changing_between_surfaces_falls_back_to_the_scatter(tmp_path, monkeypatch):
+    import ecatlab.energies as energies
+
+    path = tmp_path / "mixed.csv"
+    species = ["OH*", "O*", "OOH*"]
+    _write_grouped(path, 40_000, species, order_per_surface=lambda i: (0, 1, 2) if i != 39_999 else (1, 2, 0))
+    scattered = []
+    monkeypatch.setattr(energies, "_dense", lambda *a, _dense=energies._dense: scattered.append(1) or _dense(*a))
+    table = read_energies(path)
+    assert scattered
+    ref = _pivot(path).loc[table.surfaces, table.species]
+    np.testing.assert_array_equal(table.matrix.to_numpy(), ref.to_numpy())
+
+
+def test_surface_rows_split_into_several_runs(tmp_path):
+    # s1 comes back after s2: the run heads are not distinct, so the names are hashed; the codes
+    # must still put both runs of s1 on one row of the matrix (reference: pandas pivot).
+    path = write(tmp_path, "surface,species,G\ns1,OH*,0.5\ns2,OH*,0.7\ns2,O*,1.7\ns1,O*,1.5\ns3,OH*,0.9\ns1,OOH*,3.9\n")
+    table = read_energies(path)
+    assert table.surfaces == ["s1", "s2", "s3"]
+    ref = _pivot(path).loc[table.surfaces, table.species]
+    np.testing.assert_array_equal(table.matrix.to_numpy(), ref.to_numpy())
+
+
+def test_duplicate_in_a_later_run_names_both_file_lines(tmp_path):
+    path = write(tmp_path, "surface,species,G\n# note\ns1,OH*,0.5\ns1,O*,1.5\ns2,OH*,0.7\ns1,OH*,0.6\n")
+    with pytest.raises(EnergyTableError) as err:
+        read_energies(path)
+    message = str(err.value)
+    assert "duplicate" in message and "line 3" in message and "line 6" in message  # the file's own lines (comment counted)
+
+
+def test_names_that_differ_only_by_surrounding_blanks_are_one_surface(tmp_path):
+    path = write(tmp_path, "surface,species,G\nPt(111),OH*,0.5\n Pt(111) ,O*,1.5\nAu,OH*,1.0\n")
+    table = read_energies(path)
+    assert table.surfaces == ["Pt(111)", "Au"]
+    assert table.matrix.loc["Pt(111)", "O*"] == 1.5
+
+
+def test_control_character_in_a_name_is_refused_with_its_line(tmp_path):
+    path = tmp_path / "ctrl.csv"
+    path.write_bytes(b"surface,species,G\nPt,OH*,0.5\nP\x07t,OH*,0.6\n")
+    with pytest.raises(EnergyTableError) as err:
+        read_energies(path)
+    assert "line 3" in str(err.value) and "control character" in str(err.value) and "surface" in str(err.value)
+
+
+def test_nan_and_none_as_surface_names_are_refused(tmp_path):
+    for bad in ("nan", "None", "NaN"):
+        path = write(tmp_path, f"surface,species,G\nPt,OH*,0.5\n{bad},OH*,0.6\n", name=f"{bad}.csv")
+        with pytest.raises(EnergyTableError, match="line 3"):
+            read_energies(path)
+    table = read_energies(write(tmp_path, "surface,species,G\nnano,OH*,0.5\nNone2,OH*,0.6\n", name="ok.csv"))
+    assert table.surfaces == ["nano", "None2"]
+
+
+def test_energy_beyond_the_bound_or_not_finite_named_by_line(tmp_path):
+    for value in ("51.0", "-50.5", "inf"):
+        path = write(tmp_path, f"surface,species,G\nPt,OH*,0.5\nAu,OH*,{value}\n", name="b.csv")
+        with pytest.raises(EnergyTableError) as err:
+            read_energies(path)
+        assert "line 3" in str(err.value) and "column 'G'" in str(err.value)
+    table = read_energies(write(tmp_path, "surface,species,G\nPt,OH*,50.0\nAu,OH*,-50.0\n", name="edge.csv"))
+    assert table.matrix["OH*"].tolist() == [50.0, -50.0]  # the bound itself is accepted (|G| <= 50 eV)

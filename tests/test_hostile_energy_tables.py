@@ -88,6 +88,11 @@ BAD_FILES = [
     ("bad-species", HEAD + b"A,OH,0.1\n", ["line 2", "needs its phase"], 2, "species"),
     ("molecule-as-species", HEAD + b"A,CO(g),0.1\n", ["line 2", "not an adsorbate"], 2, "species"),
     ("formula-injection-species", HEAD + b"A,=cmd|' /C calc'!A0,0.1\n", ["line 2"], 2, "species"),
+    ("delete-character-name", HEAD + b"ok,OH*,0.1\nA\x7fB,OH*,0.1\n", ["line 3", "control character", "\\x7f"], 3, "surface"),
+    ("none-name-after-good-runs", HEAD + b"A,OH*,0.1\nA,O*,1.1\nB,OH*,0.2\nNone,OH*,0.3\n", ["line 5", "empty surface name"], 5, "surface"),
+    ("duplicate-in-a-later-run", HEAD + b"A,OH*,0.1\nA,O*,1.1\nB,OH*,0.2\n# again\nA,OH*,0.3\n", ["line 2, line 6", "duplicate rows"], None, None),
+    ("infinite-after-finite", HEAD + b"A,OH*,0.1\nB,OH*,0.2\nC,OH*,-inf\n", ["line 4", "not a finite number"], 4, "G"),
+    ("beyond-bound-after-finite", HEAD + b"A,OH*,0.1\nB,OH*,0.2\nC,OH*,-50.01\n", ["line 4", "plausibility bound"], 4, "G"),
 ]
 
 
@@ -269,3 +274,12 @@ def test_engine_refuses_bad_conditions(table, kwargs):
         for call in (lambda: step_free_energies(table, "orr-4e", **kwargs), lambda: limiting_potentials(table, "orr-4e", **kwargs)):
             with pytest.raises(ConditionError):
                 call()
+
+
+def test_non_ascii_names_are_not_control_characters(tmp_path):
+    # UTF-8 encodes characters beyond ASCII with bytes >= 0x80 only: no false "control character"
+    path = tmp_path / "names.csv"
+    path.write_bytes(HEAD + "Pt₃Ni(111),OH*,0.1\nCu—step,OH*,0.2\nÅ-site,OH*,0.3\n".encode("utf-8"))
+    table = read_energies(path)
+    assert table.surfaces == ["Pt₃Ni(111)", "Cu—step", "Å-site"]
+    assert table.frame["line"].tolist() == [2, 3, 4]

@@ -63,7 +63,7 @@ from ecatlab.che.conditions import SCALES, check_pH, check_potential, check_scal
 from ecatlab.constants import STANDARD_TEMPERATURE, thermal_voltage_per_pH
 from ecatlab.energies import EnergyTable, as_energy_table
 from ecatlab.errors import ConditionError, ConditionsWarning, MissingDataWarning, MissingSpeciesError, PathwayError
-from ecatlab.notation import ELECTRON, HYDROXIDE, PROTON, Pathway, Species, Step
+from ecatlab.notation import _BALANCE_TOLERANCE, ELECTRON, HYDROXIDE, PROTON, Pathway, Species, Step
 from ecatlab.pathways import resolve
 from ecatlab.references import ReferenceScheme
 
@@ -228,32 +228,88 @@ def compile_steps(steps: Sequence[Step], adsorbates: Sequence[str], scheme: Refe
 
 
 def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: ReferenceScheme, pathway) -> CompiledPathway:
-    index = {k: j for j, k in enumerate(adsorbates)}
+    """Arrays of :class:`CompiledPathway` for ``steps``, assembled with numpy.
+
+    The steps are flattened into (step, signed coefficient, species) entries, reactants first, in
+    the order written; species are coded by (formula, phase) with ``pandas.factorize`` and each
+    distinct one is classified and looked up once; the net
+    coefficients (what :meth:`Step.net` gives: summed per species in that order, cancelling ones
+    dropped) and the per-step sums are accumulated with ``np.add.at``, which adds in index order, so
+    every float comes out as the step-by-step sums would give it.
+    """
     n = len(steps)
-    stoich = np.zeros((n, len(adsorbates)))
+    n_ads = len(adsorbates)
+    stoich = np.zeros((n, n_ads))
     mol = np.zeros(n)
     electrons = np.zeros(n)
     protons = np.zeros(n)
-    water = None  # G_rel(H2O(l)), needed only for OH- (looked up once, when a step has it)
+    # flat lists of existing objects only (no tuple per entry: on a big network a tuple per entry
+    # wakes the garbage collector over and over), reactants and products apart, then put in order
+    objects, signed, step_of = [], [], []
+    for side, sign in (("reactants", -1.0), ("products", 1.0)):
+        sides = [getattr(step, side) for step in steps]
+        objects += [sp for entries in sides for sp, _ in entries]
+        signed.append(sign * np.array([c for entries in sides for _, c in entries], dtype=float))
+        step_of.append(np.repeat(np.arange(n, dtype=np.int64) * 2 + (sign > 0), [len(entries) for entries in sides]))
+    if not objects:
+        return CompiledPathway(pathway, adsorbates, stoich, mol, electrons, protons)
+    order = np.argsort(np.concatenate(step_of), kind="stable")  # per step: reactants, then products, as written
+    step_of = np.concatenate(step_of)[order] // 2
+    signed = np.concatenate(signed)[order]
+    objects = [objects[j] for j in order]
+    formula_code, _ = pd.factorize(np.array([sp.formula for sp in objects], dtype=object))
+    phase_code, phases = pd.factorize(np.array([sp.phase for sp in objects], dtype=object))
+    species_of, _ = pd.factorize(formula_code.astype(np.int64) * len(phases) + phase_code)  # one code per (formula, phase)
+    n_species = int(species_of.max()) + 1
+    _, first = np.unique(species_of, return_index=True)  # first entry of each code 0, 1, ...
+    examples = [objects[j] for j in first]
+
+    # net coefficient per (step, species), pairs in order of first appearance (the order of Step.net)
+    pair = step_of * n_species + species_of
+    pair_code, pair_value = pd.factorize(pair)
+    net = np.zeros(len(pair_value))
+    np.add.at(net, pair_code, signed)  # 0.0 - c ... + c, in the written order
+    keep = np.abs(net) > _BALANCE_TOLERANCE
+    step_index = (pair_value // n_species)[keep]
+    species = (pair_value % n_species)[keep]
+    net = net[keep]
+
+    # each distinct species once: its kind, its column, its free-energy term per unit coefficient
+    column = np.full(n_species, -1, dtype=np.int64)
+    kind = np.zeros(n_species, dtype=np.int8)  # 0 other (site), 1 adsorbate, 2 molecule-like constant, 3 electron
+    constant = np.zeros(n_species)  # eV per unit coefficient (molecules, H+, OH-)
+    proton_sign = np.zeros(n_species)  # +1 OH-, -1 H+: protons consumed minus hydroxide consumed
+    index = {k: j for j, k in enumerate(adsorbates)}
     # G_rel(H+) at pH 0 is 1/2 G_rel(H2(g)) of the scheme (0 when H2(g) is a reference); the pH and
     # potential terms are added in CompiledPathway.affine.
     half_h2 = scheme.proton_electron_free_energy()
-    for i, step in enumerate(steps):
-        for sp, c in step.net().items():
-            if sp.is_adsorbate:
-                stoich[i, index[sp.key]] += c
-            elif sp.is_molecule:
-                mol[i] += c * scheme.molecule_free_energy(sp)
-            elif sp == ELECTRON:
-                electrons[i] -= c
-            elif sp == PROTON:
-                protons[i] -= c
-                mol[i] += c * half_h2
-            elif sp == HYDROXIDE:
-                if water is None:
-                    water = scheme.molecule_free_energy("H2O(l)")
-                protons[i] += c
-                mol[i] += c * (water - half_h2)
+    water = None  # G_rel(H2O(l)), needed only for OH- (looked up once, when a step has it)
+    used = np.zeros(n_species, dtype=bool)
+    used[species] = True
+    for code in np.flatnonzero(used):
+        sp = examples[code]
+        if sp.is_adsorbate:
+            kind[code], column[code] = 1, index[sp.key]
+        elif sp.is_molecule:
+            kind[code], constant[code] = 2, scheme.molecule_free_energy(sp)
+        elif sp == ELECTRON:
+            kind[code] = 3
+        elif sp == PROTON:
+            kind[code], constant[code], proton_sign[code] = 2, half_h2, -1.0
+        elif sp == HYDROXIDE:
+            if water is None:
+                water = scheme.molecule_free_energy("H2O(l)")
+            kind[code], constant[code], proton_sign[code] = 2, water - half_h2, 1.0
+
+    k = kind[species]
+    ads = k == 1
+    stoich[step_index[ads], column[species[ads]]] = net[ads]  # one entry per (step, adsorbate)
+    ec = k == 3
+    electrons[step_index[ec]] = -net[ec]  # one electron entry per step
+    const = k == 2
+    np.add.at(mol, step_index[const], net[const] * constant[species[const]])
+    charged = proton_sign[species] != 0
+    np.add.at(protons, step_index[charged], proton_sign[species[charged]] * net[charged])
     return CompiledPathway(pathway, adsorbates, stoich, mol, electrons, protons)
 
 
