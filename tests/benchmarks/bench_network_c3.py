@@ -28,6 +28,10 @@ import resource
 import sys
 import time
 
+import pathlib
+
+sys.path.insert(0, str(pathlib.Path(__file__).resolve().parents[1]))  # tests/: shared reference helpers
+
 import numpy as np
 import pandas as pd
 
@@ -73,33 +77,7 @@ def illustrative_table(n: int, seed: int = 3) -> EnergyTable:
     return EnergyTable.from_matrix(pd.DataFrame(rows).T, scheme=illustrative_scheme(), source="ILLUSTRATIVE invented C1/C2 table")
 
 
-def loop_compile(steps, adsorbates, scheme):
-    """The textbook way: one pass per step over ``Step.net()`` into (steps x adsorbates) arrays.
-
-    Same conventions as the engine: products positive; electrons and protons counted as consumed;
-    H+ costs 1/2 G(H2) of the scheme at pH 0, OH- costs G(H2O(l)) - 1/2 G(H2).
-    """
-    from ecatlab.notation import ELECTRON, HYDROXIDE, PROTON
-
-    index = {k: j for j, k in enumerate(adsorbates)}
-    stoich = np.zeros((len(steps), len(adsorbates)))
-    mol, electrons, protons = np.zeros(len(steps)), np.zeros(len(steps)), np.zeros(len(steps))
-    half_h2 = scheme.proton_electron_free_energy()
-    for i, step in enumerate(steps):
-        for sp, c in step.net().items():
-            if sp.is_adsorbate:
-                stoich[i, index[sp.key]] += c
-            elif sp.is_molecule:
-                mol[i] += c * scheme.molecule_free_energy(sp)
-            elif sp == ELECTRON:
-                electrons[i] -= c
-            elif sp == PROTON:
-                protons[i] -= c
-                mol[i] += c * half_h2
-            elif sp == HYDROXIDE:
-                protons[i] += c
-                mol[i] += c * (scheme.molecule_free_energy("H2O(l)") - half_h2)
-    return stoich, mol, electrons, protons
+from _loop_compile import loop_compile  # noqa: E402 - tests/ is on sys.path (below)
 
 
 def compare_compile(net, table, repeats: int = 3) -> bool:
