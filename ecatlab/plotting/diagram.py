@@ -57,7 +57,7 @@ import numpy as np
 
 from ecatlab.constants import STANDARD_TEMPERATURE
 from ecatlab.plotting.handles import Drawn
-from ecatlab.plotting.style import DASHES, HIGHLIGHT, PALETTE, preset, style_context
+from ecatlab.plotting.style import DASHES, HIGHLIGHT, PALETTE, pathway_title, preset, style_context
 
 __all__ = [
     "DiagramSeries",
@@ -644,7 +644,7 @@ def _title(ax, data: DiagramData, title, conditions: str | None, potential_text:
     if title is False:
         head = None
     elif title is None:
-        head = _pathway_title(data.pathway)
+        head = pathway_title(data.pathway)
     else:
         head = str(title)
     if conditions == "title":
@@ -658,14 +658,6 @@ def _title(ax, data: DiagramData, title, conditions: str | None, potential_text:
             ax.annotate(cap, xy=(0, 0), xycoords="axes fraction", xytext=(0, -8), textcoords="offset points",
                         ha="left", va="top", fontsize=small, color="#444444", annotation_clip=False,
                         gid="ecatlab-caption")
-
-
-def _pathway_title(pathway) -> str:
-    """A reader's title: the pathway's description (built-ins and documented pathways), else its name."""
-    text = (getattr(pathway, "description", "") or "").strip()
-    if not text:
-        return pathway.name
-    return text[0].upper() + text[1:]
 
 
 def _new_axes(ax, style):

@@ -24,7 +24,7 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Iterator
 
-__all__ = ["PALETTE", "DASHES", "MARKERS", "Preset", "PRESETS", "preset", "figure", "style_context", "MM_PER_INCH", "HIGHLIGHT"]
+__all__ = ["pathway_title", "PALETTE", "DASHES", "MARKERS", "Preset", "PRESETS", "preset", "figure", "style_context", "MM_PER_INCH", "HIGHLIGHT"]
 
 MM_PER_INCH = 25.4
 
@@ -125,3 +125,19 @@ def figure(name: str | Preset = "notebook", nrows: int = 1, ncols: int = 1, **kw
     with style_context(p):
         fig, ax = plt.subplots(nrows, ncols, figsize=kwargs.pop("figsize", p.figsize), **kwargs)
     return fig, ax
+
+
+def pathway_title(pathway, key: bool = False, width: int | None = None) -> str:
+    """A reader's title for a pathway: its description (built-ins and documented pathways), else its name.
+
+    ``key=True`` appends the pathway's key in brackets (traceable to the tables); ``width`` wraps the
+    text into lines of at most that many characters."""
+    text = (getattr(pathway, "description", "") or "").strip()
+    text = text[0].upper() + text[1:] if text else pathway.name
+    if key and text != pathway.name:
+        text = f"{text} [{pathway.name}]"
+    if width:
+        import textwrap
+
+        text = "\n".join(textwrap.wrap(text, width, break_on_hyphens=False))
+    return text

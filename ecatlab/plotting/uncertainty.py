@@ -16,7 +16,7 @@ from typing import Sequence
 import numpy as np
 
 from ecatlab.plotting.handles import Drawn
-from ecatlab.plotting.style import DASHES, MARKERS, PALETTE, figure, preset, style_context
+from ecatlab.plotting.style import DASHES, MARKERS, PALETTE, figure, pathway_title, preset, style_context
 
 __all__ = ["plot_diagram_bands", "plot_volcano_intervals", "plot_ranking_probabilities", "plot_determining_step_probabilities"]
 
@@ -80,9 +80,11 @@ def plot_diagram_bands(result, pathway, surfaces: str | Sequence[str], potential
                 if i:
                     ax.plot([i - 1 + width / 2, i - width / 2], [det[i - 1], det[i]], color=color, lw=0.8, ls=DASHES[2], zorder=2)
         ax.set_xticks(range(len(labels)))
-        ax.set_xticklabels(labels, rotation=20, ha="right", fontsize=p.font_pt - 2)
+        from ecatlab import chemtext
+
+        ax.set_xticklabels([chemtext.unicode(t) for t in labels], rotation=20, ha="right", fontsize=p.font_pt - 2)
         ax.set_ylabel("free energy ΔG / eV")
-        ax.set_title(f"{ps.pathway.name} at U = {potential:g} V vs {result.conditions['scale']}: levels with "
+        ax.set_title(f"{pathway_title(ps.pathway, key=True, width=70)} at U = {potential:+.3f} V vs {result.conditions['scale']}:\nlevels with "
                      f"{100 * interval:g}% bands" + (" (ILLUSTRATIVE)" if _illustrative(result.conditions) else ""))
         leg = ax.legend(frameon=False, fontsize=p.font_pt - 2)
         cap = _caption(ax, result.conditions, p, "Bar: value without errors; band: central interval of the samples; tick: median. ") if caption else None
@@ -180,7 +182,7 @@ def plot_ranking_probabilities(result, pathway, top: int = 3, ax=None, style: st
         ax.set_yticklabels([f"{s} (rank {r})" for s, r in zip(table.index, table["deterministic_rank"])], fontsize=p.font_pt - 2)
         ax.set_xlim(0, 1.05)
         ax.set_xlabel("probability")
-        ax.set_title(f"How sure is the ranking? {table.attrs['pathway']}" + (" (ILLUSTRATIVE)" if _illustrative(result.conditions) else ""))
+        ax.set_title(f"How sure is the ranking? {pathway_title(result._path(pathway).pathway, key=True, width=60)}" + (" (ILLUSTRATIVE)" if _illustrative(result.conditions) else ""))
         leg = ax.legend(frameon=False, fontsize=p.font_pt - 2, loc="lower right")
         cap = None
         if caption:
@@ -216,7 +218,7 @@ def plot_determining_step_probabilities(result, pathway, ax=None, style: str = "
         ax.set_yticklabels(list(wide.index), fontsize=p.font_pt - 2)
         ax.set_xlim(0, 1.0)
         ax.set_xlabel("probability of being the potential-determining step")
-        ax.set_title(f"Potential-determining step, {ps.pathway.name}" + (" (ILLUSTRATIVE)" if _illustrative(result.conditions) else ""))
+        ax.set_title(f"Potential-determining step: {pathway_title(ps.pathway, key=True, width=60)}" + (" (ILLUSTRATIVE)" if _illustrative(result.conditions) else ""))
         leg = ax.legend(frameon=False, fontsize=p.font_pt - 3, loc="upper left", bbox_to_anchor=(1.01, 1.0))
         cap = _caption(ax, result.conditions, p) if caption else None
     return Drawn(ax=ax, data=wide, parts={"bars": bars, "legend": leg, "caption": cap})

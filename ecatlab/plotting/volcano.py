@@ -18,7 +18,7 @@ from ecatlab.errors import OptionError
 import numpy as np
 
 from ecatlab.plotting.handles import Drawn
-from ecatlab.plotting.style import DASHES, MARKERS, PALETTE, figure, preset, style_context
+from ecatlab.plotting.style import DASHES, MARKERS, PALETTE, figure, pathway_title, preset, style_context
 from ecatlab.volcano import ActivityMap, SelectivityMap, VolcanoCurve, volcano
 
 __all__ = ["plot_volcano", "plot_activity_map", "plot_determining_steps", "plot_selectivity_map", "volcano_figure"]
@@ -196,7 +196,7 @@ def plot_volcano(curve: VolcanoCurve, ax=None, style: str = "notebook", show_ste
         ax.set_xlabel(f"{curve.descriptor.label()} / eV")
         ax.set_ylabel(f"limiting potential $U_L$ / V vs {sc}")
         better = "higher is better" if curve.direction == "reduction" else "lower is better"
-        ax.set_title(f"Volcano of {curve.pathway.name} ({better})\n{_conditions_text(curve.conditions)}")
+        ax.set_title(f"Volcano: {pathway_title(curve.pathway, key=True, width=80)} ({better})\n{_conditions_text(curve.conditions)}")
         where = legend or ("below" if p.name == "single" else "right")
         if where == "right":
             leg = ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, fontsize=p.font_pt - 2, borderaxespad=0.0)
@@ -312,7 +312,7 @@ def plot_activity_map(amap: ActivityMap, ax=None, style: str = "notebook", quant
                                           markers=[list(o.descriptor[:2])])
         ax.set_xlabel(f"{amap.descriptors[0].label()} / eV")
         ax.set_ylabel(f"{amap.descriptors[1].label()} / eV")
-        ax.set_title(f"Activity map of {amap.pathway.name}; {_conditions_text(amap.conditions)}")
+        ax.set_title(f"Activity map: {pathway_title(amap.pathway, key=True, width=70)}\n{_conditions_text(amap.conditions)}")
         cap = None
         if caption:
             cap = _caption(ax, p, f"Squares: computed surfaces filled with their exact value (not the scaling estimate).\n{_short_refs(amap.conditions)}. {_CAUTION}")
@@ -368,7 +368,7 @@ def plot_determining_steps(amap: ActivityMap, ax=None, style: str = "notebook", 
         points, labels = _surfaces_on_map(ax, amap.surfaces, p, label_surfaces, avoid=[t.get_window_extent(renderer) for t in region_labels])
         ax.set_xlabel(f"{amap.descriptors[0].label()} / eV")
         ax.set_ylabel(f"{amap.descriptors[1].label()} / eV")
-        ax.set_title(f"Potential-determining step, {amap.pathway.name}; {_conditions_text(amap.conditions)}")
+        ax.set_title(f"Potential-determining step: {pathway_title(amap.pathway, key=True, width=60)}\n{_conditions_text(amap.conditions)}")
         cap = _caption(ax, p, f"{_short_refs(amap.conditions)}. {_CAUTION}") if caption else None
     return Drawn(ax=ax, data=amap, parts={"regions": regions, "region_labels": region_labels, "surfaces": points, "labels": labels, "caption": cap})
 
