@@ -10,7 +10,6 @@ estimates; estimated barriers are flagged in every output.
 from __future__ import annotations
 
 import argparse
-import os
 import pathlib
 
 from ecatlab.errors import KineticsInputError
@@ -65,18 +64,12 @@ def _activities(items) -> dict[str, float]:
 
 
 def _targets(args, inputs) -> list[pathlib.Path]:
-    targets = []
-    resolved_inputs = [pathlib.Path(i).resolve() for i in inputs if i]
-    for opt in ("output", "coverages", "efficiency", "figure"):
-        value = getattr(args, opt)
-        if not value:
-            continue
-        t = pathlib.Path(value)
-        if t.resolve() in resolved_inputs or any(t.exists() and i.exists() and os.path.samefile(t, i) for i in resolved_inputs):
-            raise KineticsInputError(f"--{opt} {value!r} is an input file; choose another output name")
-        if t.exists() and not args.force:
-            raise KineticsInputError(f"--{opt} {value!r} exists; pass --force to overwrite it")
-        targets.append(t)
+    """Every output validated before the model is solved (:func:`ecatlab.safe_io.check_output`)."""
+    from ecatlab.safe_io import check_output
+
+    inputs = [i for i in inputs if i]
+    targets = [check_output(value, force=args.force, inputs=inputs, option=f"--{opt}")
+               for opt in ("output", "coverages", "efficiency", "figure") if (value := getattr(args, opt))]
     if len(set(p.resolve() for p in targets)) != len(targets):
         raise KineticsInputError("two outputs point to the same file; give each its own name")
     return targets

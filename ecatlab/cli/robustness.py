@@ -80,13 +80,6 @@ def build_model(args, table):
     return GaussianErrors(sigma, args.correlation, "none" if args.independent else "binding_atom", default, args.surface_correlation)
 
 
-def _check_target(path: str, force: bool, inputs) -> None:
-    """Validate an output before the sampling runs (:func:`ecatlab.safe_io.check_output`)."""
-    from ecatlab.safe_io import check_output
-
-    check_output(path, force=force, inputs=[i for i in inputs if i])
-
-
 def _write_csv(frame, path: str, force: bool) -> None:
     """The summary with its conditions as a ``#`` line, via :func:`ecatlab.safe_io.write_csv`."""
     from ecatlab.safe_io import write_csv
@@ -101,9 +94,11 @@ def run(args: argparse.Namespace) -> int:
     from ecatlab.energies import read_energies
     from ecatlab.uncertainty import propagate
 
-    for out in (args.output, args.figure):
-        if out:
-            _check_target(out, args.force, [args.file, args.ensemble])
+    from ecatlab.safe_io import check_output
+
+    for option, out in (("-o", args.output), ("--figure", args.figure)):
+        if out:  # validated before the sampling runs
+            check_output(out, force=args.force, inputs=[i for i in (args.file, args.ensemble) if i], option=option)
     table = read_energies(args.file, temperature=args.temperature)
     model = build_model(args, table)
     res = propagate(table, args.pathway, model, n_samples=args.samples, pH=args.pH, scale=args.scale, temperature=args.temperature,
