@@ -267,6 +267,7 @@ def test_explorer_onset_table_flags_currents_beyond_mass_transport():
                             "barriers": ["estimated", "estimated"], "all_converged": [True, True]})
     text = onset_table_html(summary, "caption")
     assert TRANSPORT_NOTE_MA_CM2 == 1000.0
-    assert "9.95e+11 \N{DAGGER}" in text and "5.00e+01 \N{DAGGER}" not in text and "5.00e+01" in text
+    assert 'title="beyond mass transport" style="padding:1px 6px;text-align:right;font-style:italic;color:#7A5A00">9.95e+11</td>' in text
+    assert text.count("ecatlab-beyond-transport") == 1 and ">5.00e+01</td>" in text  # 50 mA/cm2 is not flagged
     assert "no transport model" in text
-    assert "\N{DAGGER}" not in onset_table_html(summary.iloc[1:], "caption")
+    assert "ecatlab-beyond-transport" not in onset_table_html(summary.iloc[1:], "caption")

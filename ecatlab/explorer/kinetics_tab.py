@@ -35,22 +35,26 @@ def onset_table_html(summary, caption: str) -> str:
         return "n/a" if not (isinstance(v, float) and math.isfinite(v)) else format(v, fmt).replace("-", "\N{MINUS SIGN}")
 
     # kinetic currents only (no mass transport): above ~1 A/cm^2 (common practice, no source) a value
-    # says "not rate-limited by the surface", not a current a cell would carry
+    # says "not rate-limited by the surface", not a current a cell would carry. Such cells are set in
+    # italics with a tooltip (the cell text stays the number), and a note under the table says why.
     beyond = summary["max_abs_current_density"].to_numpy(float) > TRANSPORT_NOTE_MA_CM2
 
     def jmax(v) -> str:
         text = num(float(v), ".2e")
-        return text + " \N{DAGGER}" if math.isfinite(float(v)) and float(v) > TRANSPORT_NOTE_MA_CM2 else text
+        if math.isfinite(float(v)) and float(v) > TRANSPORT_NOTE_MA_CM2:
+            return (f'<td class="ecatlab-beyond-transport" title="beyond mass transport" '
+                    f'style="padding:1px 6px;text-align:right;font-style:italic;color:#7A5A00">{text}</td>')
+        return f'<td style="padding:1px 6px;text-align:right">{text}</td>'
 
-    note = (f'<p style="font-size:11px;color:#444;margin:2px 0">\N{DAGGER} kinetic current above '
-            f'{TRANSPORT_NOTE_MA_CM2:g} mA/cm\N{SUPERSCRIPT TWO}: far beyond what mass transport delivers; ecatlab has no '
+    note = (f'<p style="font-size:11px;color:#444;margin:2px 0">In italics: kinetic current above '
+            f'{TRANSPORT_NOTE_MA_CM2:g} mA/cm\N{SUPERSCRIPT TWO}, far beyond what mass transport delivers; ecatlab has no '
             "transport model, so read it as \N{LEFT DOUBLE QUOTATION MARK}the surface is not the limit\N{RIGHT DOUBLE QUOTATION MARK}.</p>"
             if beyond.any() else "")
     rows = "".join(
         f'<tr><th style="text-align:left;padding:1px 6px">{html.escape(str(r.surface))}</th>'
         f'<td style="padding:1px 6px;text-align:right">{num(float(r.onset_potential), "+.3f") if r.reached else "not reached"}</td>'
         f'<td style="padding:1px 6px;text-align:right">{num(float(r.onset_overpotential), ".3f") if r.reached else "n/a"}</td>'
-        f'<td style="padding:1px 6px;text-align:right">{jmax(r.max_abs_current_density)}</td>'
+        f"{jmax(r.max_abs_current_density)}"
         f'<td style="padding:1px 6px">{html.escape(str(r.barriers))}</td>'
         f'<td style="padding:1px 6px">{"yes" if r.all_converged else "NO"}</td></tr>'
         for r in summary.itertuples(index=False)

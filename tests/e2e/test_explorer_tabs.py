@@ -91,7 +91,7 @@ surface_states = ex.add_surface_states_tab()
 
 # What only the kernel knows, as one JSON line. The texts above the diagram's Axes (title, subtitle,
 # conditions line) with their window extents (display pixels, origin bottom left); the PNG last sent
-# to the page and a fresh full render of the same figure.
+# to the page (bytes and decoded pixels) and the decoded pixels of a fresh full render of the same figure.
 _PROBE = """\
 def _probe():
     from matplotlib.text import Text
@@ -108,7 +108,11 @@ def _probe():
         bb = t.get_window_extent(renderer)
         if bb.y0 >= top - 1.0:
             texts.append({'text': t.get_text(), 'box': [bb.x0, bb.y0, bb.x1, bb.y1]})
-    return {'sent': hashlib.sha256(sent or b'').hexdigest(), 'full': hashlib.sha256(full).hexdigest(),
+    # pixels, not PNG bytes: the fast path writes the same picture with its own (banded) deflate stream
+    import io
+    from PIL import Image
+    pixels = lambda png: hashlib.sha256(Image.open(io.BytesIO(png)).convert('RGBA').tobytes()).hexdigest() if png else ''
+    return {'sent': hashlib.sha256(sent or b'').hexdigest(), 'sent_pixels': pixels(sent), 'full': pixels(full),
             'figure_px': [fig.bbox.width, fig.bbox.height], 'texts': texts, 'potential': ex.state.potential,
             'errors': [repr(e) for e in ex.errors]}
 
@@ -267,7 +271,7 @@ def _check_png_is_fresh(page, explorer, probe: dict, label: str) -> None:
     png = base64.b64decode(src.split(",", 1)[1])
     digest = hashlib.sha256(png).hexdigest()
     assert digest == probe["sent"], f"{label}: the page shows another PNG than the kernel sent last"
-    if probe["sent"] != probe["full"]:
+    if probe["sent_pixels"] != probe["full"]:
         raise AssertionError(f"{label}: the diagram shown differs from a full render of the same figure (stale pixels)")
 
 
