@@ -9,6 +9,8 @@ a ~6e-7 event per check.
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -377,13 +379,23 @@ def test_threads_give_the_same_numbers():
     table = ecatlab.demo_energies()
     keys = list(BUILTIN_PATHWAYS)
     model = GaussianErrors(0.1, 0.5)
-    one = propagate(table, keys, model, n_samples=120, seed=6, keep_species=["OH*"])
-    two = propagate(table, keys, model, n_samples=120, seed=6, keep_species=["OH*"], workers=3)
+    one = propagate(table, keys, model, n_samples=200, seed=6, keep_species=["OH*"], workers=1, chunk_size=10)
+    two = propagate(table, keys, model, n_samples=200, seed=6, keep_species=["OH*"], workers=3, chunk_size=10)
+    assert (one.workers, two.workers) == (1, 3)
     for key in keys:
         for q in ("limiting_potential", "G_max", "max_chemical_dG"):
             assert np.array_equal(one.results[key].quantity(q), two.results[key].quantity(q), equal_nan=True)
         assert np.array_equal(one.results[key].blocked, two.results[key].blocked)
+        # the tables split pathways and samples between the threads: the same tables
+        pd.testing.assert_frame_equal(one.ranking(key, top=2), two.ranking(key, top=2))
     assert np.array_equal(one.species_samples["OH*"], two.species_samples["OH*"])
+    pd.testing.assert_frame_equal(one.summary(), two.summary())
+    pd.testing.assert_frame_equal(one.determining_steps(), two.determining_steps())
+    # the default uses the cores this process may run on, at most MAX_DEFAULT_WORKERS
+    from ecatlab.uncertainty.propagate import MAX_DEFAULT_WORKERS, default_workers
+
+    assert propagate(table, "orr-4e", model, n_samples=10).workers == default_workers()
+    assert 1 <= default_workers() <= min(MAX_DEFAULT_WORKERS, os.cpu_count())
     with pytest.raises(UncertaintyError, match="workers"):
         propagate(table, "orr-4e", model, n_samples=10, workers=0)
 

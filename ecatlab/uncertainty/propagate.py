@@ -37,7 +37,7 @@ from ecatlab.pathways import resolve
 from ecatlab.uncertainty import sampler
 from ecatlab.uncertainty.models import ErrorModel
 
-__all__ = ["propagate", "PathwaySamples", "UncertaintyResult", "SUMMARY_COLUMNS", "QUANTITY_UNITS"]
+__all__ = ["propagate", "default_workers", "PathwaySamples", "UncertaintyResult", "SUMMARY_COLUMNS", "QUANTITY_UNITS"]
 
 #: Long/progress threshold: show a tqdm bar when samples x surfaces x pathways exceeds this.
 PROGRESS_THRESHOLD = 20_000_000
@@ -197,6 +197,32 @@ class UncertaintyResult:
             raise UncertaintyError(f"pathway {path!r} has no deterministic result; propagated: {self.pathways}")
         return cache[path]
 
+    @property
+    def workers(self) -> int:
+        """Threads the tables may use (those :func:`propagate` used)."""
+        return int(self.inputs.get("workers", 1)) if self.inputs else 1
+
+    def _map(self, fn, items: list) -> list:
+        """``[fn(x) for x in items]``, in :attr:`workers` threads when there are several items (numpy
+        releases the GIL in the sorts and reductions the tables are made of); same results, same order."""
+        if self.workers <= 1 or len(items) <= 1:
+            return [fn(x) for x in items]
+        from concurrent.futures import ThreadPoolExecutor
+
+        with ThreadPoolExecutor(max_workers=min(self.workers, len(items))) as pool:
+            return list(pool.map(fn, items))
+
+    def _order(self, ps: "PathwaySamples") -> np.ndarray:
+        """:meth:`PathwaySamples.order`, its samples split between the worker threads."""
+        n = ps.G_max.shape[0]
+        parts = min(self.workers, max(1, n // 64))
+        if parts <= 1:
+            return ps.order()
+        cuts = np.linspace(0, n, parts + 1).astype(int)
+        pieces = self._map(lambda k: kernel.ranking_order_rows(ps.G_max[cuts[k]:cuts[k + 1]], ps.blocked[cuts[k]:cuts[k + 1]]),
+                           list(range(parts)))
+        return np.concatenate(pieces, axis=0)
+
     # -- tables ---------------------------------------------------------------------------------
     def summary(self, quantities: Sequence[str] = ("limiting_potential", "overpotential", "G_max", "max_chemical_dG"),
                 interval: float = 0.9) -> pd.DataFrame:
@@ -224,16 +250,25 @@ class UncertaintyResult:
         cols: dict[str, list] = {k: [] for k in ("deterministic", "mean", "std", "median", "low", "high", "p_blocked")}
         labels: list[tuple[str, str]] = []
         n = self.n_samples
-        for name, ps in self.results.items():
+
+        def one(item):  # the statistics of one pathway (pathways run in the result's worker threads)
+            name, ps = item
             det = self._det(name)
             stats = _PathwayStats(ps, (lo_q, 50.0, hi_q))
             p_blocked = ps.blocked.mean(axis=0)
-            n = ps.limiting_potential.shape[0]
+            found = []
             for q in quantities:
                 mean, std, (lo, med, hi) = stats.get(q)
-                labels.append((name, q))
-                for k, v in (("deterministic", det[q].to_numpy(dtype=float) if q in det.columns else np.full(S, np.nan)),
-                             ("mean", mean), ("std", std), ("median", med), ("low", lo), ("high", hi), ("p_blocked", p_blocked)):
+                found.append(((name, q), (("deterministic", det[q].to_numpy(dtype=float) if q in det.columns else np.full(S, np.nan)),
+                                          ("mean", mean), ("std", std), ("median", med), ("low", lo), ("high", hi), ("p_blocked", p_blocked))))
+            return ps.limiting_potential.shape[0], found
+
+        if self.results:
+            self._det(next(iter(self.results)))  # fill the cache before the threads read it
+        for n, found in self._map(one, list(self.results.items())):
+            for label, values in found:
+                labels.append(label)
+                for k, v in values:
                     cols[k].append(v)
         blocks = len(labels)
         # one frame built once (labels repeated with numpy; no per-block frames to concatenate)
@@ -313,7 +348,7 @@ class UncertaintyResult:
         top = int(top)
         if top < 1:
             raise UncertaintyError(f"top must be >= 1, got {top}")
-        order = ps.order()
+        order = self._order(ps)
         n, S = order.shape
         p_best = np.bincount(order[:, 0], minlength=S) / n
         p_top = np.bincount(order[:, :top].ravel(), minlength=S) / n
@@ -552,6 +587,22 @@ class _PathwayStats:
         return self.cache["_ul"]
 
 
+#: Most threads :func:`default_workers` gives (beyond a few, the memory bandwidth is shared anyway).
+MAX_DEFAULT_WORKERS = 4
+
+
+def default_workers() -> int:
+    """Threads :func:`propagate` uses when not told: the CPUs this process may run on (its
+    affinity mask, not the machine's count), at most :data:`MAX_DEFAULT_WORKERS`."""
+    import os
+
+    try:
+        n = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # pragma: no cover - not Linux
+        n = os.cpu_count() or 1
+    return max(1, min(MAX_DEFAULT_WORKERS, n))
+
+
 def _molecule_matrix(steps, molecules: Sequence[str]) -> np.ndarray | None:
     """Net coefficient of each error-carrying molecule in each step (n_steps, n_molecules); None if none."""
     if not molecules:
@@ -689,7 +740,7 @@ def propagate(
     members: str = "all",
     keep_species: Sequence[str] = (),
     progress: bool | None = None,
-    workers: int = 1,
+    workers: int | None = None,
 ) -> UncertaintyResult:
     """Propagate an error model through the CHE analysis of one or more pathways.
 
@@ -717,10 +768,11 @@ def propagate(
         Adsorbates whose sampled G (eV) to keep, e.g. a volcano descriptor.
     progress : bool, optional
         tqdm bar over the chunks; default on for long runs.
-    workers : int
+    workers : int, optional
         Threads that take chunks of samples in turn (each draws its own chunk and writes its own
         rows of the results; numpy releases the GIL in the draws, the matrix product and the
-        kernel's array operations); 1 (default) runs in the calling thread. Same numbers for any value.
+        kernel's array operations); 1 runs in the calling thread. Default: the cores this process
+        may use (:func:`default_workers`, at most 4). Same numbers for any value.
 
     Returns
     -------
@@ -790,6 +842,8 @@ def propagate(
         })
     kept = {k: np.empty((N, S)) for k in keep}
     stack = _stack(paths, compiled, cols, base, [species.index(k) for k in keep], pH, sc, temperature, mols)
+    if workers is None:
+        workers = default_workers()
     if not isinstance(workers, (int, np.integer)) or isinstance(workers, bool) or workers < 1:
         raise UncertaintyError(f"workers must be a positive integer, got {workers!r}")
     show = progress if progress is not None else N * S * len(paths) > PROGRESS_THRESHOLD
@@ -835,5 +889,5 @@ def propagate(
         "model": model.describe(), "seed": int(seed), "samples": N,
         "sampling": "ensemble members in order" if (getattr(model, "kind", "") == "ensemble" and members == "all") else f"seeded draws (seed {seed})",
     }
-    inputs = {"table": table, "species": tuple(species), "molecules": mols, "plan": p}
+    inputs = {"table": table, "species": tuple(species), "molecules": mols, "plan": p, "workers": int(workers)}
     return UncertaintyResult(tuple(names), results, deterministic, N, conditions, kept, inputs)

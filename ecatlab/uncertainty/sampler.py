@@ -36,10 +36,15 @@ BLOCK = 10
 #: Floating type of the standard-normal draws (single precision draws faster; each draw is then
 #: exact in float64, and every product with the covariance factor is float64).
 DTYPE = np.float32
-#: Default chunk: the number of samples per chunk is chosen so a chunk holds about this many
-#: (sample, surface, species) values (~19 MB of float64 draws; the propagation's step array per chunk is
-#: about n_steps / n_species times that).
+#: Default chunk: at most this many (sample, surface, species) values per chunk (~19 MB of float64
+#: draws), the memory bound.
 DEFAULT_CHUNK_VALUES = 2_400_000
+#: Default chunk: at most this many (sample, surface) pairs per chunk, so that one step of one chunk
+#: (a row of the propagation's step array, 8 bytes per pair: 320 kB) and a pathway's few rows stay in
+#: a core's L2 cache while the kernel makes its passes over them. Measured on a 2-core Xeon with
+#: 2 MB of L2 per core (1,000 surfaces, 13 pathways, 2,000 samples): propagate took 1.0 s with 40
+#: samples per chunk and 1.2-2.2 s with 100 (per-pathway blocks of 4 MB spill out of L2).
+DEFAULT_CHUNK_PAIRS = 40_000
 DEFAULT_CHUNK = None
 
 
@@ -199,7 +204,8 @@ def plan(model: ErrorModel, surfaces: Sequence[str], species: Sequence[str], mol
     seed : int
         Seed of the random numbers (non-negative integer).
     chunk_size : int, optional
-        Samples per chunk, rounded up to a multiple of :data:`BLOCK`; default about 8e6 values per chunk.
+        Samples per chunk, rounded up to a multiple of :data:`BLOCK`; default: at most
+        :data:`DEFAULT_CHUNK_VALUES` draws and :data:`DEFAULT_CHUNK_PAIRS` (sample, surface) pairs per chunk.
     members : {"all", "bootstrap"}
         Ensembles only: use each member once in order, or draw ``n_samples`` members with replacement.
     """
@@ -225,7 +231,8 @@ def plan(model: ErrorModel, surfaces: Sequence[str], species: Sequence[str], mol
     if not isinstance(n, (int, np.integer)) or isinstance(n, bool) or n < 1:
         raise UncertaintyError(f"n_samples must be a positive integer, got {n_samples!r}")
     per_sample = max(1, len(surfaces) * max(1, len(species)))
-    c = chunk_size if chunk_size is not None else max(BLOCK, DEFAULT_CHUNK_VALUES // per_sample)
+    default = min(DEFAULT_CHUNK_VALUES // per_sample, DEFAULT_CHUNK_PAIRS // max(1, len(surfaces)))
+    c = chunk_size if chunk_size is not None else max(BLOCK, default)
     if not isinstance(c, (int, np.integer)) or c < 1:
         raise UncertaintyError(f"chunk_size must be a positive integer, got {chunk_size!r}")
     c = int(-(-int(c) // BLOCK) * BLOCK)
