@@ -58,6 +58,7 @@ from typing import Iterable, Sequence
 import numpy as np
 import pandas as pd
 
+from ecatlab._gc import collector_paused
 from ecatlab.che import kernel
 from ecatlab.che.conditions import SCALES, check_pH, check_potential, check_scale, check_temperature
 from ecatlab.constants import STANDARD_TEMPERATURE, thermal_voltage_per_pH
@@ -228,6 +229,11 @@ def compile_steps(steps: Sequence[Step], adsorbates: Sequence[str], scheme: Refe
 
 
 def _compile(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: ReferenceScheme, pathway) -> CompiledPathway:
+    with collector_paused():  # see ecatlab._gc: the collector's passes cost more than the compile on big networks
+        return _compile_arrays(steps, adsorbates, scheme, pathway)
+
+
+def _compile_arrays(steps: Sequence[Step], adsorbates: tuple[str, ...], scheme: ReferenceScheme, pathway) -> CompiledPathway:
     """Arrays of :class:`CompiledPathway` for ``steps``, assembled with numpy.
 
     The steps are flattened into (step, signed coefficient, species) entries, reactants first, in

@@ -20,6 +20,7 @@ from typing import Iterable
 import numpy as np
 import pandas as pd
 
+from ecatlab._gc import collector_paused
 from ecatlab.constants import STANDARD_TEMPERATURE
 from ecatlab.energies import EnergyTable, as_energy_table
 from ecatlab.errors import EcatlabError, PathwayError
@@ -142,6 +143,7 @@ class NetworkAnalysis:
         Keep only routes through computed (tabulated) species, even when estimates are given.
     """
 
+    @collector_paused()  # object-heavy set-up on a big network: see ecatlab._gc
     def __init__(
         self,
         network: ReactionNetwork,
@@ -426,6 +428,7 @@ class NetworkAnalysis:
         names = tuple(self.network.route_name(tuple(row[row >= 0])) if (row >= 0).any() else "" for row in uniq)
         return np.where(ok, r["u_l"], np.nan), np.where(ok, r["chem"], np.nan), np.where(ok, inv, -1), names
 
+    @collector_paused()
     def best_routes(self, product: str, top: int = 1) -> pd.DataFrame:
         """Best route (and ``top - 1`` alternatives) to ``product`` on every surface.
 

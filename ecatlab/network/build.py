@@ -26,6 +26,7 @@ import itertools
 from collections import Counter, deque
 from typing import Iterable, Mapping
 
+from ecatlab._gc import collector_paused
 from ecatlab.energies import EnergyTable
 from ecatlab.errors import EcatlabError, NotationError, PathwayError
 from ecatlab.network import rules
@@ -52,6 +53,7 @@ def _is_water(sk: Skeleton) -> bool:
     return sk.atoms == ("O",) and sk.hydrogens == (2,)
 
 
+@collector_paused()  # object-heavy, no cycles: see ecatlab._gc
 def build_network(
     species,
     reactant: str = "CO2",
