@@ -477,3 +477,17 @@ def test_ensemble_holes_touch_only_the_pathways_that_use_the_species():
         wide = pd.DataFrame({"H*": table.values(None, ["H*"])[:, 0] + dev[k, :, h]}, index=table.surfaces)
         det = limiting_potentials(EnergyTable.from_matrix(wide), "her-volmer-heyrovsky")
         np.testing.assert_allclose(her[k], det["limiting_potential"].to_numpy(), rtol=0, atol=1e-12)
+
+
+def test_a_run_whose_results_cannot_fit_in_memory_is_refused_before_drawing(monkeypatch):
+    """1e8 samples x 12 surfaces of orr-4e need 19 bytes per (sample, surface): 22.8 GB; with 1 GB
+    available the call is refused with the numbers and the number of samples that would fit."""
+    import importlib
+
+    mod = importlib.import_module("ecatlab.uncertainty.propagate")  # the module (the package exports the function)
+    monkeypatch.setattr(mod, "_available_memory_bytes", lambda: 10**9)
+    table = ecatlab.demo_energies()
+    with pytest.raises(UncertaintyError, match=r"22\.8 GB \(19 bytes per sample and surface\).*at most about 2192982 samples"):
+        propagate(table, "orr-4e", GaussianErrors(0.1), n_samples=10**8)
+    # a run that fits is not affected
+    assert propagate(table, "orr-4e", GaussianErrors(0.1), n_samples=20).n_samples == 20

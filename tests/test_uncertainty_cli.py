@@ -50,3 +50,23 @@ def test_ensemble_file_and_bad_options(tmp_path, capsys):
     assert main(["robustness", str(demo_path()), "-p", "orr-4e", "--ensemble", str(path), "--scaling-residuals", "OH*"]) == 2
     assert "choose one error source" in capsys.readouterr().err
     assert main(["robustness", str(demo_path()), "-p", "orr-4e", "--scaling-residuals", "OH*", "--samples", "50"]) == 0
+
+
+def test_too_many_samples_for_the_memory_exit_2_in_one_line(capsys, monkeypatch):
+    import importlib
+
+    monkeypatch.setattr(importlib.import_module("ecatlab.uncertainty.propagate"), "_available_memory_bytes", lambda: 10**9)
+    assert main(["robustness", str(demo_path()), "-p", "orr-4e", "--samples", "100000000"]) == 2
+    err = capsys.readouterr().err
+    assert "GB available; ask for at most about" in err and err.count("\n") == 1
+
+
+def test_sigma_of_names_the_option_for_a_bad_species_and_for_missing_ones(capsys):
+    assert main(["robustness", str(demo_path()), "-p", "orr-4e", "--sigma-of", "Q*=0.1"]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("ecatlab robustness: error: --sigma-of 'Q*': cannot read 'Q'") and err.count("\n") == 1
+    assert main(["robustness", str(demo_path()), "-p", "orr-4e", "--sigma-of", "CO*=0.1"]) == 2
+    err = capsys.readouterr().err
+    assert "--sigma-of gives no standard deviation for O*, OH*, OOH*" in err and "--sigma" in err and err.count("\n") == 1
+    # with --sigma as the default for the others it runs
+    assert main(["robustness", str(demo_path()), "-p", "orr-4e", "--sigma-of", "CO*=0.1", "--sigma", "0.1", "-n", "20"]) == 0

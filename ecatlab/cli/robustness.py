@@ -75,6 +75,22 @@ def build_model(args, table):
         relations = [fit_scaling(table, t, desc) for t in sorted(targets)]
         return DescriptorErrors.from_relations(relations, args.descriptor_sigma, args.surface_correlation)
     per = opt.number_pairs(args.sigma_of, "--sigma-of", "OOH*=0.2", UncertaintyError, form="ADSORBATE=NUMBER")
+    from ecatlab.errors import EcatlabError
+    from ecatlab.notation import Species
+
+    for key in per:
+        try:
+            Species.parse(key)
+        except EcatlabError as exc:  # name the option and the item, then what is wrong with the species
+            raise UncertaintyError(f"--sigma-of {opt.clip(key)!r}: {exc}; write ADSORBATE=NUMBER, e.g. OOH*=0.2") from None
+    if per and args.sigma is None:
+        from ecatlab.pathways import resolve
+
+        given = {Species.parse(k).key for k in per}
+        lacking = sorted({a.key for k in args.pathway for a in resolve(k).adsorbates} - given)
+        if lacking:
+            raise UncertaintyError(f"--sigma-of gives no standard deviation for {', '.join(lacking)}; add them "
+                                   f"(e.g. {lacking[0]}=0.15) or give --sigma for every adsorbate not listed")
     sigma = per if per else (0.1 if args.sigma is None else args.sigma)
     default = (args.sigma if args.sigma is not None else None) if per else None
     return GaussianErrors(sigma, args.correlation, "none" if args.independent else "binding_atom", default, args.surface_correlation)

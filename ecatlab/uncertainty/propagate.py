@@ -603,6 +603,43 @@ def default_workers() -> int:
     return max(1, min(MAX_DEFAULT_WORKERS, n))
 
 
+#: Largest share of the available memory the results of :func:`propagate` may take (the rest is
+#: left for the chunk buffers and the tables' working copies, one array at a time).
+MEMORY_SHARE = 0.5
+
+
+def _available_memory_bytes() -> int | None:
+    """Memory the system can give this process now (``MemAvailable`` of /proc/meminfo), or None."""
+    try:
+        with open("/proc/meminfo", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("MemAvailable:"):
+                    return int(line.split()[1]) * 1024
+    except (OSError, ValueError, IndexError):
+        pass
+    import os
+
+    try:
+        return int(os.sysconf("SC_AVPHYS_PAGES")) * int(os.sysconf("SC_PAGE_SIZE"))
+    except (AttributeError, ValueError, OSError):  # pragma: no cover - not a POSIX system
+        return None
+
+
+def _check_result_memory(n_samples: int, n_surfaces: int, store: list, n_kept: int, varying_u_eq: bool) -> None:
+    """Refuse, before anything is drawn, a run whose result arrays would not fit in memory."""
+    per_pair = sum(8 + 8 + 3 + (8 if st["chem"] is not None else 0) for st in store) + 8 * n_kept
+    need = n_samples * n_surfaces * per_pair + (8 * n_samples * len(store) if varying_u_eq else 0)
+    avail = _available_memory_bytes()
+    if avail is None or need <= MEMORY_SHARE * avail:
+        return
+    fit = max(1, int(MEMORY_SHARE * avail // max(1, n_surfaces * per_pair)))
+    raise UncertaintyError(
+        f"the results of {n_samples} samples x {n_surfaces} surfaces x {len(store)} pathway(s) would take "
+        f"{need / 1e9:.1f} GB ({per_pair} bytes per sample and surface), more than {MEMORY_SHARE:.0%} of the "
+        f"{avail / 1e9:.1f} GB available; ask for at most about {fit} samples, or fewer surfaces or pathways"
+    )
+
+
 def _molecule_matrix(steps, molecules: Sequence[str]) -> np.ndarray | None:
     """Net coefficient of each error-carrying molecule in each step (n_steps, n_molecules); None if none."""
     if not molecules:
@@ -840,6 +877,7 @@ def propagate(
             "g_is_eta": False,
             "may_miss": bool(np.isnan(base[:, [species.index(x) for x in c.adsorbates]]).any()) or getattr(model, "kind", "") == "ensemble",
         })
+    _check_result_memory(N, S, store, len(keep), bool(mols))
     kept = {k: np.empty((N, S)) for k in keep}
     stack = _stack(paths, compiled, cols, base, [species.index(k) for k in keep], pH, sc, temperature, mols)
     if workers is None:
