@@ -12,6 +12,7 @@ from __future__ import annotations
 import argparse
 import pathlib
 
+from ecatlab.cli import _options as opt
 from ecatlab.errors import KineticsInputError
 
 
@@ -29,19 +30,19 @@ def register(sub: argparse._SubParsersAction) -> None:
     )
     p.add_argument("file", help="energy table (CSV: surface, species, G or E + ZPE/CpdT/TS[/solvation], eV)")
     p.add_argument("--pathway", "-p", nargs="+", required=True, metavar="KEY", help="built-in pathway key(s); several = competing products (e.g. orr-4e orr-2e)")
-    p.add_argument("--potentials", nargs=3, type=float, metavar=("START", "STOP", "STEP"), default=None,
+    p.add_argument("--potentials", nargs=3, type=opt.finite_float, metavar=("START", "STOP", "STEP"), default=None,
                    help="potential grid in V on --scale (default: U_eq - 1 V to U_eq + 0.1 V in 10 mV steps, reversed for oxidations)")
     p.add_argument("--barriers", metavar="CSV", help="transition-state data: surface, step (equation or 1-based index), G_a [eV], optional potential [V], symmetry_factor, prefactor [1/s]")
     p.add_argument("--activity", nargs="+", default=[], metavar="MOLECULE=A", help="activities, gases p/1 bar, solutes c/(1 mol/L), e.g. O2(g)=0.21 H2O2(aq)=1e-6 (default 1)")
-    p.add_argument("--intrinsic-barrier", type=float, default=0.3, help="estimated proton-electron transfer barrier at dG = 0, eV (default 0.3; placeholder)")
-    p.add_argument("--symmetry-factor", type=float, default=0.5, help="symmetry factor beta of estimated barriers (default 0.5)")
-    p.add_argument("--site-density", type=float, default=1e15, help="active sites per cm^2 (default 1e15, common practice)")
-    p.add_argument("--onset-current", type=float, default=10.0, help="current density defining the onset potential, mA/cm^2 (default 10)")
+    p.add_argument("--intrinsic-barrier", type=opt.finite_float, default=0.3, help="estimated proton-electron transfer barrier at dG = 0, eV (default 0.3; placeholder)")
+    p.add_argument("--symmetry-factor", type=opt.finite_float, default=0.5, help="symmetry factor beta of estimated barriers (default 0.5)")
+    p.add_argument("--site-density", type=opt.finite_float, default=1e15, help="active sites per cm^2 (default 1e15, common practice)")
+    p.add_argument("--onset-current", type=opt.finite_float, default=10.0, help="current density defining the onset potential, mA/cm^2 (default 10)")
     p.add_argument("--check", choices=("sweep", "thorough", "none"), default="sweep", help="multiple-steady-state check (default sweep)")
     p.add_argument("--surface", nargs="+", metavar="NAME", help="only these surfaces")
-    p.add_argument("--pH", type=float, default=0.0, help="pH (default 0)")
+    p.add_argument("--pH", type=opt.finite_float, default=0.0, help="pH (default 0)")
     p.add_argument("--scale", default="RHE", type=str.upper, choices=("RHE", "SHE"), help="potential scale (default RHE; case-insensitive)")
-    p.add_argument("-T", "--temperature", type=float, default=298.15, help="temperature in K (default 298.15)")
+    p.add_argument("-T", "--temperature", type=opt.finite_float, default=298.15, help="temperature in K (default 298.15)")
     p.add_argument("-o", "--output", metavar="CSV", help="write the polarization table (one row per surface and potential)")
     p.add_argument("--coverages", metavar="CSV", help="write the coverage table")
     p.add_argument("--efficiency", metavar="CSV", help="write partial currents and faradaic efficiencies")

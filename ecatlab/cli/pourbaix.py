@@ -6,6 +6,12 @@ from __future__ import annotations
 import argparse
 import json
 
+from ecatlab.cli import _options as opt
+
+
+#: Widest potential range of the map, V (electrochemical stability questions live within a few volts).
+MAX_RANGE_V = 20.0
+
 
 def register(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser(
@@ -23,12 +29,12 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--energies", metavar="FILE", help="energy table for the pathways' limiting potentials")
     p.add_argument("--pathway", "-p", nargs="+", default=[], metavar="KEY", help="pathway keys, e.g. orr-4e oer-4e (needs --energies, or the demo energies with --demo)")
     p.add_argument("--surface", nargs="+", metavar="NAME", help="surfaces (default all)")
-    p.add_argument("--potential", "-U", nargs="+", type=float, default=[0.0], metavar="V", help="potentials at which to report the stable state (V vs scale; default 0)")
-    p.add_argument("--pH", type=float, default=0.0, help="pH (default 0)")
+    p.add_argument("--potential", "-U", nargs="+", type=opt.finite_float, default=[0.0], metavar="V", help="potentials at which to report the stable state (V vs scale; default 0)")
+    p.add_argument("--pH", type=opt.finite_float, default=0.0, help="pH (default 0)")
     p.add_argument("--scale", choices=("RHE", "SHE"), default="RHE", type=str.upper, help="potential scale (default RHE)")
-    p.add_argument("-T", "--temperature", type=float, default=298.15, help="temperature in K (default 298.15)")
-    p.add_argument("--range", nargs=2, type=float, default=(-1.0, 2.0), metavar=("UMIN", "UMAX"), help="potential range of the map, V (default -1 2)")
-    p.add_argument("--tolerance", type=float, default=0.0, metavar="EV", help="eV per cell within which the clean surface counts as stable (default 0)")
+    p.add_argument("-T", "--temperature", type=opt.finite_float, default=298.15, help="temperature in K (default 298.15)")
+    p.add_argument("--range", nargs=2, type=opt.finite_float, default=(-1.0, 2.0), metavar=("UMIN", "UMAX"), help="potential range of the map, V (default -1 2)")
+    p.add_argument("--tolerance", type=opt.finite_float, default=0.0, metavar="EV", help="eV per cell within which the clean surface counts as stable (default 0)")
     p.add_argument("-o", "--output", metavar="FIGURE", help="save the map of the (one) chosen surface: svg, pdf or png")
     p.add_argument("--force", action="store_true", help="overwrite an existing figure")
     p.add_argument("--json", action="store_true", help="print the tables as JSON")
@@ -56,6 +62,14 @@ def run(args: argparse.Namespace) -> int:
     from ecatlab.errors import SurfaceStateError
     from ecatlab.pourbaix import demo_surface_states, flag_surface_states, limiting_potential_vs_pH, pourbaix_map, read_surface_states, stable_states
 
+    low, high = args.range
+    if not low < high:
+        raise SurfaceStateError("<command line>", f"--range {low:g} {high:g}: UMIN must be below UMAX, e.g. --range -1 2")
+    if high - low > MAX_RANGE_V:
+        raise SurfaceStateError("<command line>", f"--range {low:g} {high:g} spans {high - low:g} V; give at most "
+                                f"{MAX_RANGE_V:g} V (the map is drawn every 2 mV), e.g. --range -1 2")
+    if args.tolerance < 0:
+        raise SurfaceStateError("<command line>", f"--tolerance {args.tolerance:g}: give a number of eV >= 0")
     if bool(args.states) == bool(args.demo):
         raise SurfaceStateError("<command line>", "give a surface-state CSV file or --demo (one of them)")
     inputs = [i for i in (args.states, args.energies) if i]
