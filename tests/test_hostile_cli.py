@@ -17,6 +17,9 @@ TABLE = ["table", DEMO, "-p", "orr-4e"]
 ROUTES = ["routes", DEMO, "--from", "CO2", "--to", "CH4"]
 VOLCANO = ["volcano", DEMO, "-p", "orr-4e", "-d", "OH*"]
 REPORT = ["report", DEMO, "-p", "orr-4e"]
+POURBAIX = ["pourbaix", "--demo"]
+CURRENTS = ["currents", DEMO, "-p", "orr-4e"]
+ROBUSTNESS = ["robustness", DEMO, "-p", "orr-4e", "-n", "20"]
 THERMO = ["thermo", "3650", "760", "--unit", "cm^-1"]
 
 
@@ -49,6 +52,18 @@ THERMO = ["thermo", "3650", "760", "--unit", "cm^-1"]
     (VOLCANO + ["--span", "nan", "1"], ["--span", "finite"]),
     (VOLCANO + ["--fix-slope", "OOH*=inf"], ["--fix-slope", "finite"]),
     (VOLCANO + ["--span", "2", "1"], ["--span", "LOW must be below HIGH"]),
+    (VOLCANO + ["--span", "0", "1e9"], ["--span", "0.001 to 50 eV wide"]),
+    (VOLCANO + ["--span", "0", "1e-9"], ["--span", "0.001 to 50 eV wide"]),
+    (POURBAIX + ["--range", "0", "nan"], ["--range", "'nan' is not a finite number"]),
+    (POURBAIX + ["--range", "2", "-1"], ["--range", "UMIN must be below UMAX"]),
+    (POURBAIX + ["--range", "0", "1e9"], ["--range", "give at most 20 V"]),  # was a 3.6 TiB allocation
+    (POURBAIX + ["--tolerance", "-1"], ["--tolerance", "eV >= 0"]),
+    (POURBAIX + ["--pH", "inf"], ["--pH", "finite"]),
+    (CURRENTS + ["--potentials", "0", "nan", "0.1"], ["--potentials", "finite"]),  # was an internal error
+    (CURRENTS + ["--symmetry-factor", "nan"], ["--symmetry-factor", "finite"]),
+    (ROBUSTNESS + ["--sigma", "inf"], ["--sigma", "finite"]),
+    (ROBUSTNESS + ["--sigma-of", "Q*=0.1"], ["--sigma-of 'Q*'", "cannot read 'Q'"]),
+    (ROBUSTNESS + ["--sigma-of", "CO*=0.1"], ["--sigma-of gives no standard deviation for O*, OH*, OOH*", "--sigma"]),
 ])
 def test_numeric_options_out_of_range(capsys, argv, fragments):
     fails(capsys, argv, *fragments)

@@ -272,11 +272,3 @@ def test_explorer_onset_table_flags_currents_beyond_mass_transport():
     assert "no transport model" in text
     assert "ecatlab-beyond-transport" not in onset_table_html(summary.iloc[1:], "caption")
 
-
-def test_cli_potentials_nan_exit_2_in_one_line(capsys):
-    """--potentials with NaN was an internal error (float NaN to integer); now argparse refuses it."""
-    from ecatlab.demo import demo_path
-
-    code = main(["currents", str(demo_path()), "-p", "orr-4e", "--potentials", "0", "nan", "0.1"])
-    err = capsys.readouterr().err
-    assert code == 2 and "'nan' is not a finite number" in err and err.strip().count("\n") == 0, err

@@ -9,6 +9,11 @@ from ecatlab.cli import _options as opt
 from ecatlab.errors import ScalingError, clip, clip_path
 
 
+#: Narrowest and widest descriptor range of --span, eV (common practice, no source: adsorption free
+#: energies of one descriptor across surfaces span a few eV; a range below 1 meV draws no volcano).
+MIN_SPAN_EV, MAX_SPAN_EV = 1e-3, 50.0
+
+
 def register(sub: argparse._SubParsersAction) -> None:
     p = sub.add_parser(
         "volcano",
@@ -80,6 +85,9 @@ def run(args: argparse.Namespace) -> int:
     (pathway,) = opt.pathway_list(args)
     if args.span and not args.span[0] < args.span[1]:
         raise ScalingError(f"--span {args.span[0]:g} {args.span[1]:g}: LOW must be below HIGH, e.g. --span -1 2")
+    if args.span and not MIN_SPAN_EV <= args.span[1] - args.span[0] <= MAX_SPAN_EV:
+        raise ScalingError(f"--span {args.span[0]:g} {args.span[1]:g}: the descriptor range must be {MIN_SPAN_EV:g} to "
+                           f"{MAX_SPAN_EV:g} eV wide (adsorption free energies span a few eV), e.g. --span -1 2")
     relations = _relations(args.relations)
     fixed = opt.number_pairs(args.fix_slope, "--fix-slope", "OOH*=1", ScalingError, form="ADSORBATE=SLOPE")
 
