@@ -397,8 +397,12 @@ def test_glyph_cache_draws_the_same_pixels_as_plain_agg(table):
     cached = len(textcache._GLYPHS)
     second = _full_draw_pixels(fig, textcache.GlyphCachingCanvas)  # served from the cache
     assert cached > 50 and len(textcache._GLYPHS) == cached  # the second draw rendered no glyph
+    joined = sum(len(placed) == 1 for placed in textcache._RUNS.values())
+    third = _full_draw_pixels(fig, textcache.GlyphCachingCanvas)  # strings composited as kept runs
+    assert joined > 10  # most strings are one joined bitmap from here on
     assert np.array_equal(first, plain)
     assert np.array_equal(second, plain)
+    assert np.array_equal(third, plain)
     assert (plain[:, :, :3] < 128).any()  # the picture has dark text in it, not a blank canvas
 
 
@@ -427,6 +431,64 @@ def test_glyph_cache_falls_back_to_plain_agg_when_its_calls_fail(table, monkeypa
         fallback = _full_draw_pixels(fig, textcache.GlyphCachingCanvas)
     assert np.array_equal(fallback, plain)
     assert not textcache.supported()  # new explorers take the plain canvas (monkeypatch restores the flag)
+
+
+def test_joined_glyph_bitmaps_blend_like_one_glyph_at_a_time():
+    """A string's glyphs joined into few bitmaps must give Agg's per-glyph compositing, pixel for
+    pixel, also where glyphs ink the same pixels (those keep their order in later layers).
+    Synthetic coverage bitmaps; the reference is matplotlib's own ``draw_text_image`` per glyph."""
+    from matplotlib.backends.backend_agg import RendererAgg
+
+    from ecatlab.explorer import textcache
+
+    rng = np.random.default_rng(7)
+    glyphs = []
+    for i in range(12):  # 6 px apart and 8-10 px wide: neighbours overlap by a few columns
+        b = rng.integers(0, 256, size=(int(rng.integers(5, 11)), int(rng.integers(8, 11))), dtype=np.uint8)
+        b[rng.random(b.shape) < 0.4] = 0  # partly uninked, as glyph bitmaps are
+        glyphs.append((b, 3 + 6 * i, 20 + int(rng.integers(0, 6)), int(np.count_nonzero(b))))
+    glyphs.insert(3, (np.zeros((0, 0), dtype=np.uint8), 25, 20, 0))  # a space
+    glyphs.insert(5, (np.zeros((4, 4), dtype=np.uint8), 30, 22, 0))  # a bitmap with nothing inked
+    layers = textcache._join(glyphs)
+    assert 1 < len(layers) < len(glyphs)  # overlaps made layers, yet fewer calls than glyphs
+
+    def composite(items):
+        renderer = RendererAgg(90, 40, 72)
+        gc = renderer.new_gc()
+        gc.set_foreground((0.2, 0.4, 0.8, 1.0), isRGBA=True)
+        gc.set_alpha(0.7)
+        for b, left, bottom, *_ in items:
+            renderer._renderer.draw_text_image(b, left, bottom, 0, gc)
+        return np.asarray(renderer.buffer_rgba()).copy()
+
+    one_by_one = composite(glyphs)
+    assert np.array_equal(composite(layers), one_by_one)
+    assert len(np.unique(one_by_one.reshape(-1, 4), axis=0)) > 50  # a real blend, not a blank canvas
+
+
+def test_first_draw_after_a_rebuild_finds_its_text_prepared(table):
+    """The rebuild prepares the new texts (layouts, glyph bitmaps at their places): the first full
+    draw renders no glyph and lays out no string, and its picture equals a draw with every text
+    cache emptied first."""
+    from ecatlab.explorer import textcache
+
+    if not textcache.supported():
+        pytest.skip("this matplotlib lacks the glyph-level Agg calls; the plain canvas is used")
+    ex = explore(table, pathway="orr-4e", surfaces=table.surfaces[:8], render="inline")
+    view = ex.view
+    ex.reaction.value = "CO2RR"  # a pathway not drawn before in this test: new title, legend, state labels
+    ex.pathway.value = "co2rr-ch4"
+    view.rebuild(ex.state, "a heading never drawn before")
+    view.update(ex.state)
+    glyphs, layouts = len(textcache._GLYPHS), len(textcache._LAYOUTS)
+    view.redraw()
+    assert (len(textcache._GLYPHS), len(textcache._LAYOUTS)) == (glyphs, layouts)
+    warmed = np.asarray(view.figure.canvas.buffer_rgba()).copy()
+    textcache.clear()
+    view._legend_pixels = None
+    view.render_png()
+    assert len(textcache._GLYPHS) > 50  # this draw rendered every glyph afresh
+    assert np.array_equal(np.asarray(view.figure.canvas.buffer_rgba()), warmed)
 
 
 def test_pasted_legend_equals_a_drawn_legend(table):

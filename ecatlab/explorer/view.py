@@ -349,6 +349,26 @@ class DiagramView:
         self._background = None
         self._legend_pixels = None
         self._ylim = None
+        # the y-limits the update that follows every rebuild sets for these levels (it then keeps
+        # them), set here so that the tick labels they bring can be warmed with the rest
+        self._fit_ylim(np.asarray(levels, dtype=float))
+        self._warm_text()
+
+    def _warm_text(self) -> None:
+        """Prepare the texts the new content brings (title, legend rows, state and tick labels) now,
+        so that the first full draw after a rebuild finds their layouts and glyph bitmaps in the
+        text caches (:func:`ecatlab.explorer.textcache.warm`; nothing is drawn). This is mostly
+        work the first draw would otherwise do (text layout, glyph rendering): it moves into the
+        rebuild; a text prepared before at the same place is skipped."""
+        if self.mode != "inline":
+            return
+        from ecatlab.explorer import textcache
+
+        ax = self.ax
+        titles = [getattr(ax, name, None) for name in ("title", "_left_title", "_right_title")]  # left: the heading
+        texts = [*(t for t in titles if t is not None), ax.xaxis.label, ax.yaxis.label, *self._legend.texts,
+                 *ax.xaxis.get_ticklabels(), *ax.yaxis.get_ticklabels()]
+        textcache.warm(self.figure.canvas.get_renderer(), texts)
 
     def _make_room_for_state_labels(self) -> None:
         """Raise the Axes bottom when the state labels under them (rotated when crowded) would reach
@@ -558,19 +578,21 @@ class DiagramView:
         """The canvas buffer as PNG bytes (see :func:`fast_png`).
 
         After a full draw the rows outside the moving artists' band (title above; tick labels,
-        footnote below) are encoded once (:class:`_BandedPng`); moves on that background encode
-        only the band."""
+        footnote below) are encoded once (:class:`_BandedPng`) and the band is added to them; moves
+        on that background encode only the band again."""
         pixels = np.asarray(self.figure.canvas.buffer_rgba())
         key = (self._background_version, pixels.shape)
         if self._background is not None and getattr(self, "_png_key", None) == key:
             self.last_png = self._png_cache.encode(pixels)
             return self.last_png
-        self.last_png = fast_png(pixels)
         band = self._moving_band(pixels.shape[0]) if self._background is not None else None
-        if band is not None:
-            self._png_cache, self._png_key = _BandedPng(pixels, band), key
-        else:
+        if band is None:
             self._png_key = None
+            self.last_png = fast_png(pixels)
+            return self.last_png
+        # the rows outside the band are deflated once, here, and the band: each row once per full draw
+        self._png_cache, self._png_key = _BandedPng(pixels, band), key
+        self.last_png = self._png_cache.encode(pixels)
         return self.last_png
 
     def _moving_band(self, height: int) -> tuple[int, int] | None:
