@@ -524,13 +524,20 @@ def _dense_grouped(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_row
     table, species, surfaces = values.reshape(n_rows, n_cols), cols.reshape(n_rows, n_cols), rows.reshape(n_rows, n_cols)
     out = np.empty((n_cols, n_rows))  # species-major: the transpose is the Fortran-ordered matrix
     block = 1 << 9  # surfaces per block: checked and transposed while in cache
-    for start in range(0, n_rows, block):
-        stop = min(start + block, n_rows)
-        if not proven:
-            expected = np.arange(start, stop, dtype=surfaces.dtype)[:, None]
-            if not ((species[start:stop] == order).all() and (surfaces[start:stop] == expected).all()):
-                return None
-        out[:, start:stop] = (table[start:stop] if in_order else table[start:stop, inverse]).T
+
+    def fill(lo: int, hi: int) -> bool:
+        for start in range(lo, hi, block):
+            stop = min(start + block, hi)
+            if not proven:
+                expected = np.arange(start, stop, dtype=surfaces.dtype)[:, None]
+                if not ((species[start:stop] == order).all() and (surfaces[start:stop] == expected).all()):
+                    return False
+            out[:, start:stop] = (table[start:stop] if in_order else table[start:stop, inverse]).T
+        return True
+
+    pieces = _row_pieces(n_rows * n_cols, align=block * n_cols)  # threads: the new matrix is written (and paged in) in parallel
+    if not all(_concurrently([lambda lo=lo, hi=hi: fill(lo // n_cols, hi // n_cols) for lo, hi in pieces])):
+        return None
     dense = out.T
     dense.flags.writeable = False
     return dense
@@ -628,25 +635,81 @@ def _encode_runs(chunked) -> tuple[np.ndarray, object, int | None] | None:
     probe = min(n, 1 << 16)
     if probe < n and pc.sum(pc.not_equal(chunked[1:probe], chunked[: probe - 1])).as_py() >= probe // 2:
         return None  # the first rows are not grouped: do not compare the whole column
-    change = pc.not_equal(chunked[1:], chunked[:-1])  # one bit per row after the first
-    n_heads = 1 + (pc.sum(change).as_py() or 0)
+    pieces = _row_pieces(n)  # consecutive row ranges, compared in parallel (Arrow kernels release the GIL)
+    found = _concurrently([lambda lo=lo, hi=hi: _run_heads(chunked[lo:hi], lo) for lo, hi in pieces])
+    starts_parts, head_chunks = [np.zeros(1, dtype=np.int64)], list(chunked[:1].chunks)
+    for (lo, _), (starts_in, heads_in) in zip(pieces, found):
+        if lo and chunked[lo].as_py() != chunked[lo - 1].as_py():  # the first row of a piece against the row above it
+            starts_parts.append(np.array([lo], dtype=np.int64))
+            head_chunks += chunked[lo : lo + 1].chunks
+        starts_parts.append(starts_in)
+        head_chunks += heads_in
+    starts = np.concatenate(starts_parts)
+    n_heads = len(starts)
     if n_heads > n // 2:  # not grouped: hashing every row is cheaper
         return None
-    starts = np.empty(n_heads, dtype=np.int64)
-    starts[0] = 0
-    starts[1:] = np.asarray(pc.indices_nonzero(change))
-    starts[1:] += 1
-    heads = pa.chunked_array(chunked[:1].chunks + chunked[1:].filter(change).chunks, type=chunked.type).combine_chunks()
-    del change
+    heads = pa.chunked_array(head_chunks, type=chunked.type).combine_chunks()
+    del head_chunks, found
     lengths = np.diff(starts, append=n)
     if _strictly_increasing(heads):
         dictionary = heads
         run = int(lengths[0]) if lengths.min() == lengths.max() else None
-        return np.repeat(np.arange(n_heads, dtype=np.int32), lengths), dictionary, run
+        if run is None:
+            return np.repeat(np.arange(n_heads, dtype=np.int32), lengths), dictionary, None
+        codes = np.empty(n, dtype=np.int32)  # row // run, written by the lanes
+        grid = codes.reshape(n_heads, run)
+
+        def fill(lo: int, hi: int) -> None:
+            grid[lo:hi] = np.arange(lo, hi, dtype=np.int32)[:, None]
+
+        _concurrently([lambda lo=lo, hi=hi: fill(lo // run, hi // run) for lo, hi in _row_pieces(n, align=run)])
+        return codes, dictionary, run
     encoded = heads.dictionary_encode()  # in order of first appearance
     head_codes, dictionary = np.asarray(encoded.indices, dtype=np.int32), encoded.dictionary
     run = int(lengths[0]) if len(dictionary) == n_heads and lengths.min() == lengths.max() else None
     return np.repeat(head_codes, lengths), dictionary, run
+
+
+def _run_heads(piece, first_row: int) -> tuple[np.ndarray, list]:
+    """Within one piece of a column: row numbers (in the whole column) of the rows that differ from
+    the row above, and those rows (Arrow chunks)."""
+    pc = _pyarrow().compute
+    change = pc.not_equal(piece[1:], piece[:-1])
+    starts = np.asarray(pc.indices_nonzero(change)).view(np.int64) + (first_row + 1)  # uint64 row numbers below 2**63
+    return starts, piece[1:].filter(change).chunks
+
+
+_PARALLEL_ROWS = 1 << 20  # rows from which per-row passes are split over threads
+
+
+def _lanes() -> int:
+    """Threads for the per-row passes of a large table: the CPUs this process may use, at most 4."""
+    try:
+        available = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # pragma: no cover - not Linux
+        available = os.cpu_count() or 1
+    return max(1, min(available, 4))
+
+
+def _row_pieces(n: int, align: int = 1) -> list[tuple[int, int]]:
+    """(start, stop) of consecutive row ranges covering 0..n: one per lane for a large table, else
+    one; inner bounds are multiples of ``align``."""
+    lanes = _lanes() if n >= _PARALLEL_ROWS else 1
+    bounds = [0] + [min(n, (n * k // lanes) // align * align) for k in range(1, lanes)] + [n]
+    return [(lo, hi) for lo, hi in zip(bounds[:-1], bounds[1:]) if hi > lo]
+
+
+def _concurrently(tasks: list) -> list:
+    """Results of the callables in order: the first runs in this thread, the others in worker
+    threads (numpy and Arrow kernels release the GIL). An exception is raised after all finished."""
+    if len(tasks) == 1:
+        return [tasks[0]()]
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(max_workers=len(tasks) - 1) as pool:
+        futures = [pool.submit(task) for task in tasks[1:]]
+        first = tasks[0]()
+        return [first] + [f.result() for f in futures]
 
 
 def _strictly_increasing(strings) -> bool:
@@ -868,7 +931,18 @@ class _FileLines:
         """Line numbers of data rows 0..n-1."""
         dtype = np.int32 if n + self._offset + len(self._adjusted) + 1 < 2**31 - 1 else np.int64
         if not len(self._adjusted):
-            return np.arange(self._offset + 1, n + self._offset + 1, dtype=dtype)
+            pieces = _row_pieces(n)
+            if len(pieces) == 1:
+                return np.arange(self._offset + 1, n + self._offset + 1, dtype=dtype)
+            out = np.empty(n, dtype=dtype)  # written by the lanes, in cache-sized steps
+
+            def fill(lo: int, hi: int) -> None:
+                for start in range(lo, hi, 1 << 16):
+                    stop = min(start + (1 << 16), hi)
+                    out[start:stop] = np.arange(start + self._offset + 1, stop + self._offset + 1, dtype=dtype)
+
+            _concurrently([lambda lo=lo, hi=hi: fill(lo, hi) for lo, hi in pieces])
+            return out
         return self(np.arange(n, dtype=np.int64)).astype(dtype, copy=False)
 
     def __call__(self, positions: np.ndarray) -> np.ndarray:
@@ -1069,6 +1143,12 @@ def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, "_Locations"]:
 
 def _parse(path: str, label: str, scan: _Scan, names: list[str], skiprows: list[int]) -> pd.DataFrame:
     """pandas' C parser straight from the file, from the header line on: numbers as float, text as ``str``.
+
+    When the header is the file's first line pandas gets the path, as in a plain
+    ``pd.read_csv(path)``: pandas 3.1 then reads a file of 5 MiB or more with several threads
+    (falling back to one for anything its split cannot do, e.g. a list ``skiprows``); a file
+    handle would always be read with one. Comment or blank lines (or a BOM) before the header:
+    a handle positioned at the header.
 
     A number the C parser cannot read (text, ``nan``, blanks) sends the file through a second
     read with every column as text, so the validation can name the cell.
