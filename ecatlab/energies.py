@@ -40,6 +40,7 @@ worked out only when a message needs them.
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import os
 import re
@@ -507,25 +508,36 @@ def _small_code_type(n_values: int) -> type:
     return np.int8 if n_values < 2**7 else np.int16 if n_values < 2**15 else np.int32 if n_values < 2**31 else np.int64
 
 
-def _dense_grouped(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_rows: int, n_cols: int) -> np.ndarray | None:
+def _dense_grouped(rows: np.ndarray, cols: np.ndarray, values: np.ndarray, n_rows: int, n_cols: int, proven: bool = False) -> np.ndarray | None:
     """The dense matrix of :func:`_dense` for the usual layout, without a scatter: every surface's
     rows together (surface codes 0, 0, ..., 1, 1, ...), each with all species in one common order.
-    ``None`` when the table has another layout (the caller scatters)."""
+    ``None`` when the table has another layout (the caller scatters). ``proven``: the encoders
+    already showed that layout (surface runs of ``n_cols`` rows, species repeating every ``n_cols``
+    rows), so the codes are not compared again."""
     if n_rows < 1 << 15 or n_cols == 0 or len(values) != n_rows * n_cols:  # small tables: the scatter is as fast
         return None
     order = cols[:n_cols]
     if len(np.unique(order)) != n_cols:
         return None
     inverse = np.argsort(order)  # position within a surface's rows of species 0, 1, ...
+    in_order = bool(np.array_equal(inverse, np.arange(n_cols)))  # species in code order: no column gather
     table, species, surfaces = values.reshape(n_rows, n_cols), cols.reshape(n_rows, n_cols), rows.reshape(n_rows, n_cols)
     out = np.empty((n_cols, n_rows))  # species-major: the transpose is the Fortran-ordered matrix
-    block = 1 << 11  # surfaces per block: checked and transposed while in cache
-    for start in range(0, n_rows, block):
-        stop = min(start + block, n_rows)
-        expected = np.arange(start, stop, dtype=surfaces.dtype)[:, None]
-        if not ((species[start:stop] == order).all() and (surfaces[start:stop] == expected).all()):
-            return None
-        out[:, start:stop] = table[start:stop, inverse].T
+    block = 1 << 9  # surfaces per block: checked and transposed while in cache
+
+    def fill(lo: int, hi: int) -> bool:
+        for start in range(lo, hi, block):
+            stop = min(start + block, hi)
+            if not proven:
+                expected = np.arange(start, stop, dtype=surfaces.dtype)[:, None]
+                if not ((species[start:stop] == order).all() and (surfaces[start:stop] == expected).all()):
+                    return False
+            out[:, start:stop] = (table[start:stop] if in_order else table[start:stop, inverse]).T
+        return True
+
+    pieces = _row_pieces(n_rows * n_cols, align=block * n_cols)  # threads: the new matrix is written (and paged in) in parallel
+    if not all(_concurrently([lambda lo=lo, hi=hi: fill(lo // n_cols, hi // n_cols) for lo, hi in pieces])):
+        return None
     dense = out.T
     dense.flags.writeable = False
     return dense
@@ -550,34 +562,41 @@ def _order_by_first(codes: np.ndarray, n_values: int) -> tuple[np.ndarray, np.nd
     return remap[codes], order
 
 
-def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
-    """(codes, distinct values) of a text column in order of first appearance; missing -> ''.
+def _encode_text(column: pd.Series, period: int | None = None) -> tuple[np.ndarray, object, int | None]:
+    """(codes, distinct values, regular) of a text column in order of first appearance; missing -> ''.
 
-    Arrow-backed strings are coded by runs of equal values (:func:`_encode_runs`: only the first
-    row of each run is hashed, or none when those are proven distinct), else dictionary-encoded by
-    Arrow in one pass; Categoricals (the C parser
-    hands the species column over as one) use their codes; anything else goes through
-    :func:`pandas.factorize`. The distinct values come back as a pyarrow string array when pyarrow
-    is installed, else as an object ndarray (not yet stripped).
+    Arrow-backed strings (what the CSV reader hands over) are coded, cheapest first, as a column
+    that repeats every ``period`` rows (:func:`_encode_periodic`: the species of a table where every
+    surface lists them in one order), by runs of equal values (:func:`_encode_runs`: the surfaces),
+    else dictionary-encoded by Arrow in one pass. Categoricals use their codes; anything else goes
+    through :func:`pandas.factorize`. The distinct values come back as a pyarrow string array when
+    pyarrow is installed, else as an object ndarray (not yet stripped).
+
+    ``regular`` is L when the codes are known to follow row position: ``row // L`` (runs of L rows
+    with distinct values) or the first L rows' codes repeated (periodic); else ``None``.
     """
     arr = column.array
     pa_array = getattr(arr, "_pa_array", None)
     if pa_array is not None:
+        if period:
+            periodic = _encode_periodic(pa_array, period)
+            if periodic is not None:
+                return (*periodic, period)
         runs = _encode_runs(pa_array)
         if runs is not None:
             return runs
         encoded = pa_array.dictionary_encode()
         chunks = encoded.chunks
         if not chunks:
-            return np.zeros(0, dtype=np.int64), _as_distinct([])
+            return np.zeros(0, dtype=np.int64), _as_distinct([]), None
         dictionary = chunks[-1].dictionary  # one memo table: each chunk's dictionary is a prefix of the last
         parts = [np.asarray(c.indices.fill_null(len(dictionary))) if c.null_count else np.asarray(c.indices) for c in chunks]
         codes = np.concatenate(parts) if len(parts) > 1 else parts[0]
         if any(c.null_count for c in chunks):  # missing cells: one more value, ''
             dictionary = _concat_distinct(dictionary, [""])
             codes, order = _order_by_first(codes, len(dictionary))
-            return codes, dictionary.take(order)
-        return codes, dictionary
+            return codes, dictionary.take(order), None
+        return codes, dictionary, None
     if isinstance(column.dtype, pd.CategoricalDtype):
         codes = column.cat.codes.to_numpy()
         cats = list(column.cat.categories)
@@ -585,7 +604,7 @@ def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
             codes = np.where(codes < 0, len(cats), codes)
             cats.append("")
         codes, order = _order_by_first(codes, len(cats))
-        return codes, _as_distinct(["" if v is None or (isinstance(v, float) and v != v) else str(v) for v in (cats[i] for i in order)])
+        return codes, _as_distinct(["" if v is None or (isinstance(v, float) and v != v) else str(v) for v in (cats[i] for i in order)]), None
     codes, uniques = pd.factorize(column, use_na_sentinel=True)
     values = [str(u) for u in uniques]
     if (codes < 0).any():
@@ -593,80 +612,178 @@ def _encode_text(column: pd.Series) -> tuple[np.ndarray, object]:
         values.append("")
         codes, order = _order_by_first(codes, len(values))
         values = [values[i] for i in order]
-    return codes, _as_distinct(values)
+    return codes, _as_distinct(values), None
 
 
-def _encode_runs(chunked) -> tuple[np.ndarray, object] | None:
-    """(codes, distinct values) of an Arrow string column whose equal values mostly stand together.
+def _encode_runs(chunked) -> tuple[np.ndarray, object, int | None] | None:
+    """(codes, distinct values, run length) of an Arrow string column whose equal values mostly
+    stand together.
 
-    A row equal to the row above gets its code; only the first row of each run is hashed. When the
-    run heads are proven distinct by :func:`_proven_distinct` (the usual table: each surface's rows
-    together) the codes are the run numbers, else the heads are dictionary-encoded. ``None`` (the
-    caller encodes every row) for missing cells or when runs are short (rows not grouped).
+    A row equal to the row above gets its code; only the first row of each run is looked at. When
+    the run heads are in strictly increasing order (:func:`_strictly_increasing`: the usual table,
+    each surface's rows together, surfaces in sorted or numbered order) they are distinct and the
+    codes are the run numbers, else the heads are dictionary-encoded. The run length is L when the
+    heads are distinct and every run has L rows (codes = row // L), else ``None``. ``None`` overall
+    (the caller encodes every row) for missing cells or when runs are short (rows not grouped;
+    a prefix of the column decides that before the whole column is compared).
     """
     pa = _pyarrow()
     n = len(chunked)
     if pa is None or n < 2 or chunked.null_count:
         return None
     pc = pa.compute
-    head = np.empty(n, dtype=bool)
-    head[0] = True
-    head[1:] = pc.not_equal(chunked[1:], chunked[:-1]).to_numpy(zero_copy_only=False)
-    starts = np.flatnonzero(head)
-    if len(starts) > n // 2:  # not grouped: hashing every row is cheaper
+    probe = min(n, 1 << 16)
+    if probe < n and pc.sum(pc.not_equal(chunked[1:probe], chunked[: probe - 1])).as_py() >= probe // 2:
+        return None  # the first rows are not grouped: do not compare the whole column
+    pieces = _row_pieces(n)  # consecutive row ranges, compared in parallel (Arrow kernels release the GIL)
+    found = _concurrently([lambda lo=lo, hi=hi: _run_heads(chunked[lo:hi], lo) for lo, hi in pieces])
+    starts_parts, head_chunks = [np.zeros(1, dtype=np.int64)], list(chunked[:1].chunks)
+    for (lo, _), (starts_in, heads_in) in zip(pieces, found):
+        if lo and chunked[lo].as_py() != chunked[lo - 1].as_py():  # the first row of a piece against the row above it
+            starts_parts.append(np.array([lo], dtype=np.int64))
+            head_chunks += chunked[lo : lo + 1].chunks
+        starts_parts.append(starts_in)
+        head_chunks += heads_in
+    starts = np.concatenate(starts_parts)
+    n_heads = len(starts)
+    if n_heads > n // 2:  # not grouped: hashing every row is cheaper
         return None
-    heads = chunked.filter(pa.array(head)).combine_chunks()
-    del head
-    if _proven_distinct(heads):
-        head_codes, dictionary = np.arange(len(heads), dtype=np.int32), heads
-    else:
-        encoded = heads.dictionary_encode()  # in order of first appearance
-        head_codes, dictionary = np.asarray(encoded.indices, dtype=np.int32), encoded.dictionary
+    heads = pa.chunked_array(head_chunks, type=chunked.type).combine_chunks()
+    del head_chunks, found
     lengths = np.diff(starts, append=n)
-    return np.repeat(head_codes, lengths), dictionary
+    if _strictly_increasing(heads):
+        dictionary = heads
+        run = int(lengths[0]) if lengths.min() == lengths.max() else None
+        if run is None:
+            return np.repeat(np.arange(n_heads, dtype=np.int32), lengths), dictionary, None
+        codes = np.empty(n, dtype=np.int32)  # row // run, written by the lanes
+        grid = codes.reshape(n_heads, run)
+
+        def fill(lo: int, hi: int) -> None:
+            grid[lo:hi] = np.arange(lo, hi, dtype=np.int32)[:, None]
+
+        _concurrently([lambda lo=lo, hi=hi: fill(lo // run, hi // run) for lo, hi in _row_pieces(n, align=run)])
+        return codes, dictionary, run
+    encoded = heads.dictionary_encode()  # in order of first appearance
+    head_codes, dictionary = np.asarray(encoded.indices, dtype=np.int32), encoded.dictionary
+    run = int(lengths[0]) if len(dictionary) == n_heads and lengths.min() == lengths.max() else None
+    return np.repeat(head_codes, lengths), dictionary, run
 
 
-_FINGERPRINT_BASE = 0x9E3779B97F4A7C15  # odd, so invertible modulo 2**64
+def _run_heads(piece, first_row: int) -> tuple[np.ndarray, list]:
+    """Within one piece of a column: row numbers (in the whole column) of the rows that differ from
+    the row above, and those rows (Arrow chunks)."""
+    pc = _pyarrow().compute
+    change = pc.not_equal(piece[1:], piece[:-1])
+    starts = np.asarray(pc.indices_nonzero(change)).view(np.int64) + (first_row + 1)  # uint64 row numbers below 2**63
+    return starts, piece[1:].filter(change).chunks
 
 
-def _proven_distinct(strings) -> bool:
-    """True when the values of an Arrow string array are pairwise distinct, proven without hashing
-    them as text.
+_PARALLEL_ROWS = 1 << 20  # rows from which per-row passes are split over threads
 
-    Each value gets a 64-bit fingerprint, the polynomial sum_j (byte_j + 1) R**j over its bytes
-    (modulo 2**64, R odd), plus its length; equal strings have equal fingerprints, so distinct
-    fingerprints prove distinct strings. All fingerprints come from one pass over the array's byte
-    buffer (running powers of R and of its inverse). False means "not proven" (real duplicates or
-    a fingerprint collision); the caller then hashes the text.
+
+def _lanes() -> int:
+    """Threads for the per-row passes of a large table: the CPUs this process may use, at most 4."""
+    try:
+        available = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # pragma: no cover - not Linux
+        available = os.cpu_count() or 1
+    return max(1, min(available, 4))
+
+
+def _row_pieces(n: int, align: int = 1) -> list[tuple[int, int]]:
+    """(start, stop) of consecutive row ranges covering 0..n: one per lane for a large table, else
+    one; inner bounds are multiples of ``align``."""
+    lanes = _lanes() if n >= _PARALLEL_ROWS else 1
+    bounds = [0] + [min(n, (n * k // lanes) // align * align) for k in range(1, lanes)] + [n]
+    return [(lo, hi) for lo, hi in zip(bounds[:-1], bounds[1:]) if hi > lo]
+
+
+def _concurrently(tasks: list) -> list:
+    """Results of the callables in order: the first runs in this thread, the others in worker
+    threads (numpy and Arrow kernels release the GIL). An exception is raised after all finished."""
+    if len(tasks) == 1:
+        return [tasks[0]()]
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(max_workers=len(tasks) - 1) as pool:
+        futures = [pool.submit(task) for task in tasks[1:]]
+        first = tasks[0]()
+        return [first] + [f.result() for f in futures]
+
+
+def _strictly_increasing(strings) -> bool:
+    """True when every value of an Arrow string array sorts after the one before it, either by its
+    bytes or by (length, bytes); either order is strict and total, so the values are then pairwise
+    distinct. False means "not shown" (the caller hashes them): names in another order, or repeats.
     """
     pa = _pyarrow()
-    n = len(strings)
-    if n < 2:
+    if len(strings) < 2:
         return True
-    if strings.null_count or not (pa.types.is_string(strings.type) or pa.types.is_large_string(strings.type)):
-        return False
-    buffers = strings.buffers()
-    offset_type = np.int64 if pa.types.is_large_string(strings.type) else np.int32
-    offsets = np.frombuffer(buffers[1], dtype=offset_type)[strings.offset : strings.offset + n + 1].astype(np.int64)
-    lo, hi = int(offsets[0]), int(offsets[-1])
-    starts = offsets[:-1] - lo
-    data = np.frombuffer(buffers[2], dtype=np.uint8)[lo:hi] if hi > lo else np.zeros(0, dtype=np.uint8)
-    terms = np.full(hi - lo + 1, np.uint64(_FINGERPRINT_BASE))
-    terms[0] = 1
-    np.cumprod(terms, out=terms)  # R**j at byte j of the buffer (integer arrays wrap modulo 2**64)
-    terms[:-1] *= data + np.uint64(1)
-    terms[-1] = 0  # a trailing empty string reduces over this zero
-    fingerprint = np.add.reduceat(terms, starts)  # sum over each value's bytes (an empty value: fixed below)
-    terms[:] = np.uint64(pow(_FINGERPRINT_BASE, -1, 2**64))
-    terms[0] = 1
-    np.cumprod(terms, out=terms)  # R**-j: shifts each sum to start at R**0
-    fingerprint *= terms[starts]
-    del terms
-    lengths = np.diff(offsets)
-    fingerprint[lengths == 0] = 0
-    fingerprint ^= lengths.astype(np.uint64) << np.uint64(48)
-    fingerprint.sort()
-    return not bool(np.any(fingerprint[1:] == fingerprint[:-1]))
+    pc = pa.compute
+    earlier, later = strings[:-1], strings[1:]
+    by_bytes = pc.less(earlier, later)
+    if pc.all(by_bytes).as_py():
+        return True
+    length = pc.binary_length(strings).to_numpy(zero_copy_only=False)
+    shorter, same = length[:-1] < length[1:], length[:-1] == length[1:]
+    return bool(np.all(shorter | (same & by_bytes.to_numpy(zero_copy_only=False))))
+
+
+def _encode_periodic(chunked, period: int) -> tuple[np.ndarray, object] | None:
+    """(codes, distinct values) of an Arrow string column whose rows repeat every ``period`` rows
+    (row i holds the value of row i % period; the species when every surface lists them in one
+    order), else ``None``.
+
+    Shown without comparing strings row by row: within each chunk of the column the offsets show
+    that row i + period has the length of row i, and one memory comparison of the value bytes
+    against themselves shifted by one period's bytes shows equal contents; each chunk's first
+    ``period`` rows are compared with the column's first ``period`` rows at the chunk's phase.
+    """
+    pa = _pyarrow()
+    n = len(chunked)
+    if pa is None or period < 1 or n < 2 * period or n % period or chunked.null_count:
+        return None
+    if not (pa.types.is_string(chunked.type) or pa.types.is_large_string(chunked.type)):
+        return None
+    offset_type = np.int64 if pa.types.is_large_string(chunked.type) else np.int32
+    reference = chunked[:period].combine_chunks()
+    position = 0
+    for chunk in chunked.chunks:
+        m = len(chunk)
+        if not m:
+            continue
+        phase, head = position % period, min(m, period)
+        position += m
+        if phase + head <= period:
+            expected = reference[phase : phase + head]
+        else:
+            expected = pa.concat_arrays([reference[phase:], reference[: phase + head - period]])
+        if not chunk[:head].equals(expected):
+            return None
+        if m > period:
+            buffers = chunk.buffers()
+            offsets = np.frombuffer(buffers[1], dtype=offset_type)[chunk.offset : chunk.offset + m + 1]
+            window = offsets[period:] - offsets[:-period]  # bytes of `period` rows from each row on
+            step = int(window[0])
+            if not (window == step).all():
+                return None
+            lo, hi = int(offsets[0]), int(offsets[-1])
+            if hi - lo > step:
+                data = buffers[2]
+                if not data.slice(lo + step, hi - lo - step).equals(data.slice(lo, hi - lo - step)):
+                    return None
+    encoded = reference.dictionary_encode()  # in order of first appearance: every value occurs in the first period
+    dictionary = encoded.dictionary
+    first = np.asarray(encoded.indices).astype(_small_code_type(len(dictionary)))
+    codes = np.empty(n, dtype=first.dtype)
+    codes[:period] = first
+    filled = period
+    while filled < n:  # doubling copies
+        step = min(filled, n - filled)
+        codes[filled : filled + step] = codes[:step]
+        filled += step
+    return codes, dictionary
 
 
 def _release_memory() -> None:
@@ -814,7 +931,18 @@ class _FileLines:
         """Line numbers of data rows 0..n-1."""
         dtype = np.int32 if n + self._offset + len(self._adjusted) + 1 < 2**31 - 1 else np.int64
         if not len(self._adjusted):
-            return np.arange(self._offset + 1, n + self._offset + 1, dtype=dtype)
+            pieces = _row_pieces(n)
+            if len(pieces) == 1:
+                return np.arange(self._offset + 1, n + self._offset + 1, dtype=dtype)
+            out = np.empty(n, dtype=dtype)  # written by the lanes, in cache-sized steps
+
+            def fill(lo: int, hi: int) -> None:
+                for start in range(lo, hi, 1 << 16):
+                    stop = min(start + (1 << 16), hi)
+                    out[start:stop] = np.arange(start + self._offset + 1, stop + self._offset + 1, dtype=dtype)
+
+            _concurrently([lambda lo=lo, hi=hi: fill(lo, hi) for lo, hi in pieces])
+            return out
         return self(np.arange(n, dtype=np.int64)).astype(dtype, copy=False)
 
     def __call__(self, positions: np.ndarray) -> np.ndarray:
@@ -838,7 +966,7 @@ def _scheme(references, temperature) -> ReferenceScheme:
 
 
 # -- the CSV file -----------------------------------------------------------------------------------
-_CHUNK = 1 << 22  # 4 MiB per read while scanning (bounded memory)
+_CHUNK = 1 << 18  # 256 KiB per read while scanning (bounded memory; stays in the CPU cache for the several passes)
 _SKIP_LINE = re.compile(rb"\n(?=[ \t]*(?:#|\r?\n|\r?\Z))")  # a blank or comment line starts after this line end
 
 
@@ -848,7 +976,6 @@ class _Scan:
     def __init__(self) -> None:
         self.n_lines = 0  # physical lines (a last line without line end counts)
         self.has_hash = False  # '#' anywhere (only then can there be comment lines)
-        self.has_cr = False
         self.header_line = -1  # 0-based index of the first line that is neither blank nor a comment
         self.header_offset = 0  # byte offset of that line
         self.header_text = ""
@@ -913,7 +1040,6 @@ def _scan_file(path: str, label: str) -> _Scan:
             elif decoder.getstate()[0]:
                 decoder.decode(piece)  # raises: a multi-byte character cut off by plain ASCII
             scan.has_hash = scan.has_hash or b"#" in piece
-            scan.has_cr = scan.has_cr or b"\r" in piece
             lines_before += _newlines(piece)
             last = piece[-1:]
         try:
@@ -933,7 +1059,7 @@ def _scan_file(path: str, label: str) -> _Scan:
                 scan.header_line, scan.header_offset, scan.header_text = k, offset + start, text.rstrip("\r\n")
                 break
             offset += len(raw)
-    if scan.has_cr and lines_before == 0 and "\r" in scan.header_text:
+    if lines_before == 0 and "\r" in scan.header_text:  # no line feed at all, a CR in the first line
         raise EnergyTableError(label, "uses CR-only line ends (old Mac format); save the table with LF or CRLF line ends")
     return scan
 
@@ -1018,28 +1144,36 @@ def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, "_Locations"]:
 def _parse(path: str, label: str, scan: _Scan, names: list[str], skiprows: list[int]) -> pd.DataFrame:
     """pandas' C parser straight from the file, from the header line on: numbers as float, text as ``str``.
 
+    When the header is the file's first line pandas gets the path, as in a plain
+    ``pd.read_csv(path)``: pandas 3.1 then reads a file of 5 MiB or more with several threads
+    (falling back to one for anything its split cannot do, e.g. a list ``skiprows``); a file
+    handle would always be read with one. Comment or blank lines (or a BOM) before the header:
+    a handle positioned at the header.
+
     A number the C parser cannot read (text, ``nan``, blanks) sends the file through a second
     read with every column as text, so the validation can name the cell.
     """
     numeric = [c for c in names if c.strip().lower() in ("g", "e", "zpe", "cpdt", "ts", "solvation")]
-    text = dict.fromkeys((c for c in names if c not in numeric), _text_dtype())
-    for c in names:  # few distinct values: the C parser hashes them itself and hands over codes
-        if c.strip().lower() == "species":
-            text[c] = "category"
+    text = dict.fromkeys((c for c in names if c not in numeric), _text_dtype())  # species too: coded from its period, or hashed once
     kwargs = dict(header=0, skiprows=set(skiprows) if skiprows else None, keep_default_na=False, index_col=False,
                   encoding="utf-8", engine="c", skip_blank_lines=True)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("error", pd.errors.ParserWarning)
-            with open(path, "rb") as fh:
-                fh.seek(scan.header_offset)
+            with contextlib.ExitStack() as stack:
+                if scan.header_offset == 0:  # the header is the first line: give pandas the path (it may split the file over threads)
+                    source = path
+                else:  # comment or blank lines (or a BOM) before the header: start the parser at the header
+                    source = stack.enter_context(open(path, "rb"))
+                    source.seek(scan.header_offset)
                 try:
-                    return pd.read_csv(fh, dtype={**text, **{c: float for c in numeric}}, na_values={c: [""] for c in numeric}, **kwargs)
+                    return pd.read_csv(source, dtype={**text, **{c: float for c in numeric}}, na_values={c: [""] for c in numeric}, **kwargs)
                 except ValueError as exc:
                     if isinstance(exc, (pd.errors.ParserError, UnicodeDecodeError)):
                         raise
-                fh.seek(scan.header_offset)
-                return pd.read_csv(fh, dtype=str, **kwargs)
+                if not isinstance(source, str):
+                    source.seek(scan.header_offset)
+                return pd.read_csv(source, dtype=str, **kwargs)
     except (pd.errors.ParserError, pd.errors.ParserWarning, csv.Error) as exc:
         _diagnose(path, label, scan, len(names))
         raise EnergyTableError(label, f"is not a valid CSV table ({_cut(str(exc).strip(), 120)}); check separators and quoting") from None
@@ -1146,10 +1280,13 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
     loc = locations
 
     # -- surfaces: checked once per distinct name -------------------------------------------------
-    surface_codes, distinct = _encode_text(frame["surface"])
+    surface_codes, distinct, run = _encode_text(frame["surface"])  # run: L when surface codes are row // L
     cleaned, changed, *masks = _clean_distinct(distinct)
     _text_checks(label, loc, surface_codes, cleaned, masks, "surface")
-    surface_codes, surface_names = _merge_codes(surface_codes, cleaned, changed)
+    merged_codes, surface_names = _merge_codes(surface_codes, cleaned, changed)
+    if merged_codes is not surface_codes:
+        surface_codes, run = merged_codes, None
+    del merged_codes
     del distinct, cleaned
     extra_columns = [c for c in frame if c not in ("surface", "species", "G")]
     del frame["surface"]  # the per-cell text is no longer needed
@@ -1157,7 +1294,7 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
         _release_memory()
 
     # -- species: parsed once per distinct text -------------------------------------------------------
-    species_codes, distinct = _encode_text(frame["species"])
+    species_codes, distinct, period = _encode_text(frame["species"], period=run)  # period: species repeat every `run` rows
     species_texts, _, *_ignored = _clean_distinct(distinct)
     del frame["species"]
     keys = []
@@ -1216,7 +1353,7 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
                 column=col,
             )
         numeric[col] = values
-    has_g = (np.ones(n, bool) if "G" in all_finite else np.isfinite(numeric["G"])) if "G" in numeric else np.zeros(n, bool)
+    has_g = (np.broadcast_to(True, n) if "G" in all_finite else np.isfinite(numeric["G"])) if "G" in numeric else np.zeros(n, bool)  # read-only
     has_e = (np.ones(n, bool) if "E" in all_finite else np.isfinite(numeric["E"])) if "E" in numeric else np.zeros(n, bool)
     if not ("G" in all_finite or "E" in all_finite):  # else every row has an energy
         neither = ~has_g & ~has_e
@@ -1293,7 +1430,8 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
                 notes.append(f"solvation empty on {empty_solv} rows with E: taken as 0 eV")
     if has_g.any():
         notes.append(f"G taken as given for {int(has_g.sum())} rows")
-    dense = _dense_grouped(surface_codes, species_codes, G, len(surface_names), len(key_names))  # no duplicates possible
+    proven = run is not None and period == run == len(key_names)  # codes follow row position: the layout is known
+    dense = _dense_grouped(surface_codes, species_codes, G, len(surface_names), len(key_names), proven)  # no duplicates possible
     scattered = dense is None
     if scattered:
         dense = _dense(surface_codes, species_codes, G, len(surface_names), len(key_names))
@@ -1307,7 +1445,7 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
 
     surface_index = pd.Index(surface_names, name="surface", dtype=object)
     species_index = pd.Index(key_names, name="species", dtype=object)
-    origin = _categorical(has_e.astype(np.int8), pd.Index(["G given", "from E + corrections"], dtype=object))
+    origin = _categorical(has_e.view(np.int8), pd.Index(["G given", "from E + corrections"], dtype=object))  # 0/1, no copy
     data = {
         "surface": _categorical(surface_codes, surface_index),
         "species": _categorical(species_codes, species_index),
