@@ -103,10 +103,27 @@ class _ReadOnlyFrame:
     def __get__(self, obj, objtype=None):
         if obj is None:
             raise AttributeError("frame")  # no class-level default (a required dataclass field)
-        return obj.__dict__["_frame"].copy(deep=False)
+        return _full_frame(obj).copy(deep=False)
 
     def __set__(self, obj, value):
         obj.__dict__["_frame"] = value
+
+
+def _full_frame(table) -> pd.DataFrame:
+    """The table's frame with every column, its ``line`` column worked out on first use.
+
+    A table read from a file holds, instead of a ``line`` column, the map from row positions to
+    file line numbers (comment and blank lines counted); the column (4 bytes per row) is made the
+    first time the frame is read, so that reading a large file does not write a line number per
+    row that no message may ever need."""
+    pending = table.__dict__.get("_pending_lines")
+    if pending is not None:
+        locations, position = pending
+        frame = table.__dict__["_frame"].copy(deep=False)
+        frame.insert(position, locations.kind, locations.labels)
+        table.__dict__["_frame"] = frame
+        del table.__dict__["_pending_lines"]
+    return table.__dict__["_frame"]
 
 
 @dataclass(frozen=True)
@@ -261,7 +278,7 @@ class EnergyTable:
     def subset(self, surfaces: Iterable[str]) -> "EnergyTable":
         """The same table restricted to some surfaces (unknown names raise); table order is kept."""
         pos = self.surface_positions(surfaces)
-        frame = self.__dict__["_frame"]
+        frame = _full_frame(self)
         codes, _ = _codes(frame["surface"])
         keep = np.zeros(self.n_surfaces, dtype=bool)
         keep[pos] = True
@@ -305,7 +322,7 @@ class EnergyTable:
         if abs(t - self.temperature) < 1e-9:
             return self
         scheme = self.scheme.at_temperature(t)
-        frame = self.__dict__["_frame"]
+        frame = _full_frame(self)
         cols = [c for c in ("surface", "species", "G", "E", "ZPE", "CpdT", "TS", "solvation") if c in frame.columns]
         raw = frame[cols].copy()
         if "E" in raw.columns:
@@ -979,6 +996,8 @@ class _Scan:
         self.header_line = -1  # 0-based index of the first line that is neither blank nor a comment
         self.header_offset = 0  # byte offset of that line
         self.header_text = ""
+        self.has_line_feed = False  # at least one LF in the file
+        self.hash_after = False  # a '#' at or after the header line (set when the scan was asked for it)
 
 
 def _line_of(data: bytes, pos: int, lines_before: int) -> int:
@@ -1004,12 +1023,44 @@ def _pieces(fh):
 
 
 def _scan_file(path: str, label: str) -> _Scan:
-    """One binary pass in 4 MiB pieces: NUL bytes, UTF-16, invalid UTF-8 (with the line), the line
-    count, whether ``#`` or CR occur at all; then the header line (first line neither blank nor a
+    """One binary pass in 256 KiB pieces: NUL bytes, UTF-16, invalid UTF-8 (with the line), the
+    line count, whether ``#`` occurs at all; then the header line (first line neither blank nor a
     comment). Only C-level byte operations per piece, no copies."""
+    scan = _Scan()
+    _scan_body(path, label, scan)
+    _scan_head(path, scan)
+    _check_line_ends(label, scan)
+    return scan
+
+
+def _scan_head(path: str, scan: _Scan) -> None:
+    """The header line of the file: the first line that is neither blank nor a comment (BOM
+    skipped); sets ``header_line``, ``header_offset`` and ``header_text`` of ``scan``."""
+    with open(path, "rb") as fh:
+        offset = 0
+        for k, raw in enumerate(fh):  # stops at the first line that is neither blank nor a comment
+            text = raw.decode("utf-8", errors="replace")
+            start = 0
+            if k == 0 and raw.startswith(b"\xef\xbb\xbf"):
+                text, start = text[1:], 3
+            if not _is_skipped(text):
+                scan.header_line, scan.header_offset, scan.header_text = k, offset + start, text.rstrip("\r\n")
+                break
+            offset += len(raw)
+
+
+def _check_line_ends(label: str, scan: _Scan) -> None:
+    if not scan.has_line_feed and "\r" in scan.header_text:  # no line feed at all, a CR in the first line
+        raise EnergyTableError(label, "uses CR-only line ends (old Mac format); save the table with LF or CRLF line ends")
+
+
+def _scan_body(path: str, label: str, scan: _Scan, hash_from: int | None = None) -> None:
+    """The byte-level pass over the whole file (NUL, UTF-16, UTF-8, line count, ``#``): sets
+    ``n_lines``, ``has_hash`` and ``has_line_feed`` of ``scan`` or raises the file's first problem;
+    with ``hash_from`` (a byte offset) also ``hash_after``: a ``#`` at or after that offset."""
     import codecs
 
-    scan = _Scan()
+    position = 0
     lines_before = 0
     last = b""
     decoder = codecs.getincrementaldecoder("utf-8")()
@@ -1040,6 +1091,9 @@ def _scan_file(path: str, label: str) -> _Scan:
             elif decoder.getstate()[0]:
                 decoder.decode(piece)  # raises: a multi-byte character cut off by plain ASCII
             scan.has_hash = scan.has_hash or b"#" in piece
+            if hash_from is not None and not scan.hash_after and position + len(piece) > hash_from:
+                scan.hash_after = piece.find(b"#", max(0, hash_from - position)) >= 0
+            position += len(piece)
             lines_before += _newlines(piece)
             last = piece[-1:]
         try:
@@ -1047,21 +1101,8 @@ def _scan_file(path: str, label: str) -> _Scan:
         except UnicodeDecodeError:
             raise EnergyTableError(label, f"is not UTF-8 text: the file ends inside a multi-byte character (line {lines_before + 1}); "
                                    "save the table as CSV UTF-8") from None
-        scan.n_lines = lines_before + (1 if last and last != b"\n" else 0)
-        fh.seek(0)
-        offset = 0
-        for k, raw in enumerate(fh):  # the header: stops at the first line that is neither blank nor a comment
-            text = raw.decode("utf-8", errors="replace")
-            start = 0
-            if k == 0 and raw.startswith(b"\xef\xbb\xbf"):
-                text, start = text[1:], 3
-            if not _is_skipped(text):
-                scan.header_line, scan.header_offset, scan.header_text = k, offset + start, text.rstrip("\r\n")
-                break
-            offset += len(raw)
-    if lines_before == 0 and "\r" in scan.header_text:  # no line feed at all, a CR in the first line
-        raise EnergyTableError(label, "uses CR-only line ends (old Mac format); save the table with LF or CRLF line ends")
-    return scan
+    scan.n_lines = lines_before + (1 if last and last != b"\n" else 0)
+    scan.has_line_feed = lines_before > 0
 
 
 def _is_skipped(line: str) -> bool:
@@ -1113,7 +1154,43 @@ def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, "_Locations"]:
         raise EnergyTableError(label, "file not found; check the path")
     if os.path.isdir(path):
         raise EnergyTableError(label, "is a folder; give the CSV file (for DFT output folders use 'ecatlab ingest')")
-    scan = _scan_file(path, label)
+    if os.path.getsize(path) < _OVERLAP_BYTES:
+        return _read_scanned(path, label, _scan_file(path, label))
+    # A large file: the byte-level pass (it reads the file again, from the page cache) runs in a
+    # thread while pandas parses, on the assumption that no comment line follows the header. Its
+    # verdict comes first, as in the sequential order: a byte-level problem is the error the user
+    # gets; a '#' at or after the header line sends the file the sequential way (comment lines
+    # must be skipped by line number).
+    scan = _Scan()
+    _scan_head(path, scan)
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        body = pool.submit(_scan_body, path, label, scan, scan.header_offset if scan.header_line >= 0 else 0)
+
+        def verdict() -> bool:
+            """True when the optimistic parse stands (the scan found no '#' from the header on)."""
+            body.result()  # raises the file's byte-level problem
+            _check_line_ends(label, scan)
+            return not scan.hash_after
+
+        try:
+            found = _read_scanned(path, label, scan, verdict)
+        except Exception:  # noqa: BLE001 - whatever the optimistic parse met, the scan's verdict comes first
+            if verdict():
+                raise
+            found = None
+    return found if found is not None else _read_scanned(path, label, scan)
+
+
+#: Files from this size on (bytes) are scanned while pandas parses them (below: one after the other).
+_OVERLAP_BYTES = 8 << 20
+
+
+def _read_scanned(path: str, label: str, scan: _Scan, verdict=None) -> tuple[pd.DataFrame, "_Locations"] | None:
+    """The parse and the line bookkeeping of :func:`_read_csv` after the scan (``verdict`` None),
+    or alongside it: ``verdict()`` then waits for the byte-level pass, raises its error and says
+    whether the parse, made as if no comment line followed the header, stands (else None)."""
     if scan.header_line < 0:
         raise EnergyTableError(label, "is empty; expected a header line 'surface,species,G' (or E with corrections)")
     names = _header_names(scan, label)
@@ -1123,10 +1200,13 @@ def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, "_Locations"]:
             if sep in names[0]:
                 raise EnergyTableError(label, f"header at line {h + 1} is one column {_cut(names[0])}: the table seems separated by {what}; "
                                        "save it comma-separated (CSV)")
-    expected = scan.n_lines - h - 1  # data lines if none after the header is blank, a comment or a continuation
-    skipped = _skipped_lines(path) if scan.has_hash else None  # only a file with '#' can have comment lines
+    # only a file with '#' can have comment lines (alongside the scan: assumed none after the header)
+    skipped = _skipped_lines(path) if verdict is None and scan.has_hash else None
     body = skipped[skipped > h] if skipped is not None else np.zeros(0, dtype=np.int64)
     frame = _parse(path, label, scan, names, [int(i - h) for i in body])
+    if verdict is not None and not verdict():
+        return None
+    expected = scan.n_lines - h - 1  # data lines if none after the header is blank, a comment or a continuation
     if len(frame) >= _BIG:
         _release_memory()
     if len(frame) != expected - len(body):
@@ -1451,12 +1531,16 @@ def _validate(raw: pd.DataFrame, locations: "_Locations", label: str, scheme: Re
         "species": _categorical(species_codes, species_index),
         "G": G,
         "G_origin": origin,
-        loc.kind: loc.labels,
     }
+    lazy = loc.kind == "line" and callable(loc._labels)  # file line numbers: worked out when the frame is read
+    if not lazy:
+        data[loc.kind] = loc.labels
     for col in extra_columns:
         if col not in data:
             data[col] = numeric[col] if col in numeric else frame[col].array
     out = pd.DataFrame(data, copy=False)
     table = EnergyTable(out, scheme, label, tuple(notes))
+    if lazy:
+        table.__dict__["_pending_lines"] = (loc, 4)  # after surface, species, G, G_origin
     table.__dict__["_layout"] = (surface_index, species_index, dense)
     return table

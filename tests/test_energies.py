@@ -9,6 +9,18 @@ from ecatlab.errors import EnergyTableError
 from ecatlab.references import ReferenceScheme
 
 
+@pytest.fixture(autouse=True, params=["scan first", "scan alongside the parse"])
+def reader_order(request, monkeypatch):
+    """Every test runs twice: with the byte-level scan before the parse (files under 8 MiB) and
+    with the scan in a thread alongside it (large files; forced here by a zero threshold). Both
+    must give the same tables, warnings and messages."""
+    if request.param != "scan first":
+        import ecatlab.energies as energies
+
+        monkeypatch.setattr(energies, "_OVERLAP_BYTES", 0)
+    return request.param
+
+
 def write(tmp_path, text, name="e.csv"):
     path = tmp_path / name
     path.write_text(text)
@@ -24,6 +36,20 @@ def test_read_g_table_case_insensitive_headers(tmp_path):
     assert np.isnan(table.matrix.loc["B", "O*"])
     assert list(table.frame["line"]) == [3, 4, 6]
     assert "source" in table.frame.columns
+
+
+def test_line_column_is_worked_out_when_the_frame_is_first_read(tmp_path):
+    """The reader keeps the row -> file line map and writes the line column only when the frame is
+    read (or a subset / another temperature needs it); the numbers are the exact file lines."""
+    path = write(tmp_path, "# c\nsurface,species,G\nA,OH*,0.8\n\nA,O*,1.9\n# mid\nB,OH*,1.0\n")
+    table = read_energies(path)
+    assert "_pending_lines" in table.__dict__ and "line" not in table.__dict__["_frame"].columns
+    assert table.matrix.loc["B", "OH*"] == 1.0  # the numbers do not need it
+    assert list(table.subset(["B"]).frame["line"]) == [7]
+    assert list(table.frame["line"]) == [3, 5, 7]
+    assert "_pending_lines" not in table.__dict__
+    assert list(table.frame.columns[:5]) == ["surface", "species", "G", "G_origin", "line"]
+    assert list(read_energies(path).at_temperature(320.0).frame["line"]) == [3, 5, 7]
 
 
 def test_e_rows_converted_with_reference_corrections(tmp_path):

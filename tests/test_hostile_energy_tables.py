@@ -21,6 +21,18 @@ from ecatlab.che import limiting_potentials, state_free_energies, step_free_ener
 from ecatlab.energies import ENERGY_BOUND_EV, MAX_NAME_LENGTH, EnergyTable, read_energies
 from ecatlab.errors import ConditionError, EcatlabError, EnergyTableError
 
+
+@pytest.fixture(autouse=True, params=["scan first", "scan alongside the parse"])
+def reader_order(request, monkeypatch):
+    """Every test runs twice: with the byte-level scan before the parse (files under 8 MiB) and
+    with the scan in a thread alongside it (large files; forced here by a zero threshold). Both
+    must give the same tables, warnings and messages."""
+    if request.param != "scan first":
+        import ecatlab.energies as energies
+
+        monkeypatch.setattr(energies, "_OVERLAP_BYTES", 0)
+    return request.param
+
 HEAD = b"surface,species,G\n"
 
 # (id, file bytes, fragments that must appear, line named or None, column named or None)
