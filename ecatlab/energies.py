@@ -1185,6 +1185,11 @@ def _read_csv(path: str, label: str) -> tuple[pd.DataFrame, "_Locations"]:
 
 #: Files from this size on (bytes) are scanned while pandas parses them (below: one after the other).
 _OVERLAP_BYTES = 8 << 20
+#: Files below this size (bytes) have their species column parsed as a categorical (one small code
+#: per row: measured at 2.4 million rows, a peak of 136 MB instead of 150 MB for a 50 MB file); from
+#: this size on as Arrow strings coded from their period (no per-row hashing: faster, where the
+#: memory has room, e.g. 1.53 s instead of 1.90 s and a peak 2.3x the file at 24 million rows).
+_CATEGORICAL_SPECIES_BYTES = 128 << 20
 
 
 def _read_scanned(path: str, label: str, scan: _Scan, verdict=None) -> tuple[pd.DataFrame, "_Locations"] | None:
@@ -1235,6 +1240,10 @@ def _parse(path: str, label: str, scan: _Scan, names: list[str], skiprows: list[
     """
     numeric = [c for c in names if c.strip().lower() in ("g", "e", "zpe", "cpdt", "ts", "solvation")]
     text = dict.fromkeys((c for c in names if c not in numeric), _text_dtype())  # species too: coded from its period, or hashed once
+    if os.path.getsize(path) < _CATEGORICAL_SPECIES_BYTES:  # a few distinct species: the parser's categorical is smaller
+        for c in names:
+            if c.strip().lower() == "species":
+                text[c] = "category"
     kwargs = dict(header=0, skiprows=set(skiprows) if skiprows else None, keep_default_na=False, index_col=False,
                   encoding="utf-8", engine="c", skip_blank_lines=True)
     try:

@@ -9,15 +9,18 @@ from ecatlab.errors import EnergyTableError
 from ecatlab.references import ReferenceScheme
 
 
-@pytest.fixture(autouse=True, params=["scan first", "scan alongside the parse"])
+@pytest.fixture(autouse=True, params=["small file", "medium file", "large file"])
 def reader_order(request, monkeypatch):
-    """Every test runs twice: with the byte-level scan before the parse (files under 8 MiB) and
-    with the scan in a thread alongside it (large files; forced here by a zero threshold). Both
-    must give the same tables, warnings and messages."""
-    if request.param != "scan first":
-        import ecatlab.energies as energies
+    """Every test runs three times, down the reader's three routes (forced here by zero size
+    thresholds): the byte-level scan before the parse (files under 8 MiB), the scan in a thread
+    alongside the parse (from 8 MiB), and that with species as Arrow strings instead of the
+    parser's categorical (from 128 MiB). All must give the same tables, warnings and messages."""
+    import ecatlab.energies as energies
 
+    if request.param != "small file":
         monkeypatch.setattr(energies, "_OVERLAP_BYTES", 0)
+    if request.param == "large file":
+        monkeypatch.setattr(energies, "_CATEGORICAL_SPECIES_BYTES", 0)
     return request.param
 
 
