@@ -269,3 +269,12 @@ def test_ranking_order_rows_equals_ranking_order():
         np.testing.assert_array_equal(kernel.ranking_order_rows(g, b), kernel.ranking_order(g, b))
     one = kernel.ranking_order_rows(np.array([0.3, np.nan, 0.1, 0.2]), np.array([False, False, False, True]))
     assert list(one) == [2, 0, 3, 1]  # unblocked by G_max, then blocked, missing last
+    # more rows than one block of keys (rows are ranked a block at a time), also with a leading axis
+    S = 7
+    N = 3 * (kernel._RANK_BLOCK_KEYS // S) + 5
+    g = rng.integers(-3, 3, (N, S)).astype(float) + rng.integers(0, 2, (N, S)) * 1e-15
+    g[rng.random((N, S)) < 0.1] = np.nan
+    b = rng.random((N, S)) < 0.3
+    np.testing.assert_array_equal(kernel.ranking_order_rows(g, b), kernel.ranking_order(g, b))
+    g3, b3 = g[: 2 * (N // 2)].reshape(2, N // 2, S), b[: 2 * (N // 2)].reshape(2, N // 2, S)
+    np.testing.assert_array_equal(kernel.ranking_order_rows(g3, b3), kernel.ranking_order(g3, b3))

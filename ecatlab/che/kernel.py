@@ -496,6 +496,10 @@ def _ordered_bits(x: np.ndarray) -> np.ndarray:
     return u
 
 
+#: Keys per block of rows in :func:`ranking_order_rows` (64 k keys: 512 kB per key array).
+_RANK_BLOCK_KEYS = 1 << 16
+
+
 def ranking_order_rows(g_max, blocked) -> np.ndarray:
     """:func:`ranking_order` along the last axis, for arrays of many rows (e.g. samples x surfaces).
 
@@ -526,6 +530,14 @@ def ranking_order_rows(g_max, blocked) -> np.ndarray:
     S = g.shape[-1]
     if S == 0:
         return np.zeros(g.shape, dtype=np.intp)
+    R = g.size // S
+    block = max(1, _RANK_BLOCK_KEYS // S)
+    if R > block:  # rows are independent: a block of rows at a time keeps the key arrays in cache
+        flat_g, flat_b = g.reshape(R, S), b.reshape(R, S)
+        out = np.empty((R, S), dtype=np.int64)
+        for lo in range(0, R, block):
+            out[lo:lo + block] = ranking_order_rows(flat_g[lo:lo + block], flat_b[lo:lo + block])
+        return out.reshape(g.shape)
     missing = np.isnan(g)
     any_missing = bool(missing.any())
     index_bits = max(1, int(S - 1).bit_length())

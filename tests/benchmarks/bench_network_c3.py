@@ -82,15 +82,20 @@ from _loop_compile import loop_compile  # noqa: E402 - tests/ is on sys.path (be
 
 def compare_compile(net, table, repeats: int = 3) -> bool:
     """Time the engine's compile of the network's distinct steps against :func:`loop_compile`
-    (alternating, median of ``repeats``) and check that both give the same arrays, bit for bit."""
+    (alternating, median of ``repeats``; a full garbage collection before each, so neither pays for
+    the network's objects) and check that both give the same arrays, bit for bit."""
     from ecatlab.che import compile_steps
 
     distinct = list({e.step.equation: e.step for e in net.edges}.values())
     times = {"engine": [], "loop": []}
+    import gc
+
     for _ in range(repeats):
+        gc.collect()  # each side starts without a pending collection of what came before (the network build)
         t0 = time.perf_counter()
         compiled = compile_steps(distinct, net.adsorbates, table.scheme)
         times["engine"].append(time.perf_counter() - t0)
+        gc.collect()
         t0 = time.perf_counter()
         ref = loop_compile(distinct, net.adsorbates, table.scheme)
         times["loop"].append(time.perf_counter() - t0)
