@@ -2,6 +2,8 @@
 
 import sys
 
+import pytest
+
 sys.dont_write_bytecode = True  # no __pycache__ folders in the checkout from the test run
 
 try:
@@ -16,3 +18,20 @@ try:
     settings.load_profile("ecatlab")
 except ImportError:  # pragma: no cover - hypothesis is in the test extra
     pass
+
+
+
+@pytest.fixture(params=["small file", "medium file", "large file"])
+def reader_routes(request, monkeypatch):
+    """Runs a test three times, down the CSV reader's three routes (forced by zero size thresholds):
+    the byte-level scan before the parse (files under 8 MiB), the scan in a thread alongside the
+    parse (from 8 MiB), and that with species as Arrow strings instead of the parser's categorical
+    (from 128 MiB). All must give the same tables, warnings and messages. Used by the reader tests
+    through ``pytestmark = pytest.mark.usefixtures("reader_routes")``."""
+    import ecatlab.energies as energies
+
+    if request.param != "small file":
+        monkeypatch.setattr(energies, "_OVERLAP_BYTES", 0)
+    if request.param == "large file":
+        monkeypatch.setattr(energies, "_CATEGORICAL_SPECIES_BYTES", 0)
+    return request.param

@@ -22,19 +22,7 @@ from ecatlab.energies import ENERGY_BOUND_EV, MAX_NAME_LENGTH, EnergyTable, read
 from ecatlab.errors import ConditionError, EcatlabError, EnergyTableError
 
 
-@pytest.fixture(autouse=True, params=["small file", "medium file", "large file"])
-def reader_order(request, monkeypatch):
-    """Every test runs three times, down the reader's three routes (forced here by zero size
-    thresholds): the byte-level scan before the parse (files under 8 MiB), the scan in a thread
-    alongside the parse (from 8 MiB), and that with species as Arrow strings instead of the
-    parser's categorical (from 128 MiB). All must give the same tables, warnings and messages."""
-    import ecatlab.energies as energies
-
-    if request.param != "small file":
-        monkeypatch.setattr(energies, "_OVERLAP_BYTES", 0)
-    if request.param == "large file":
-        monkeypatch.setattr(energies, "_CATEGORICAL_SPECIES_BYTES", 0)
-    return request.param
+pytestmark = pytest.mark.usefixtures("reader_routes")  # every test down the reader's three routes (conftest)
 
 HEAD = b"surface,species,G\n"
 
