@@ -701,11 +701,9 @@ _PARALLEL_ROWS = 1 << 20  # rows from which per-row passes are split over thread
 
 def _lanes() -> int:
     """Threads for the per-row passes of a large table: the CPUs this process may use, at most 4."""
-    try:
-        available = len(os.sched_getaffinity(0))
-    except (AttributeError, OSError):  # pragma: no cover - not Linux
-        available = os.cpu_count() or 1
-    return max(1, min(available, 4))
+    from ecatlab._threads import available_cpus
+
+    return available_cpus(4)
 
 
 def _row_pieces(n: int, align: int = 1) -> list[tuple[int, int]]:

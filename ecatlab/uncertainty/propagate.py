@@ -606,13 +606,9 @@ MAX_DEFAULT_WORKERS = 4
 def default_workers() -> int:
     """Threads :func:`propagate` uses when not told: the CPUs this process may run on (its
     affinity mask, not the machine's count), at most :data:`MAX_DEFAULT_WORKERS`."""
-    import os
+    from ecatlab._threads import available_cpus
 
-    try:
-        n = len(os.sched_getaffinity(0))
-    except (AttributeError, OSError):  # pragma: no cover - not Linux
-        n = os.cpu_count() or 1
-    return max(1, min(MAX_DEFAULT_WORKERS, n))
+    return available_cpus(MAX_DEFAULT_WORKERS)
 
 
 #: Largest share of the available memory the results of :func:`propagate` may take (the rest is
