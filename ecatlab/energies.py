@@ -715,16 +715,10 @@ def _row_pieces(n: int, align: int = 1) -> list[tuple[int, int]]:
 
 
 def _concurrently(tasks: list) -> list:
-    """Results of the callables in order: the first runs in this thread, the others in worker
-    threads (numpy and Arrow kernels release the GIL). An exception is raised after all finished."""
-    if len(tasks) == 1:
-        return [tasks[0]()]
-    from concurrent.futures import ThreadPoolExecutor
+    """Results of the callables in order, one thread each (numpy and Arrow kernels release the GIL)."""
+    from ecatlab._threads import map_in_threads
 
-    with ThreadPoolExecutor(max_workers=len(tasks) - 1) as pool:
-        futures = [pool.submit(task) for task in tasks[1:]]
-        first = tasks[0]()
-        return [first] + [f.result() for f in futures]
+    return map_in_threads(lambda task: task(), tasks, len(tasks))
 
 
 def _strictly_increasing(strings) -> bool:
@@ -945,19 +939,8 @@ class _FileLines:
     def all(self, n: int) -> np.ndarray:
         """Line numbers of data rows 0..n-1."""
         dtype = np.int32 if n + self._offset + len(self._adjusted) + 1 < 2**31 - 1 else np.int64
-        if not len(self._adjusted):
-            pieces = _row_pieces(n)
-            if len(pieces) == 1:
-                return np.arange(self._offset + 1, n + self._offset + 1, dtype=dtype)
-            out = np.empty(n, dtype=dtype)  # written by the lanes, in cache-sized steps
-
-            def fill(lo: int, hi: int) -> None:
-                for start in range(lo, hi, 1 << 16):
-                    stop = min(start + (1 << 16), hi)
-                    out[start:stop] = np.arange(start + self._offset + 1, stop + self._offset + 1, dtype=dtype)
-
-            _concurrently([lambda lo=lo, hi=hi: fill(lo, hi) for lo, hi in pieces])
-            return out
+        if not len(self._adjusted):  # made when the table's frame is first read, not while reading the file
+            return np.arange(self._offset + 1, n + self._offset + 1, dtype=dtype)
         return self(np.arange(n, dtype=np.int64)).astype(dtype, copy=False)
 
     def __call__(self, positions: np.ndarray) -> np.ndarray:

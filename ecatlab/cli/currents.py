@@ -42,7 +42,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--surface", nargs="+", metavar="NAME", help="only these surfaces")
     p.add_argument("--pH", type=opt.finite_float, default=0.0, help="pH (default 0)")
     p.add_argument("--scale", default="RHE", type=str.upper, choices=("RHE", "SHE"), help="potential scale (default RHE; case-insensitive)")
-    p.add_argument("-T", "--temperature", type=opt.finite_float, default=298.15, help="temperature in K (default 298.15)")
+    p.add_argument("-T", "--temperature", type=opt.temperature, default=298.15, help="temperature in K (default 298.15)")
     p.add_argument("-o", "--output", metavar="CSV", help="write the polarization table (one row per surface and potential)")
     p.add_argument("--coverages", metavar="CSV", help="write the coverage table")
     p.add_argument("--efficiency", metavar="CSV", help="write partial currents and faradaic efficiencies")

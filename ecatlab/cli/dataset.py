@@ -48,7 +48,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     s.add_argument("--pathway", "-p", nargs="+", default=[], metavar="KEY", help="built-in pathway key(s) (default: all built-in pathways)")
     s.add_argument("--pH", type=opt.finite_float, default=0.0, help="pH (default 0)")
     s.add_argument("--scale", choices=("RHE", "SHE"), default="RHE", type=str.upper, help="potential scale (default RHE)")
-    s.add_argument("-T", "--temperature", type=opt.finite_float, default=298.15, help="temperature in K (default 298.15)")
+    s.add_argument("-T", "--temperature", type=opt.temperature, default=298.15, help="temperature in K (default 298.15)")
     s.add_argument("--top", type=int, default=5, metavar="K", help="best K surfaces per pathway to print (default 5)")
     s.add_argument("-o", "--output", metavar="FOLDER", help="write the per-(surface, pathway) results as a partitioned Parquet folder")
     s.add_argument("--measure", choices=("full", "gmax"), default="full", help="columns written with -o: all limiting-potential columns (full) or the G_max measure only")

@@ -27,7 +27,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--surface", nargs="+", metavar="NAME", help="surfaces to analyse (default all)")
     p.add_argument("--imputation-rank", type=int, metavar="R", help="rank for imputing missing entries (default: chosen by cross-validation)")
     p.add_argument("--standardize", action="store_true", help="scale every adsorbate to unit variance before PCA (default: eV as given)")
-    p.add_argument("-T", "--temperature", type=opt.finite_float, default=298.15, help="temperature in K at which the table is read (default 298.15)")
+    p.add_argument("-T", "--temperature", type=opt.temperature, default=298.15, help="temperature in K at which the table is read (default 298.15)")
     p.add_argument("--fill", action="store_true", help="estimate missing energies from the automatic scaling relations (needs -o)")
     p.add_argument("-o", "--output", metavar="CSV", help="with --fill: write the filled table (surface, species, G, status, estimate_error, estimate_model)")
     p.add_argument("--provenance", metavar="CSV", help="with --fill: write the provenance of every energy (computed / estimated / missing)")

@@ -32,7 +32,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--potential", "-U", nargs="+", type=opt.finite_float, default=[0.0], metavar="V", help="potentials at which to report the stable state (V vs scale; default 0)")
     p.add_argument("--pH", type=opt.finite_float, default=0.0, help="pH (default 0)")
     p.add_argument("--scale", choices=("RHE", "SHE"), default="RHE", type=str.upper, help="potential scale (default RHE)")
-    p.add_argument("-T", "--temperature", type=opt.finite_float, default=298.15, help="temperature in K (default 298.15)")
+    p.add_argument("-T", "--temperature", type=opt.temperature, default=298.15, help="temperature in K (default 298.15)")
     p.add_argument("--range", nargs=2, type=opt.finite_float, default=(-1.0, 2.0), metavar=("UMIN", "UMAX"), help="potential range of the map, V (default -1 2)")
     p.add_argument("--tolerance", type=opt.finite_float, default=0.0, metavar="EV", help="eV per cell within which the clean surface counts as stable (default 0)")
     p.add_argument("-o", "--output", metavar="FIGURE", help="save the map of the (one) chosen surface: svg, pdf or png")

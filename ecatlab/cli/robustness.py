@@ -44,7 +44,7 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--surface", action="append", default=None, metavar="NAME", help="restrict to these surfaces (repeat)")
     p.add_argument("--pH", type=opt.finite_float, default=0.0, help="pH (default 0)")
     p.add_argument("--scale", choices=("RHE", "SHE"), default="RHE", type=str.upper, help="potential scale (default RHE)")
-    p.add_argument("-T", "--temperature", type=opt.finite_float, default=298.15, help="temperature in K (default 298.15)")
+    p.add_argument("-T", "--temperature", type=opt.temperature, default=298.15, help="temperature in K (default 298.15)")
     p.add_argument("-o", "--output", metavar="TABLE.csv", help="write the summary table (CSV) here")
     p.add_argument("--figure", metavar="FIGURE", help="save the ranking-probability figure of the first pathway (svg, pdf, png)")
     p.add_argument("--force", action="store_true", help="overwrite existing output files")

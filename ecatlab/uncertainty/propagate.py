@@ -205,12 +205,9 @@ class UncertaintyResult:
     def _map(self, fn, items: list) -> list:
         """``[fn(x) for x in items]``, in :attr:`workers` threads when there are several items (numpy
         releases the GIL in the sorts and reductions the tables are made of); same results, same order."""
-        if self.workers <= 1 or len(items) <= 1:
-            return [fn(x) for x in items]
-        from concurrent.futures import ThreadPoolExecutor
+        from ecatlab._threads import map_in_threads
 
-        with ThreadPoolExecutor(max_workers=min(self.workers, len(items))) as pool:
-            return list(pool.map(fn, items))
+        return map_in_threads(fn, items, self.workers)
 
     def _order(self, ps: "PathwaySamples") -> np.ndarray:
         """:meth:`PathwaySamples.order`, its samples split between the worker threads."""
